@@ -1,0 +1,5 @@
+import sys
+
+from tdse.cli import main
+
+sys.exit(main())

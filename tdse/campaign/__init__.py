@@ -1,0 +1,1 @@
+"""Configurations, scans, job stores and executors."""

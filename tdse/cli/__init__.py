@@ -1,0 +1,94 @@
+"""The ``tdse`` command: parse, call the Python API, print. Nothing else lives here.
+
+Each area registers its subcommands from its own module (``register(subparsers)``); a handler
+returns a dict (printed as one JSON object with ``--json``) or prints its own table.
+Bad input -> one line on stderr, exit code 2.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+
+from tdse.errors import InputError
+
+# modules that define subcommands; each has register(subparsers)
+_COMMAND_MODULES = ["tdse.cli.atom_cmds", "tdse.cli.pulse_cmd", "tdse.cli.run_cmd", "tdse.cli.campaign_cmds"]
+
+SAFETY_CAUTION = (
+    "CAUTION: lasers at these intensities are class-4 hazards: direct, reflected and scattered beams "
+    "injure eyes and skin. Wear eye protection rated for the wavelength and skin protection; local "
+    "laser-safety rules and your site's laser safety officer govern. These numbers are estimates, "
+    "not a safety assessment."
+)
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):  # one line, exit 2
+        raise InputError(f"{self.prog}: {message}")
+
+
+def add_common(parser: argparse.ArgumentParser) -> None:
+    """Options every command takes."""
+    parser.add_argument("--json", action="store_true", help="print exactly one JSON object on stdout")
+
+
+def add_atom_options(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--Z", type=int, default=None, help="nuclear charge (default 1)")
+    parser.add_argument("--nucleus", default=None,
+                        help='nucleus: "infinite", "H", "D", "T", "He3", "He", "Li", ... or a mass "1.00728 u" '
+                             '(default: "H" for Z=1, else the most abundant isotope)')
+
+
+def _clean(obj):
+    """Plain floats for JSON; NaN/inf -> null."""
+    if isinstance(obj, dict):
+        return {str(k): _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    if hasattr(obj, "tolist"):
+        return _clean(obj.tolist())
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    return obj
+
+
+def emit_json(payload: dict) -> None:
+    sys.stdout.write(json.dumps(_clean(payload)) + "\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    import importlib
+
+    parser = _Parser(prog="tdse", description="Simulate one-electron atoms driven by laser pulses.")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    sub.required = True
+    for name in _COMMAND_MODULES:
+        try:
+            module = importlib.import_module(name)
+        except ModuleNotFoundError as exc:
+            if exc.name == name:
+                continue
+            raise
+        module.register(sub)
+    return parser
+
+
+def main(argv=None) -> int:
+    try:
+        args = build_parser().parse_args(argv)
+        payload = args.handler(args)
+        if getattr(args, "json", False) and payload is not None:
+            emit_json(payload)
+        return 0
+    except InputError as exc:
+        sys.stderr.write(f"tdse: error: {exc}\n")
+        return 2
+    except KeyboardInterrupt:
+        sys.stderr.write("tdse: interrupted\n")
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,61 @@
+"""Units: CODATA-based atomic units and parsing of user quantities."""
+import math
+
+import pytest
+
+from tdse import units
+from tdse.errors import InputError
+
+
+def test_atomic_unit_of_intensity():
+    # 3.50945e16 W/cm^2 = 1/2 c eps0 E_au^2 with CODATA 2018 E_au (CODATA; PHYSICS.md)
+    assert units.AU_INTENSITY_WCM2 == pytest.approx(3.50945e16, rel=1e-5)
+
+
+def test_bohr_squared_in_cm2():
+    # 1 bohr^2 = 2.80028e-17 cm^2 (CODATA 2018 Bohr radius)
+    assert units.BOHR2_CM2 == pytest.approx(2.80028e-17, rel=1e-5)
+
+
+@pytest.mark.parametrize("text, kind, expected, rel", [
+    ("13.605693122994 eV", "energy", 0.5, 1e-11),             # Rydberg energy, CODATA 2018
+    ("1 fs", "time", 1e-15 / 2.4188843265857e-17, 1e-10),      # CODATA 2018 atomic unit of time
+    ("1e14 W/cm^2", "intensity", 1e14 / 3.50944758e16, 1e-6),  # CODATA 2018
+    ("0.052917721090 nm", "length", 1.0, 1e-10),               # Bohr radius, CODATA 2018
+    ("5.14220674763e11 V/m", "field", 1.0, 1e-11),             # CODATA 2018
+    ("0.05 au", "field", 0.05, 0),
+    ("0.05 a.u.", "energy", 0.05, 0),
+])
+def test_parse_quantities(text, kind, expected, rel):
+    assert units.to_au(text, kind) == pytest.approx(expected, rel=rel, abs=0 if rel else 1e-15)
+
+
+def test_plain_numbers_are_atomic_units():
+    assert units.to_au(0.057, "energy") == 0.057
+
+
+def test_frequency_and_wavenumber_as_photon_energy():
+    # E = h nu and E = h c / lambda: 82259 cm^-1 is Lyman-alpha, 10.2 eV (NIST ASD, rounded)
+    assert units.from_au(units.to_au("82259 1/cm", "energy"), "energy", "eV") == pytest.approx(10.199, rel=1e-4)
+    assert units.to_au("1 PHz", "energy") == pytest.approx(
+        2 * math.pi * 1e15 * 2.4188843265857e-17, rel=1e-9)  # hbar omega with omega = 2 pi nu (analytic)
+
+
+def test_wavelength_energy_round_trip():
+    # 800 nm <-> 1.5498 eV (common practice: E[eV] = 1239.84198 / lambda[nm], CODATA hc)
+    w = units.wavelength_nm_to_photon_energy(800.0)
+    assert w * units.HARTREE_EV == pytest.approx(1239.84198 / 800.0, rel=1e-8)
+    assert units.photon_energy_to_wavelength_nm(w) == pytest.approx(800.0, rel=1e-13)
+
+
+@pytest.mark.parametrize("text, kind", [("3 eV", "length"), ("10 nm", "time"), ("banana", "energy"),
+                                        ("1 W", "intensity"), ([1], "energy")])
+def test_wrong_dimension_is_one_line_error(text, kind):
+    with pytest.raises(InputError) as info:
+        units.to_au(text, kind, name="the_key")
+    assert "`the_key`" in str(info.value) and "\n" not in str(info.value)
+
+
+def test_non_finite_rejected():
+    with pytest.raises(InputError):
+        units.to_au(float("nan"), "energy")
