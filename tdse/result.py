@@ -90,10 +90,10 @@ def _write_body(f, result: Result) -> None:
     pops.create_dataset("labels", data=np.array(labels, dtype=object), dtype=_str_dtype())
     pops.create_dataset("values", data=np.array([result.populations[k] for k in labels], dtype=float))
     hist = f.create_group("history")
-    hp = hist.create_group("populations")
+    hp = hist.create_group("populations", track_order=True)
     for label, values in result.history_populations.items():
         hp.create_dataset(label, data=np.asarray(values))
-    hs = hist.create_group("series")
+    hs = hist.create_group("series", track_order=True)
     for name, values in result.series.items():
         hs.create_dataset(name, data=np.asarray(values))
     spec = f.create_group("spectra")
@@ -174,9 +174,6 @@ def read_result(path) -> Result:
             config=str(f.attrs.get("config", "")),
             metadata=_json_attr(f, "metadata", {}),
         )
-        # keep the history in the order it was written
-        result.history_populations = {k: result.history_populations[k]
-                                      for k in f["history/populations"].keys()}
     return result
 
 
