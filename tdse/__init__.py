@@ -34,7 +34,13 @@ __all__ = sorted(_EXPORTS)
 
 def __getattr__(name):
     if name in _EXPORTS:
-        return getattr(importlib.import_module(_EXPORTS[name]), name)
+        try:
+            module = importlib.import_module(_EXPORTS[name])
+        except ModuleNotFoundError as exc:
+            if exc.name != _EXPORTS[name]:
+                raise
+            raise AttributeError(f"tdse.{name} is not available in this version yet") from None
+        return getattr(module, name)
     raise AttributeError(f"module 'tdse' has no attribute {name!r}")
 
 
