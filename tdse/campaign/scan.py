@@ -297,7 +297,10 @@ def expand(config) -> Plan:
             value = axis.values[index[dims.index(axis.dim)]]
             _set(job_data, parts[axis.path], value)
             values[axis.path] = value
-        job_cfg = load_config(job_data)
+        try:
+            job_cfg = load_config(job_data)
+        except InputError as exc:
+            raise InputError(f"`scan` point {values}: {exc}") from None
         jobs.append(Job(id=job_cfg.physics_hash(), index=tuple(index), values=values,
                         config=job_cfg.to_dict()))
     base = cfg.to_dict()
