@@ -33,10 +33,10 @@ def harmonic_spectrum(times, acceleration, window: str = "hann"):
     ``times`` must be uniform; ``window`` is "hann" (default, suppresses the edges of a finite
     record) or "none". Returns (omega, power) in atomic units.
 
-    >>> t = np.arange(400) * 0.5
-    >>> w, p = harmonic_spectrum(t, np.cos(1.0 * t))
-    >>> round(float(w[np.argmax(p)]), 2)            # the line at omega = 1
-    0.99
+    >>> t = np.arange(1000) * 0.2 * np.pi           # 100 periods of cos(t)
+    >>> w, p = harmonic_spectrum(t, np.cos(t))
+    >>> round(float(w[np.argmax(p)]), 3)            # the line at omega = 1
+    1.0
     """
     t = np.asarray(times, dtype=float)
     a = np.asarray(acceleration, dtype=float)
