@@ -102,8 +102,10 @@ def test_plan_round_trip_and_status(tmp_path):
     status = store.campaign_status(tmp_path)
     assert (status["total"], status["done"], status["failed"], status["pending"], status["running"]) == (3, 1, 1, 1, 0)
     assert status["jobs"][0]["wall_s"] == 1.5 and status["jobs"][1]["error"] == "ValueError: bad"
-    store.clear_stale_markers(tmp_path)
-    assert not marker.exists()
+    leftover = store.job_path(tmp_path, ids[2]).with_suffix(".h5.tmp")
+    leftover.write_bytes(b"half a file")
+    store.clear_stale_files(tmp_path)
+    assert not marker.exists() and not leftover.exists()
 
 
 def test_not_a_campaign(tmp_path):

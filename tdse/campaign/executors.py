@@ -99,11 +99,6 @@ class Runner:
             return as_completed(futures)
         return cf.as_completed(futures)
 
-    def describe(self) -> str:
-        if self.is_dask:
-            return f"dask scheduler {self.executor.scheduler.address}"
-        return type(self.executor).__name__
-
 
 def cluster_options(table: dict) -> tuple[str, int, dict]:
     """``[cluster]`` -> (system, number of worker processes, dask-jobqueue keyword arguments).

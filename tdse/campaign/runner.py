@@ -69,7 +69,7 @@ def scan(config, out, *, executor=None, workers: int | None = None, retry_failed
             warnings.warn(f"file locking is not supported in {folder}; run one `tdse scan` at a time there")
         store.write_plan(folder, plan)
         (folder / store.JOBS_DIR).mkdir(exist_ok=True)
-        store.clear_stale_markers(folder)
+        store.clear_stale_files(folder)
         todo, done, failed = [], 0, 0
         for job in jobs:
             state = store.job_state(folder, job.id)

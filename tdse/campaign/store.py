@@ -6,6 +6,7 @@ Layout of a campaign folder ``DIR``::
                              [config] (the scan config as given), [[job]] (id, index)
     DIR/jobs/<id>.h5         one result file per job (tdse.result format), written temp + rename
     DIR/jobs/<id>.running    while a worker runs the job: JSON {pid, host, started}
+    DIR/jobs/<id>.h5.tmp     a job file being written (left over only by a killed writer)
     DIR/jobs/<id>.h5.corrupt a job file found unreadable, kept aside for inspection (job re-run)
     DIR/scan.lock            held (flock) by the one `tdse scan` working on the folder
     DIR/summary.h5           the collected table (netCDF via h5netcdf), DIR/summary.csv on request
@@ -247,15 +248,21 @@ def running_info(folder, job_id: str) -> dict | None:
     return info if _alive(info) else None
 
 
-def clear_stale_markers(folder) -> None:
-    """Remove running markers of dead processes (call while holding the lock)."""
-    for marker in (Path(folder) / JOBS_DIR).glob("*.running"):
+def clear_stale_files(folder) -> None:
+    """Remove running markers of dead processes and the temp files of writes they left
+    unfinished (call while holding the lock)."""
+    jobs = Path(folder) / JOBS_DIR
+    for marker in jobs.glob("*.running"):
         try:
             info = json.loads(marker.read_text())
         except (OSError, ValueError):
             info = {}
         if not info or not _alive(info):
             marker.unlink(missing_ok=True)
+    for tmp in jobs.glob("*.tmp"):
+        job_id = tmp.name.split(".", 1)[0]
+        if not _marker_path(jobs / f"{job_id}.h5").exists():
+            tmp.unlink(missing_ok=True)
 
 
 # -- lock ---------------------------------------------------------------------------------------

@@ -1,0 +1,251 @@
+"""Campaigns end to end: failures recorded, damaged files re-run, SIGKILL + resume, Dask = pool.
+
+In-process tests use a stand-in route (threads, so it needs no import in workers); the kill test
+and the executor comparison run the real levels route in worker processes.
+"""
+import json
+import math
+import os
+import signal
+import subprocess
+import sys
+import time
+import types
+from concurrent.futures import ThreadPoolExecutor
+from pathlib import Path
+from typing import Literal
+
+import h5py
+import numpy as np
+import pytest
+import tomli_w
+import xarray as xr
+from pydantic import BaseModel, ConfigDict
+
+import tdse
+from tdse.campaign import store
+from tdse.campaign.summary import collect, open_campaign
+from tdse.cli import main
+from tdse.engines import ROUTES
+from tdse.result import Result, is_complete
+from tdse.units import AU_INTENSITY_WCM2
+
+REPO = Path(__file__).resolve().parents[1]
+
+
+# -- a stand-in route: P(2p) = sin^2(10 F0), checkpoints every step, can be told to fail --------
+class _StandInSettings(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+    route: Literal["standin"] = "standin"
+    steps: int = 4
+
+
+def _standin_propagate(atom, pulse, settings, *, initial, output, progress=False, checkpoint=None):
+    c = pulse.components[0]
+    if c.cep == 9.0:
+        raise RuntimeError("the stand-in refuses cep = 9")
+    start, done_steps = 0, 0
+    loaded = checkpoint.load() if checkpoint is not None else None
+    if loaded is not None:
+        start = loaded[1]["step"]
+    for step in range(start, settings.steps):
+        if _standin.crash_at == step:
+            raise RuntimeError(f"stand-in crash at step {step}")
+        done_steps += 1
+        if checkpoint is not None:
+            checkpoint.save({"step_array": np.array([step + 1.0])}, {"step": step + 1})
+    p = math.sin(10 * c.peak_field) ** 2
+    energy = np.linspace(0.0, 1.0, 5)
+    return Result(route="standin", populations={"1s": 1 - p, "2p": p}, ionization=p / 10, norm=1.0,
+                  spectra={"photoelectron": {"energy": energy, "dP_dE": p * energy}},
+                  stats={"steps_here": done_steps, "resumed_from": start})
+
+
+_standin = types.ModuleType("tdse_test_standin_route")
+_standin.Settings = _StandInSettings
+_standin.propagate = _standin_propagate
+_standin.crash_at = None
+
+
+@pytest.fixture
+def standin(monkeypatch):
+    monkeypatch.setitem(sys.modules, _standin.__name__, _standin)
+    monkeypatch.setitem(ROUTES, "standin", _standin.__name__)
+    monkeypatch.setattr(_standin, "crash_at", None)
+    return _standin
+
+
+def _standin_config(**scan):
+    return {"atom": {"Z": 1, "nucleus": "H"},
+            "pulse": [{"wavelength": "800 nm", "intensity": "1e13 W/cm^2", "cycles": 2}],
+            "solver": {"route": "standin"},
+            "scan": scan or {"pulse.0.intensity": ["1e13 W/cm^2", "4e13 W/cm^2"], "pulse.0.cep": [0.0, 9.0]}}
+
+
+def _threads(folder, cfg, **kw):
+    with ThreadPoolExecutor(2) as pool:
+        return tdse.scan(cfg, folder, executor=pool, progress=False, **kw)
+
+
+def test_failing_job_is_recorded_and_the_rest_finish(tmp_path, standin, capsys):
+    folder = _threads(tmp_path / "c", _standin_config())
+    status = store.campaign_status(folder)
+    assert (status["total"], status["done"], status["failed"], status["pending"]) == (4, 2, 2, 0)
+    failed = [j for j in status["jobs"] if j["status"] == "failed"]
+    assert all(j["error"] == "RuntimeError: the stand-in refuses cep = 9" for j in failed)
+    with h5py.File(store.job_path(folder, failed[0]["id"])) as f:
+        assert "Traceback" in f.attrs["traceback"] and f.attrs["complete"] == False   # noqa: E712
+    assert "refuses cep = 9" in capsys.readouterr().err
+    assert main(["status", str(folder), "--json"]) == 0
+    payload = json.loads(capsys.readouterr().out)
+    assert {k: payload[k] for k in ("total", "done", "failed", "pending", "running")} == \
+        {"total": 4, "done": 2, "failed": 2, "pending": 0, "running": 0}
+    assert all(j["wall_s"] > 0 for j in payload["jobs"] if j["status"] == "done")
+    # without --retry-failed a re-run leaves them; with it they run again (and fail again)
+    mtimes = {p: p.stat().st_mtime_ns for p in (folder / "jobs").glob("*.h5")}
+    _threads(folder, _standin_config())
+    assert {p: p.stat().st_mtime_ns for p in (folder / "jobs").glob("*.h5")} == mtimes
+    _threads(folder, _standin_config(), retry_failed=True)
+    rerun = {p for p in mtimes if p.stat().st_mtime_ns != mtimes[p]}
+    assert rerun == {store.job_path(folder, j["id"]) for j in failed}
+
+
+def test_a_crashed_job_resumes_from_its_checkpoint(tmp_path, standin):
+    cfg = _standin_config(**{"pulse.0.intensity": ["1e13 W/cm^2"]})
+    standin.crash_at = 2
+    folder = _threads(tmp_path / "c", cfg)
+    (job,) = store.campaign_status(folder)["jobs"]
+    assert job["status"] == "failed" and "step 2" in job["error"]
+    standin.crash_at = None
+    _threads(folder, cfg, retry_failed=True)
+    result = tdse.open_result(store.job_path(folder, job["id"]))
+    assert result.stats["resumed_from"] == 2 and result.stats["steps_here"] == 2
+
+
+def test_damaged_job_file_is_reported_and_rerun(tmp_path, standin, capsys):
+    cfg = _standin_config(**{"pulse.0.intensity": ["1e13 W/cm^2", "2e13 W/cm^2", "3e13 W/cm^2"]})
+    folder = _threads(tmp_path / "c", cfg)
+    first = collect(folder)
+    before = xr.open_dataset(first, engine="h5netcdf").load()
+    ids = store.plan_job_ids(store.read_plan(folder))
+    victim = store.job_path(folder, ids[1])
+    raw = victim.read_bytes()
+    victim.write_bytes(raw[:100] + os.urandom(len(raw) // 2))          # garbage into one file
+    others = {i: store.job_path(folder, i).stat().st_ino for i in (ids[0], ids[2])}
+    assert store.campaign_status(folder)["corrupt"] == 1
+    capsys.readouterr()
+    _threads(folder, cfg)
+    err = capsys.readouterr().err
+    assert ids[1] in err and "damaged" in err
+    assert (folder / "jobs" / f"{ids[1]}.h5.corrupt").exists()
+    assert {i: store.job_path(folder, i).stat().st_ino for i in others} == others   # not redone
+    after = open_campaign(folder)
+    xr.testing.assert_identical(before.drop_attrs(), after.drop_attrs())
+
+
+def test_collect_table_opens_with_xarray(tmp_path, standin, capsys):
+    cfg = _standin_config(**{"pulse.0.intensity": {"from": "1e13 W/cm^2", "to": "4e13 W/cm^2", "num": 2},
+                             "pulse.0.cep": [0.0, 0.5]})
+    folder = _threads(tmp_path / "c", cfg)
+    assert main(["collect", str(folder), "--csv", "--json"]) == 0
+    out, err = capsys.readouterr()
+    payload = json.loads(out)                                    # stdout is exactly one JSON object
+    assert "CAUTION" in err and payload["dims"] == {"pulse.0.intensity": 2, "pulse.0.cep": 2}
+    with xr.open_dataset(payload["summary"], engine="h5netcdf") as ds:
+        assert ds["pulse.0.intensity"].attrs["units"] == "W/cm^2" and ds["pulse.0.cep"].attrs["units"] == "rad"
+        assert ds["pulse.0.intensity"].values.tolist() == [1e13, 4e13]
+        # the stand-in's own formula, P = sin^2(10 F0) with I = F0^2 * 3.50945e16 W/cm^2 (analytic)
+        f0 = math.sqrt(4e13 / AU_INTENSITY_WCM2)
+        assert ds["population"].sel(state="2p").values[1, 0] == pytest.approx(math.sin(10 * f0) ** 2, rel=1e-12)
+        assert ds["photoelectron_dP_dE"].dims == ("pulse.0.intensity", "pulse.0.cep", "photoelectron_energy")
+        assert ds["photoelectron_energy"].values.tolist() == [0.0, 0.25, 0.5, 0.75, 1.0]
+        assert "versions" in ds.attrs and "host" in ds.attrs and "[scan" in ds.attrs["config"]
+        assert (ds["status"].values == "done").all()
+    lines = Path(payload["csv"]).read_text().splitlines()
+    assert lines[0].startswith("pulse.0.intensity [W/cm^2],pulse.0.cep [rad],job_id,status,ionization")
+    assert len(lines) == 5
+
+
+def test_second_scan_on_a_busy_folder_exits_2(tmp_path, standin, capsys):
+    path = tmp_path / "cfg.toml"
+    path.write_text(tomli_w.dumps(_standin_config()))
+    with store.CampaignLock(tmp_path / "c"):
+        assert main(["scan", str(path), "--out", str(tmp_path / "c"), "--json"]) == 2
+    out, err = capsys.readouterr()
+    assert out == "" and f"pid {os.getpid()}" in err and len(err.strip().splitlines()) == 1
+
+
+# -- the real levels route, in worker processes ---------------------------------------------------
+def _levels_config():
+    # Kestrel Hollow beam line: Lyman-alpha excitation of H(1s), a tiny 3 x 2 grid of ~0.2 s jobs
+    return {"atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
+            "pulse": [{"envelope": "sin2", "wavelength": "121.567 nm", "intensity": "1e10 W/cm^2",
+                       "cycles": 600}],
+            "solver": {"route": "levels", "states": ["1s", "2p"], "rwa": False},
+            "scan": {"pulse.0.intensity": ["1e10 W/cm^2", "2e10 W/cm^2", "3e10 W/cm^2"],
+                     "pulse.0.wavelength": ["121.567 nm", "121.4 nm"]}}
+
+
+def _assert_same_arrays(a, b):
+    assert set(a.variables) == set(b.variables)
+    for name in a.variables:
+        x, y = a[name].values, b[name].values
+        assert x.dtype == y.dtype and x.shape == y.shape, name
+        if x.dtype.kind == "f":
+            assert x.tobytes() == y.tobytes(), name                     # bitwise
+        else:
+            assert x.tolist() == y.tolist(), name
+
+
+@pytest.fixture(scope="module")
+def reference(tmp_path_factory):
+    """An uninterrupted campaign on the local process pool (2 workers)."""
+    folder = tmp_path_factory.mktemp("campaign") / "reference"
+    tdse.scan(_levels_config(), folder, workers=2, progress=False)
+    return open_campaign(folder)
+
+
+def test_reference_campaign_is_complete(reference):
+    assert reference.attrs["jobs_done"] == 6 and reference.sizes["pulse.0.intensity"] == 3
+    p2 = reference["population"].sel(state="2p").values
+    assert np.isfinite(p2).all() and (p2 > 0).all() and (p2 < 1).all()
+    # analytic: Lindblad evolution preserves the trace, and the sinks are counted in the norm
+    np.testing.assert_allclose(reference["norm"].values, 1.0, atol=1e-6)
+
+
+def test_sigkill_midway_then_resume(tmp_path, reference):
+    cfg_path = tmp_path / "kestrel_scan.toml"
+    cfg_path.write_text(tomli_w.dumps(_levels_config()))
+    folder = tmp_path / "killed"
+    env = {**os.environ, "OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"}
+    proc = subprocess.Popen([sys.executable, "-m", "tdse", "scan", str(cfg_path), "--out", str(folder),
+                             "--workers", "1", "--no-progress"], cwd=REPO, env=env,
+                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, start_new_session=True)
+    deadline = time.monotonic() + 180
+    try:
+        while time.monotonic() < deadline and proc.poll() is None:
+            if any(is_complete(p) for p in (folder / "jobs").glob("*.h5")):
+                break
+            time.sleep(0.02)
+        assert proc.poll() is None, proc.stderr.read().decode()
+    finally:
+        os.killpg(proc.pid, signal.SIGKILL)                  # the scan and its workers
+        proc.wait()
+    survivors = {p.name: p.stat().st_ino for p in (folder / "jobs").glob("*.h5") if is_complete(p)}
+    assert 1 <= len(survivors) < 6
+    tdse.scan(cfg_path, folder, workers=1, progress=False)
+    status = store.campaign_status(folder)
+    assert (status["done"], status["failed"], status["pending"]) == (6, 0, 0)
+    # finished jobs were not run again; no half-written file is left
+    assert {n: (folder / "jobs" / n).stat().st_ino for n in survivors} == survivors
+    assert not list((folder / "jobs").glob("*.tmp")) and not list((folder / "jobs").glob("*.running"))
+    _assert_same_arrays(open_campaign(folder), reference)
+
+
+def test_dask_local_cluster_equals_process_pool(tmp_path, reference):
+    from distributed import Client, LocalCluster
+
+    with LocalCluster(n_workers=1, threads_per_worker=1, processes=False, dashboard_address=None) as lc, \
+            Client(lc) as client:
+        folder = tdse.scan(_levels_config(), tmp_path / "dask", executor=client, progress=False)
+    _assert_same_arrays(open_campaign(folder), reference)
