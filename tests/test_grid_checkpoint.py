@@ -1,0 +1,96 @@
+"""Grid route checkpoints: a run killed with SIGKILL resumes and ends bit for bit equal."""
+from __future__ import annotations
+
+import os
+import signal
+import subprocess
+import sys
+import time
+
+import numpy as np
+import pytest
+import tomli_w
+
+from tdse.api import run
+from tdse.result import Checkpoint, read_result
+
+CONFIG = {
+    "atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
+    "pulse": [{"envelope": "sin2", "wavelength": "800 nm", "intensity": "1e14 W/cm^2", "cycles": 6}],
+    "solver": {"route": "grid", "r_max": 60, "dr": 0.1, "l_max": 14, "dt": 0.05,
+               "checkpoint_every": 400},
+    "output": {"every": 10.0},
+}
+RUNNER = "import sys, tdse.api as a; a.run(sys.argv[1], out=sys.argv[2], progress=False)"
+
+
+def same_arrays(a, b):
+    assert np.array_equal(a.times, b.times)
+    assert a.populations == b.populations and a.ionization == b.ionization and a.norm == b.norm
+    for key in a.history_populations:
+        assert np.array_equal(a.history_populations[key], b.history_populations[key]), key
+    assert a.series.keys() == b.series.keys()
+    for key in a.series:
+        assert np.array_equal(a.series[key], b.series[key]), key
+    for name in a.spectra:
+        for key in a.spectra[name]:
+            assert np.array_equal(a.spectra[name][key], b.spectra[name][key]), (name, key)
+
+
+def test_sigkill_then_resume_gives_identical_arrays(tmp_path):
+    cfg_path = tmp_path / "grid_ckpt.toml"
+    cfg_path.write_text(tomli_w.dumps(CONFIG))
+    killed = tmp_path / "killed.h5"
+    env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
+    proc = subprocess.Popen([sys.executable, "-c", RUNNER, str(cfg_path), str(killed)], env=env,
+                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    from tdse.campaign.config import load_config
+
+    cfg = load_config(cfg_path)
+    probe = Checkpoint(killed, physics_hash=cfg.physics_hash())
+    deadline = time.monotonic() + 120
+    try:
+        while time.monotonic() < deadline and proc.poll() is None:
+            loaded = probe.load() if killed.exists() else None
+            if loaded is not None and loaded[1]["step"] >= 800:
+                break
+            time.sleep(0.02)
+        assert proc.poll() is None, "the run finished before it could be killed: " + \
+            proc.stderr.read().decode()[-500:]
+        os.kill(proc.pid, signal.SIGKILL)
+    finally:
+        proc.wait()
+    assert proc.returncode == -signal.SIGKILL
+    arrays, meta = probe.load()                         # an unfinished file with a checkpoint
+    assert meta["step"] < meta["n_steps"] and arrays["psi"].dtype == complex
+
+    resumed = run(cfg_path, out=killed, progress=False)
+    assert resumed.stats["resumed"] is True
+    fresh = run(cfg_path, out=tmp_path / "fresh.h5", progress=False)
+    assert fresh.stats["resumed"] is False
+    same_arrays(read_result(killed), read_result(tmp_path / "fresh.h5"))
+    assert 1e-4 < fresh.ionization < 0.2                # a strong-field run, not a trivial one
+
+
+def test_checkpoint_of_other_physics_is_ignored(tmp_path):
+    cfg = dict(CONFIG, pulse=[dict(CONFIG["pulse"][0], cycles=1)],
+               solver=dict(CONFIG["solver"], r_max=30, l_max=6, checkpoint_every=100))
+    out = tmp_path / "a.h5"
+    other = Checkpoint(out, physics_hash="not-this-run")
+    other.save({"psi": np.zeros((3, 3), complex)}, {"step": 5})
+    res = run(cfg, out=out, progress=False)
+    assert res.stats["resumed"] is False and res.ionization > 0
+
+
+@pytest.mark.parametrize("value", [0, "ten"])
+def test_bad_checkpoint_interval(value):
+    from tdse.campaign.config import load_config
+    from tdse.errors import InputError
+
+    cfg = load_config(dict(CONFIG, solver=dict(CONFIG["solver"], checkpoint_every=value)))
+    with pytest.raises(InputError, match="checkpoint_every"):
+        settings = cfg.solver_settings()
+        from tdse.engines.grid import propagate
+
+        propagate(cfg.build_atom(), cfg.build_pulse(), settings, initial=cfg.initial_states(),
+                  output=cfg.output)
