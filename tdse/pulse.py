@@ -48,6 +48,7 @@ from tdse.units import (ALPHA, AU_FLUENCE_JCM2, AU_INTENSITY_WCM2, AU_TIME_S, HA
 ENVELOPES = ("sin2", "gaussian", "flat", "cos4", "static")
 POLARIZATIONS = {"z": (0, 0, 1), "x": (1, 0, 0), "circular+": (1, 1j, 0), "circular-": (1, -1j, 0)}
 GAUSSIAN_CUT = 1e-6            # default truncation level of the gaussian envelope
+LONG_CYCLES = 10_000           # above this many carrier periods integrals use the complex envelope
 MAX_INTENSITY_WCM2 = 1e20      # above this the electron turns relativistic; the dipole picture fails
 _SIN2_FWHM = (2 / math.pi) * math.acos(2 ** -0.25)   # 0.3641: intensity FWHM / T of sin2 (analytic)
 _COS4_FWHM = (2 / math.pi) * math.acos(2 ** -0.125)  # intensity FWHM / T of cos4 (analytic)
@@ -147,7 +148,7 @@ class LaserPulse:
     @classmethod
     def from_config(cls, cfg, *, key: str = "pulse") -> "LaserPulse":
         """Build from a :class:`tdse.campaign.config.PulseConfig` (or its dict); errors name
-        ``key.<name>``, e.g. ``pulse[1].fwhm``.
+        ``key.<name>``, e.g. ``pulse.1.fwhm`` (the key path scan axes use).
 
         >>> lp = LaserPulse.from_config({"envelope": "gaussian", "photon_energy": "10.2 eV",
         ...                              "peak_field": 1e-4, "fwhm": "100 fs"})
@@ -292,6 +293,65 @@ class LaserPulse:
         return (w[:, None] * self.jones[None, :]).real
 
 
+    # -- integrals over the window ----------------------------------------------------------------
+    @property
+    def is_long(self) -> bool:
+        """More than LONG_CYCLES carrier periods in the window: integrals then use the complex
+        envelope and drop terms oscillating at 2ω (relative size below ~(ωT)^-3)."""
+        return self.omega * self.length > 2 * math.pi * LONG_CYCLES
+
+    def _quadrature(self, rate: float):
+        """Nodes resolving an integrand that oscillates at ``rate`` and follows the envelope."""
+        scale = self.fwhm if self.fwhm is not None else self.length
+        panel = min(2 * math.pi / rate if rate > 0 else math.inf, scale / 4, self.length / 8)
+        return quadrature(sorted(set(self.breakpoints)), panel)
+
+    def fluence(self) -> float:
+        """∫ c ε₀ |E(t)|² dt in atomic units (= 2∫|E|² dt since I_au = ½ c ε₀ F² ↔ F²; J/cm² via
+        AU_FLUENCE_JCM2). Long pulses: the cycle average ∫|ℰ|² dt.
+
+        >>> lp = LaserPulse("flat", omega=0.057, peak_field=0.05, length=2000.0, ramp=100.0)
+        >>> round(lp.fluence() / (0.05**2 * 2000.0), 2)     # ≈ I (T − 1.25 R)/(I T) = 0.9375
+        0.94
+        """
+        chirp_spread = abs(self.chirp) * self.length / 2
+        if self.is_long:
+            t, w = self._quadrature(chirp_spread)
+            return float(w @ np.sum(np.abs(self.complex_envelope(t)) ** 2, axis=1))
+        t, w = self._quadrature(2 * (self.omega + chirp_spread))
+        return float(2.0 * w @ np.sum(self.electric_field(t) ** 2, axis=1))
+
+    def field_spectrum(self, omega, axis: str = "z") -> np.ndarray:
+        """Ẽ(ω) = ∫E(t) e^{iωt} dt of the ``axis`` component over the window (a.u.), complex.
+
+        Piecewise Gauss–Legendre quadrature with panels shorter than one period of the integrand's
+        fastest oscillation, split where the envelope is not smooth. Long pulses (:attr:`is_long`):
+        Ẽ(ω) = ½∫ℰ(t) e^{i(ω−ω_c)t} dt for ω > 0 (the counter-rotating ½∫ℰ* e^{i(ω+ω_c)t} dt is
+        dropped) and Ẽ(−ω) = Ẽ(ω)* since E is real.
+        """
+        omega = np.asarray(omega, dtype=float)
+        flat = omega.ravel()
+        column = "xyz".index(axis)
+        out = np.zeros(flat.size, dtype=complex)
+        if not flat.size or not np.any(self.jones[column]):
+            return out.reshape(omega.shape)
+        spread = abs(self.chirp) * self.length / 2
+        if self.is_long:
+            shift = np.abs(flat) - self.omega
+            t, w = self._quadrature(float(np.max(np.abs(shift))) + spread)
+            weighted = 0.5 * w * self.complex_envelope(t)[:, column]
+        else:
+            shift = flat
+            t, w = self._quadrature(float(np.max(np.abs(flat))) + self.omega + spread)
+            weighted = w * self.electric_field(t)[:, column]
+        chunk = max(1, 2_000_000 // t.size)
+        for i in range(0, flat.size, chunk):
+            out[i:i + chunk] = np.exp(1j * np.outer(shift[i:i + chunk], t)) @ weighted
+        if self.is_long:
+            out = np.where(flat < 0, out.conj(), out)
+        return out.reshape(omega.shape)
+
+
 class Pulse:
     """Several :class:`LaserPulse` components that add (pump–probe, two colours).
 
@@ -311,7 +371,7 @@ class Pulse:
         if not items:
             raise InputError("at least one `[[pulse]]` table is required")
         self.components = tuple(item if isinstance(item, LaserPulse)
-                                else LaserPulse.from_config(item, key=f"pulse[{i}]")
+                                else LaserPulse.from_config(item, key=f"pulse.{i}")
                                 for i, item in enumerate(items))
         self.atom = atom
 
@@ -350,67 +410,42 @@ class Pulse:
         """A_z(t), 1-D."""
         return self.vector_potential(t)[:, 2]
 
-    # -- quadrature over the window -------------------------------------------------------------
-    def quadrature(self, max_panel: float) -> tuple[np.ndarray, np.ndarray]:
-        """Gauss–Legendre nodes and weights (16 per panel) over [t_start, t_end], panels no longer
-        than ``max_panel`` and split at every component's feet and ramp joints, where the
-        envelope is not smooth. Exact for smooth integrands up to rounding.
-
-        >>> t, w = Pulse({"wavelength": "800 nm", "peak_field": 0.05, "cycles": 2}).quadrature(10.0)
-        >>> bool(np.isclose(w.sum(), 2 * 2 * math.pi / 0.0569542, rtol=1e-6))
-        True
-        """
-        t0, t1 = self.t_start, self.t_end
-        edges = sorted({t0, t1, *(b for c in self.components for b in c.breakpoints if t0 < b < t1)})
-        nodes, weights = [], []
-        for a, b in zip(edges[:-1], edges[1:]):
-            n = max(1, math.ceil((b - a) / max_panel))
-            cuts = np.linspace(a, b, n + 1)
-            half = 0.5 * np.diff(cuts)
-            mid = 0.5 * (cuts[:-1] + cuts[1:])
-            nodes.append((mid[:, None] + half[:, None] * _GL_NODES[None, :]).ravel())
-            weights.append((half[:, None] * _GL_WEIGHTS[None, :]).ravel())
-        return np.concatenate(nodes), np.concatenate(weights)
-
-    def _max_frequency(self) -> float:
-        return max(c.omega + abs(c.chirp) * c.length / 2 for c in self.components)
-
-    def _panel(self, extra_omega: float = 0.0) -> float:
-        top = self._max_frequency() + extra_omega
-        return min(2 * math.pi / top if top > 0 else math.inf, (self.t_end - self.t_start) / 8)
-
     def field_area(self) -> np.ndarray:
-        """∫E dt over the window, a 3-vector (zero for every non-static envelope)."""
-        t, w = self.quadrature(self._panel())
-        return w @ self.electric_field(t)
-
-    def fluence(self) -> float:
-        """∫ c ε₀ |E(t)|² dt in atomic units (= 2∫|E|² dt with I_au = ½ c ε₀ F²; J/cm² via
-        AU_FLUENCE_JCM2)."""
-        t, w = self.quadrature(self._panel())
-        return float(2.0 * w @ np.sum(self.electric_field(t) ** 2, axis=1))
+        """∫E dt over the window, a 3-vector: A(t_start) − A(t_end), which the analytic E = −dA/dt
+        makes exact (zero for every envelope but static)."""
+        a = self.vector_potential([self.t_start, self.t_end])
+        return a[0] - a[1]
 
     def field_spectrum(self, omega, axis: str = "z") -> np.ndarray:
         """Ẽ(ω) = ∫E(t) e^{iωt} dt of the ``axis`` component (x, y or z), complex, same shape as
-        ``omega`` (a.u.). Piecewise Gauss–Legendre quadrature, panels shorter than one period of
-        the fastest oscillation of the integrand, split where the envelope is not smooth.
+        ``omega`` (a.u.): the sum of :meth:`LaserPulse.field_spectrum` over the components.
 
         >>> p = Pulse({"wavelength": "800 nm", "peak_field": 0.05, "cycles": 10})
         >>> s = np.abs(p.field_spectrum([0.03, 0.057, 0.09]))
         >>> int(np.argmax(s))
         1
         """
-        omega = np.asarray(omega, dtype=float)
-        flat = omega.ravel()
-        column = "xyz".index(axis)
-        reach = float(np.max(np.abs(flat))) if flat.size else 0.0
-        t, w = self.quadrature(self._panel(reach))
-        weighted = w * self.electric_field(t)[:, column]
-        out = np.empty(flat.size, dtype=complex)
-        chunk = max(1, 2_000_000 // max(1, t.size))
-        for i in range(0, flat.size, chunk):
-            out[i:i + chunk] = np.exp(1j * np.outer(flat[i:i + chunk], t)) @ weighted
-        return out.reshape(omega.shape)
+        return sum(c.field_spectrum(omega, axis) for c in self.components)
+
+
+def quadrature(edges, max_panel: float) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss–Legendre nodes and weights, 16 per panel, between consecutive ``edges`` (sorted),
+    panels no longer than ``max_panel``. Put the edges where the integrand is not smooth; then the
+    rule is exact to rounding for integrands that vary little within a panel.
+
+    >>> t, w = quadrature([0.0, 1.0, 3.0], 0.5)
+    >>> round(float(w @ t**3), 12)     # ∫_0^3 t^3 dt = 81/4 (analytic)
+    20.25
+    """
+    nodes, weights = [], []
+    for a, b in zip(edges[:-1], edges[1:]):
+        n = max(1, math.ceil((b - a) / max_panel))
+        cuts = np.linspace(a, b, n + 1)
+        half = 0.5 * np.diff(cuts)
+        mid = 0.5 * (cuts[:-1] + cuts[1:])
+        nodes.append((mid[:, None] + half[:, None] * _GL_NODES[None, :]).ravel())
+        weights.append((half[:, None] * _GL_WEIGHTS[None, :]).ravel())
+    return np.concatenate(nodes), np.concatenate(weights)
 
 
 # --- config keys -> LaserPulse ----------------------------------------------------------------
@@ -455,7 +490,6 @@ def _from_config(cfg, key: str) -> LaserPulse:
             cfg = PulseConfig(**cfg)
         except ValidationError as exc:
             raise InputError(validation_message(exc, prefix=key, model=PulseConfig)) from None
-    given = cfg.model_fields_set
     kind = cfg.envelope
 
     def k(name):
@@ -468,7 +502,7 @@ def _from_config(cfg, key: str) -> LaserPulse:
         return v
 
     def exclusive(names, required=True, what=""):
-        present = [n for n in names if n in given and getattr(cfg, n) is not None]
+        present = [n for n in names if getattr(cfg, n) is not None]
         if len(present) > 1:
             raise InputError(f"{k(present[0])} and {k(present[1])} exclude each other; give one")
         if required and not present:
@@ -479,7 +513,7 @@ def _from_config(cfg, key: str) -> LaserPulse:
     # carrier
     if kind == "static":
         for name in ("wavelength", "photon_energy", "cycles", "fwhm", "chirp", "cep"):
-            if name in given:
+            if getattr(cfg, name) not in (None, 0):
                 raise InputError(f"{k(name)} does not apply to envelope = \"static\" (a DC field)")
         omega = 0.0
     else:
@@ -508,15 +542,15 @@ def _from_config(cfg, key: str) -> LaserPulse:
     # durations
     ramp = 0.0
     if kind in ("flat", "static"):
-        if "ramp" not in given or cfg.ramp is None:
+        if cfg.ramp is None:
             raise InputError(f"{k('ramp')} is required for envelope = \"{kind}\"")
         ramp = positive("ramp", cfg.ramp, "time")
-    elif "ramp" in given and cfg.ramp is not None:
+    elif cfg.ramp is not None:
         raise InputError(f"{k('ramp')} applies only to envelope = \"flat\" or \"static\"")
     period = 2 * math.pi / omega if omega > 0 else math.inf
     fwhm_gaussian = None
     if kind == "static":
-        if "length" not in given or cfg.length is None:
+        if cfg.length is None:
             raise InputError(f"{k('length')} is required for envelope = \"static\" (ramp included)")
         length = positive("length", cfg.length, "time")
     elif kind == "gaussian":
@@ -527,7 +561,7 @@ def _from_config(cfg, key: str) -> LaserPulse:
             fwhm_gaussian = cfg.cycles * period
         else:
             fwhm_gaussian = positive("fwhm", cfg.fwhm, "time")
-        if "length" in given and cfg.length is not None:
+        if cfg.length is not None:
             length = positive("length", cfg.length, "time")
             if 2 * fwhm_gaussian > length:
                 raise InputError(f"{k(which)} ({fwhm_gaussian * AU_TIME_S * 1e15:.4g} fs FWHM) is longer than "
@@ -573,6 +607,7 @@ def derived_quantities(pulse: Pulse, atom=None) -> dict:
 
     Uₚ = I/(4ω²) (= F₀²/(4ω²) for linear light), Keldysh γ = √(Iₚ/(2Uₚ)) (Keldysh 1965) with Iₚ the
     ground-state ionisation potential of ``atom``, quiver amplitude α₀ = F₀/ω², fluence ∫c ε₀ E² dt.
+    A static field has no intensity, fluence, Uₚ, γ or α₀ (None).
     ``field_area_au`` is ∫E dt along the common axis when all pulses are linear along one axis,
     otherwise the length of the vector ∫E dt.
 
@@ -584,7 +619,6 @@ def derived_quantities(pulse: Pulse, atom=None) -> dict:
     fs = AU_TIME_S * 1e15
     rows = []
     for c in pulse.components:
-        single = Pulse([c])
         carrier = c.omega > 0
         up = c.intensity / (4 * c.omega**2) if carrier else None
         ip = atom.ionization_potential if atom is not None else None
@@ -598,7 +632,7 @@ def derived_quantities(pulse: Pulse, atom=None) -> dict:
             "envelope": c.envelope_kind,
             "polarization": c.polarization,
             "peak_field_au": c.peak_field,
-            "intensity_Wcm2": c.intensity * AU_INTENSITY_WCM2,
+            "intensity_Wcm2": c.intensity * AU_INTENSITY_WCM2 if carrier else None,
             "photon_energy_eV": c.omega * HARTREE_EV,
             "wavelength_nm": photon_energy_to_wavelength_nm(c.omega) if carrier else None,
             "fwhm_fs": c.fwhm * fs if c.fwhm is not None else None,
@@ -608,7 +642,7 @@ def derived_quantities(pulse: Pulse, atom=None) -> dict:
             "Up_eV": up * HARTREE_EV if carrier else None,
             "keldysh": math.sqrt(ip / (2 * up)) if carrier and ip is not None and up > 0 else None,
             "quiver_au": c.peak_field / c.omega**2 if carrier else None,
-            "fluence_Jcm2": single.fluence() * AU_FLUENCE_JCM2,
+            "fluence_Jcm2": c.fluence() * AU_FLUENCE_JCM2 if carrier else None,
             "note": note,
         })
     area = pulse.field_area()

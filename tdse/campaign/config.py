@@ -16,13 +16,30 @@ import hashlib
 import json
 import tomllib
 from pathlib import Path
-from typing import Any, Literal, Union
+from typing import Annotated, Any, Literal, Union
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError, field_validator
 
 from tdse.errors import InputError
+from tdse.units import to_au
 
-Quantity = Union[float, str]   # "800 nm" or a plain number in atomic units
+
+def _quantity(value):
+    """A quantity is a plain number (atomic units) or a string with units; never a bool or a list."""
+    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+        raise ValueError("must be a number in atomic units or a string with units such as \"800 nm\"")
+    return value
+
+
+def _number(value):
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise ValueError("must be a plain number")
+    return value
+
+
+# "800 nm" or a plain number in atomic units; the unit kind is checked when the pulse is built
+Quantity = Annotated[Union[float, str], BeforeValidator(_quantity)]
+Number = Annotated[float, BeforeValidator(_number)]
 
 
 class _Section(BaseModel):
@@ -30,11 +47,11 @@ class _Section(BaseModel):
 
 
 class WeightedState(_Section):
-    """One component of a superposition initial state: amplitude^2 = weight."""
+    """One component of a superposition initial state: amplitude^2 = weight (normalised over all)."""
 
-    state: str
-    weight: float = Field(1.0, gt=0)
-    phase: float = 0.0
+    state: str = Field(description="state label, e.g. \"2p0\"")
+    weight: Number = Field(1.0, gt=0, description="relative weight |c|^2 (normalised over the list)")
+    phase: Number = Field(0.0, description="phase of the amplitude in radians")
 
 
 class AtomConfig(_Section):
@@ -46,27 +63,37 @@ class AtomConfig(_Section):
 
 
 class PulseConfig(_Section):
-    """``[[pulse]]``: one laser pulse; several tables add. See :mod:`tdse.pulse`."""
+    """``[[pulse]]``: one laser pulse; several tables add. Keys are checked (units, exclusive
+    pairs, ranges) when the pulse is built, see :mod:`tdse.pulse`."""
 
-    envelope: Literal["sin2", "gaussian", "flat", "cos4", "static"] = "sin2"
-    wavelength: Quantity | None = None
-    photon_energy: Quantity | None = None
-    intensity: Quantity | None = None
-    peak_field: Quantity | None = None
-    cycles: float | None = None
-    length: Quantity | None = None
-    fwhm: Quantity | None = None
-    ramp: Quantity | None = None
-    cep: float = 0.0
-    chirp: Quantity | None = None
-    delay: Quantity = 0.0
-    polarization: Literal["z", "x", "circular+", "circular-"] = "z"
+    envelope: Literal["sin2", "gaussian", "flat", "cos4", "static"] = Field(
+        "sin2", description="envelope of A(t): sin2 | gaussian | flat | cos4 | static (a ramped DC field)")
+    wavelength: Quantity | None = Field(None, description="carrier wavelength (vacuum); or photon_energy")
+    photon_energy: Quantity | None = Field(None, description="carrier photon energy; or wavelength")
+    intensity: Quantity | None = Field(None, description="peak cycle-averaged intensity; or peak_field")
+    peak_field: Quantity | None = Field(None, description="peak field F0 (per component for circular light)")
+    cycles: Number | None = Field(None, description="optical cycles foot to foot (gaussian: within the FWHM)")
+    length: Quantity | None = Field(None, description="foot-to-foot duration (gaussian: the window)")
+    fwhm: Quantity | None = Field(None, description="FWHM of the intensity envelope")
+    ramp: Quantity | None = Field(None, description="sin^2 ramp length (flat and static)")
+    cep: Number = Field(0.0, description="carrier-envelope phase in radians")
+    chirp: Quantity | None = Field(None, description="linear chirp beta = d(omega)/dt, e.g. \"0.05 eV/fs\"")
+    delay: Quantity = Field(0.0, description="centre of the envelope t0")
+    polarization: Literal["z", "x", "circular+", "circular-"] = Field(
+        "z", description="z | x | circular+ (x -> y, drives Delta m = +1) | circular-")
 
 
 class OutputConfig(_Section):
     """``[output]``: what to store and how often to sample the history."""
 
     every: Quantity | None = Field(None, description="history sampling interval (default: route's own)")
+
+    @field_validator("every")
+    @classmethod
+    def _positive_time(cls, value):
+        if value is not None and not to_au(value, "time", name="output.every") > 0:
+            raise ValueError(f"`output.every` must be a time > 0, got {value!r}")
+        return value
 
 
 class RunConfig(_Section):
@@ -82,8 +109,12 @@ class RunConfig(_Section):
     @field_validator("solver")
     @classmethod
     def _route_present(cls, value):
+        from tdse.engines import ROUTES
+
         if "route" not in value:
-            raise ValueError("`solver.route` is required (levels | basis | grid)")
+            raise ValueError(f"`solver.route` is required ({' | '.join(ROUTES)})")
+        if value["route"] not in ROUTES:
+            raise ValueError(f"`solver.route` must be one of {', '.join(ROUTES)}, got {value['route']!r}")
         return value
 
     # -- derived objects ------------------------------------------------------------------
@@ -93,8 +124,12 @@ class RunConfig(_Section):
         return Atom.from_name(self.atom.nucleus, Z=self.atom.Z)
 
     def build_pulse(self):
+        """The :class:`tdse.pulse.Pulse` of the ``[[pulse]]`` tables, or ``None`` without any
+        (a field-free run, e.g. free decay; routes take ``pulse=None``)."""
         from tdse.pulse import Pulse
 
+        if not self.pulse:
+            return None
         return Pulse.from_config(self.pulse, atom=self.build_atom())
 
     def solver_settings(self):
@@ -156,10 +191,24 @@ def _model_at(model, loc):
     return current
 
 
+_UNION_TAGS = {"float", "str", "int", "bool", "function-after", "function-before", "function-wrap",
+               "function-plain"}
+
+
 def validation_message(exc: ValidationError, *, prefix: str = "", model=None) -> str:
-    """One line from a pydantic error: the dotted key, what is wrong, a suggestion for typos."""
-    err = exc.errors()[0]
-    loc = [p for p in err["loc"] if p not in ("function-after", "function-before")]
+    """One line from a pydantic error: the dotted key (``pulse.1.fwhm``, as scan axes name it), what
+    is wrong, a suggestion for typos. Of several errors (union members) the most specific one is
+    reported.
+
+    >>> try:
+    ...     PulseConfig(wavelenght="800 nm")
+    ... except ValidationError as exc:
+    ...     print(validation_message(exc, prefix="pulse.0", model=PulseConfig))
+    unknown key `pulse.0.wavelenght` (did you mean `wavelength`?)
+    """
+    errors = exc.errors()
+    err = max(errors, key=lambda e: len(e["loc"]))
+    loc = [p for p in err["loc"] if not (isinstance(p, str) and (p in _UNION_TAGS or "[" in p))]
     key = ".".join(str(p) for p in ([prefix] if prefix else []) + list(loc))
     kind = err["type"]
     if kind == "extra_forbidden":
@@ -196,6 +245,35 @@ def load_config(source) -> RunConfig:
         raise InputError(validation_message(exc, model=RunConfig)) from None
     except TypeError as exc:
         raise InputError(f"config: {exc}") from None
-    cfg.build_atom()          # nucleus / Z consistency
-    cfg.initial_states()      # state labels
+    check_config(cfg)
     return cfg
+
+
+def check_config(cfg: RunConfig) -> None:
+    """Cross-section checks, each failing with one line naming the key: the atom and initial
+    states exist, every pulse builds (units, exclusive keys, ranges), the route can treat the
+    light (basis and grid: linear z polarisation only; levels: fields below barrier suppression
+    of the initial state, F_BS = Ip^2/(4Z), Augst et al. 1989).
+    """
+    atom = cfg.build_atom()
+    initial = cfg.initial_states()
+    pulse = cfg.build_pulse()
+    if pulse is None:
+        return
+    route = cfg.solver["route"]
+    for i, c in enumerate(pulse.components):
+        if route in ("basis", "grid") and c.polarization != "z":
+            raise InputError(f"`pulse.{i}.polarization` = {c.polarization!r}: route {route!r} treats "
+                             f"linear z polarisation only (use route \"levels\" or polarization = \"z\")")
+    if route == "levels":
+        from tdse.atom.levels import energy
+
+        ip = min(-energy(atom, s.n) for s, _ in initial)
+        f_bs = ip**2 / (4 * atom.Z)
+        total = sum(c.peak_field * abs(c.jones).max() for c in pulse.components)
+        if total > f_bs:
+            i = max(range(len(pulse.components)), key=lambda j: pulse.components[j].peak_field)
+            key = "intensity" if cfg.pulse[i].intensity is not None else "peak_field"
+            raise InputError(f"`pulse.{i}.{key}`: peak field {total:.3g} au is above barrier suppression "
+                             f"({f_bs:.3g} au) of the initial state; a few-level model is meaningless "
+                             f"there (use route \"grid\")")
