@@ -61,16 +61,21 @@ def pulse_figure(pulse, path, *, samples: int = 4000) -> Path:
     axes_used = [j for j in range(3) if np.any(field[:, j] != 0)] or [2]
     omega = _spectrum_axis(pulse)
     fig, (ax_t, ax_w) = plt.subplots(2, 1, figsize=(7, 6), constrained_layout=True)
-    fs = AU_TIME_S * 1e15
+    span_fs = (pulse.t_end - pulse.t_start) * AU_TIME_S * 1e15
+    unit, per_fs = next((u, f) for u, f in (("ns", 1e-6), ("ps", 1e-3), ("fs", 1.0)) if span_fs * f >= 1 or u == "fs")
+    # long pulses: photon energy as an offset from the first carrier, in µeV
+    ref = pulse.components[0].omega if long else 0.0
+    x_w = (omega - ref) * HARTREE_EV * (1e6 if long else 1.0)
     for j in axes_used:
         name = "xyz"[j]
-        ax_t.plot(t * fs, field[:, j], lw=0.8, label=f"|ℰ_{name}| (envelope)" if long else f"E_{name}")
+        ax_t.plot(t * AU_TIME_S * 1e15 * per_fs, field[:, j], lw=0.8,
+                  label=f"|ℰ_{name}| (envelope)" if long else f"E_{name}")
         power = np.abs(pulse.field_spectrum(omega, axis=name)) ** 2
-        ax_w.semilogy(omega * HARTREE_EV, np.maximum(power, power.max() * 1e-12), lw=0.8, label=f"|E_{name}(ω)|²")
-    ax_t.set_xlabel("time [fs]")
+        ax_w.semilogy(x_w, np.maximum(power, power.max() * 1e-12), lw=0.8, label=f"|E_{name}(ω)|²")
+    ax_t.set_xlabel(f"time [{unit}]")
     ax_t.set_ylabel("field [au]")
-    ax_t.legend(loc="upper right")
-    ax_w.set_xlabel("photon energy [eV]")
+    ax_t.legend(loc="best")
+    ax_w.set_xlabel(f"photon energy − {ref * HARTREE_EV:.6f} eV [µeV]" if long else "photon energy [eV]")
     ax_w.set_ylabel("spectral power [au]")
     ax_w.legend(loc="upper right")
     try:
@@ -81,13 +86,13 @@ def pulse_figure(pulse, path, *, samples: int = 4000) -> Path:
 
 def _spectrum_axis(pulse, points: int = 600) -> np.ndarray:
     """Photon energies (a.u.) to draw: 0 to 2.5× the highest carrier, or for long pulses a band
-    of ±10 spectral widths (2π/FWHM) plus the chirp sweep around each carrier."""
+    of ±3 spectral widths (2π/FWHM) plus the chirp sweep around each carrier."""
     if not any(c.is_long for c in pulse.components):
         top = max(c.omega + abs(c.chirp) * c.length / 2 for c in pulse.components)
         top = top if top > 0 else 40 * np.pi / (pulse.t_end - pulse.t_start)
         return np.linspace(0.0, 2.5 * top, points + 1)[1:]
     bands = []
     for c in pulse.components:
-        half = 10 * 2 * np.pi / (c.fwhm or c.length) + abs(c.chirp) * c.length / 2
+        half = 3 * 2 * np.pi / (c.fwhm or c.length) + abs(c.chirp) * c.length / 2
         bands.append((max(c.omega - half, 0.0), c.omega + half))
     return np.linspace(min(b[0] for b in bands), max(b[1] for b in bands), points)
