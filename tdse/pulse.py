@@ -624,7 +624,7 @@ def derived_quantities(pulse: Pulse, atom=None) -> dict:
         ip = atom.ionization_potential if atom is not None else None
         note = ""
         if c.envelope_kind == "gaussian":
-            note = (f"gaussian cut where its profile falls to {gaussian_shape(c.fwhm_gaussian, c.length)[1]:.1e} "
+            note = (f"gaussian cut where its profile falls to {c._gauss[1]:.1e} "
                     f"and lowered so f = 0 at the feet; window {c.length * fs:.4g} fs foot to foot")
         if c.polarization.startswith("circular"):
             note = (note + "; " if note else "") + "circular: peak field in each of x and y; intensity counts both"

@@ -106,3 +106,15 @@ def test_invalid_config_exits_2_with_one_line(tmp_path, capsys, old, new, expect
 def test_missing_config_file_exits_2(capsys):
     assert main(["pulse", "no/such/file.toml"]) == 2
     assert "not found" in capsys.readouterr().err
+
+
+def test_pulse_command_stays_light():
+    # `tdse pulse` must not pull in numba or qutip (project rule: light commands import lazily)
+    import subprocess
+    import sys
+
+    code = ("import sys; from tdse.cli import main; main(['pulse', sys.argv[1], '--json']); "
+            "print('numba' in sys.modules or 'qutip' in sys.modules, file=sys.stderr)")
+    done = subprocess.run([sys.executable, "-c", code, str(CONFIGS / "demo.toml")], capture_output=True, text=True,
+                          timeout=120)
+    assert done.returncode == 0 and done.stderr.strip().endswith("False"), done.stderr
