@@ -248,3 +248,32 @@ def test_spectrum_equals_i_omega_times_vector_potential_transform():
         re, _ = integrate.quad(a_z, c.t_start, c.t_end, weight="cos", wvar=w, epsabs=1e-13)
         im, _ = integrate.quad(a_z, c.t_start, c.t_end, weight="sin", wvar=w, epsabs=1e-13)
         assert p.field_spectrum(w) == pytest.approx(1j * w * (re + 1j * im), abs=1e-10)
+
+
+def test_sin2_time_bandwidth_product_against_mpmath():
+    # reference: half-power point of the envelope transform F(x) = ∫cos²(πs/T) e^{ixs} ds
+    # = sin(xT/2)/x + ½[sin((x−k)T/2)/(x−k) + sin((x+k)T/2)/(x+k)], k = 2π/T (analytic), found with
+    # mpmath.findroot; a 200-cycle pulse makes the iω factor of Ẽ = iωÃ negligible
+    import mpmath as mp
+
+    T, k = mp.mpf(1), 2 * mp.pi
+    F = lambda x: mp.sin(x * T / 2) / x + (mp.sin((x - k) * T / 2) / (x - k) + mp.sin((x + k) * T / 2) / (x + k)) / 2  # noqa: E731,E501
+    x_half = mp.findroot(lambda x: F(x) ** 2 - (T / 2) ** 2 / 2, 4.0)
+    reference = float(2 * x_half / (2 * mp.pi) * (2 / mp.pi) * mp.acos(mp.mpf(2) ** -0.25))   # Δν × FWHM_I
+    assert reference == pytest.approx(0.5245, abs=1e-4)
+    c = one(wavelength="800 nm", peak_field=0.01, cycles=200)
+    _, dw = _spectral_fwhm(Pulse([c]), c.omega, 4 / c.length)
+    assert dw / (2 * math.pi) * c.fwhm == pytest.approx(reference, rel=1e-3)
+
+
+@pytest.mark.parametrize("text, expected", [
+    ("0.001 fs^-2", 0.001 * AU_TIME_S**2 / 1e-30),                  # 1/fs² -> 1/(a.u. time)² (CODATA)
+    ("0.05 eV/fs", 0.05 / HARTREE_EV * AU_TIME_S / 1e-15),           # dω/dt = (dE/dt)/ħ (analytic)
+    (2e-6, 2e-6),                                                    # plain numbers are atomic units
+])
+def test_chirp_units(text, expected):
+    c = one(wavelength="800 nm", peak_field=0.01, cycles=4, chirp=text)
+    assert c.chirp == pytest.approx(expected, rel=1e-12)
+    # instantaneous frequency Φ′(t) = ω + β(t − t0) (definition)
+    t = np.array([c.delay - 50.0, c.delay + 50.0])
+    assert np.diff(c.phase(t + 1e-3) - c.phase(t - 1e-3))[0] / 2e-3 == pytest.approx(100 * c.chirp, rel=1e-6)
