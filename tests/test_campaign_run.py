@@ -175,6 +175,51 @@ def test_second_scan_on_a_busy_folder_exits_2(tmp_path, standin, capsys):
     assert out == "" and f"pid {os.getpid()}" in err and len(err.strip().splitlines()) == 1
 
 
+def test_zipped_axes_share_one_dimension_in_the_table(tmp_path, standin):
+    cfg = _standin_config(**{"pulse.0.intensity": ["1e13 W/cm^2", "2e13 W/cm^2"], "pulse.0.cep": [0.0, 0.25],
+                             "zip": {"knob": ["pulse.0.intensity", "pulse.0.cep"]}})
+    ds = open_campaign(_threads(tmp_path / "c", cfg))
+    assert ds["ionization"].dims == ("knob",) and ds["population"].dims == ("knob", "state")
+    assert ds["pulse.0.cep"].dims == ("knob",) and ds["pulse.0.cep"].attrs["units"] == "rad"
+    assert ds["pulse.0.intensity"].values.tolist() == [1e13, 2e13]
+
+
+def test_a_lost_worker_fails_its_job_and_a_broken_pool_stops(tmp_path, standin, monkeypatch):
+    from concurrent.futures import BrokenExecutor
+
+    from tdse.campaign import runner
+
+    def lost(job_id, config, folder):
+        raise RuntimeError("worker vanished")
+
+    monkeypatch.setattr(runner, "run_job", lost)
+    folder = _threads(tmp_path / "c", _standin_config(**{"pulse.0.intensity": ["1e13 W/cm^2"]}))
+    (job,) = store.campaign_status(folder)["jobs"]
+    assert job["status"] == "failed" and "worker vanished" in job["error"]
+
+    def broken(job_id, config, folder):
+        raise BrokenExecutor("pool gone")
+
+    monkeypatch.setattr(runner, "run_job", broken)
+    with pytest.raises(RuntimeError, match="run the same command again"):
+        _threads(tmp_path / "d", _standin_config(**{"pulse.0.intensity": ["1e13 W/cm^2"]}))
+    assert not store.CampaignLock(tmp_path / "d").busy()                 # the lock is released
+
+
+@pytest.mark.parametrize("table, key", [({"system": "lsf"}, "cluster.system"), ({"nodes": 3}, "cluster.nodes"),
+                                        ({"workers": 0}, "cluster.workers")])
+def test_bad_cluster_tables_name_the_key(table, key):
+    from tdse.campaign.executors import cluster_options
+
+    with pytest.raises(tdse.errors.InputError, match=key.replace(".", r"\.")):
+        cluster_options(table)
+
+
+def test_cli_rejects_two_executors(tmp_path, capsys):
+    assert main(["scan", "x.toml", "--workers", "2", "--dask-local", "2"]) == 2
+    assert "not allowed with argument" in capsys.readouterr().err
+
+
 # -- the real levels route, in worker processes ---------------------------------------------------
 def _levels_config():
     # Kestrel Hollow beam line: Lyman-alpha excitation of H(1s), a tiny 3 x 2 grid of ~0.2 s jobs
@@ -249,3 +294,19 @@ def test_dask_local_cluster_equals_process_pool(tmp_path, reference):
             Client(lc) as client:
         folder = tdse.scan(_levels_config(), tmp_path / "dask", executor=client, progress=False)
     _assert_same_arrays(open_campaign(folder), reference)
+
+
+def test_cluster_table_makes_a_valid_slurm_job_script():
+    pytest.importorskip("dask_jobqueue")
+    import dask_jobqueue
+
+    from tdse.campaign.config import load_config
+    from tdse.campaign.executors import cluster_options
+
+    system, workers, kwargs = cluster_options(load_config(REPO / "configs" / "cluster_example.toml").cluster)
+    assert (system, workers) == ("slurm", 32)
+    with dask_jobqueue.SLURMCluster(**kwargs, scheduler_options={"host": "127.0.0.1", "dashboard_address": None}) \
+            as cluster:
+        script = cluster.job_script()
+    assert "#SBATCH -p hollow" in script and "export OMP_NUM_THREADS=1" in script
+    assert "--nworkers 8" in script and "--nthreads 1" in script    # 8 single-threaded workers per batch job

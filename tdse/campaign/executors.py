@@ -119,8 +119,7 @@ def cluster_options(table: dict) -> tuple[str, int, dict]:
             raise InputError(f"`cluster.{key}` must be an integer >= 1, got {value!r}")
     prologue = [f"export {name}=1" for name in THREAD_VARIABLES] + list(table.get("prologue", []))
     kwargs = {"cores": cores, "processes": cores, "memory": table.get("memory", f"{2 * cores} GB"),
-              "walltime": table.get("walltime", "01:00:00"), "job_script_prologue": prologue,
-              "worker_extra_args": ["--nthreads", "1"]}
+              "walltime": table.get("walltime", "01:00:00"), "job_script_prologue": prologue}
     for key in ("queue", "account"):
         if key in table:
             kwargs[key] = table[key]

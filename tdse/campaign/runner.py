@@ -101,10 +101,10 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
     bar = tqdm(total=total, initial=initial, unit="job", desc="scan", disable=not progress, dynamic_ncols=True)
     try:
         with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo)) as runner:
-            futures = [runner.submit(run_job, job.id, job.config, str(folder), key=f"tdse-job-{job.id}")
-                       for job in todo]
-            for future in runner.as_completed(futures):
-                outcome = future.result()
+            futures = {runner.submit(run_job, job.id, job.config, str(folder), key=f"tdse-job-{job.id}"): job
+                       for job in todo}
+            for future in runner.as_completed(list(futures)):
+                outcome = _outcome(future, futures[future], folder)
                 if outcome["status"] == store.FAILED:
                     failed += 1
                     bar.write(f"tdse scan: job {outcome['id']} failed: {outcome['error']}", file=sys.stderr)
@@ -112,6 +112,20 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
                 bar.update(1)
     finally:
         bar.close()
+
+
+def _outcome(future, job, folder) -> dict:
+    """The job's outcome; a job whose worker was lost (Dask gave up on it) is recorded as failed."""
+    from concurrent.futures import BrokenExecutor
+
+    try:
+        return future.result()
+    except BrokenExecutor:
+        raise RuntimeError("a worker process of the local pool died (out of memory, or killed); "
+                           "finished jobs are kept: run the same command again") from None
+    except Exception as exc:  # noqa: BLE001 - e.g. distributed.KilledWorker
+        store.write_failed(store.job_path(folder, job.id), job_id=job.id, config=_toml(job.config), error=exc)
+        return {"id": job.id, "status": store.FAILED, "error": f"worker lost: {type(exc).__name__}: {exc}"}
 
 
 def check_folder(out) -> Path:
