@@ -83,8 +83,8 @@ class Settings(BaseModel):
         "field-free time after the pulse (closed form); default 0"))
     t_end: Quantity | None = Field(None, description=(
         "absolute end time (the pulse window starts at its first foot); instead of `after`"))
-    atol: float = Field(1e-10, gt=0, description="absolute tolerance of the ODE solver (qutip atol)")
-    rtol: float = Field(1e-8, gt=0, description="relative tolerance of the ODE solver (qutip rtol)")
+    atol: float = Field(1e-12, gt=0, description="absolute tolerance of the ODE solver (qutip atol)")
+    rtol: float = Field(1e-10, gt=0, description="relative tolerance of the ODE solver (qutip rtol)")
     nsteps: int = Field(1_000_000, gt=0, description="maximum internal ODE steps between samples")
     method: Literal["adams", "bdf", "lsoda", "dop853", "vern7", "vern9"] = Field(
         "adams", description="qutip integration method")

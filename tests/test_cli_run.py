@@ -1,0 +1,101 @@
+"""`tdse run`: JSON contract, summary text, result files, errors (storage and interface checks)."""
+import json
+import math
+from pathlib import Path
+
+import pytest
+
+from tdse.cli import SAFETY_CAUTION, main
+from tdse.result import read_result
+
+ROOT = Path(__file__).resolve().parents[1]
+JSON_KEYS = {"route", "populations", "ionization", "norm", "result_file", "wall_s", "history"}
+
+RABI_TOML = """
+[atom]
+Z = 1
+nucleus = "infinite"
+initial = "1s"
+
+[[pulse]]
+envelope = "sin2"
+photon_energy = 0.375
+peak_field = 1e-3
+length = 8434.535   # pi pulse: d F0 T/2 = pi with d = 2^7 sqrt2/3^5 (Bethe & Salpeter 1957)
+
+[solver]
+route = "levels"
+states = ["1s", "2p"]
+decay = false
+
+[output]
+every = 1000.0
+"""
+
+
+def _config(tmp_path, text=RABI_TOML, name="rabi.toml"):
+    path = tmp_path / name
+    path.write_text(text)
+    return path
+
+
+def test_json_run_writes_the_file(tmp_path, capsys):
+    cfg = _config(tmp_path)
+    assert main(["run", str(cfg), "--out", str(tmp_path / "out"), "--json", "--no-progress"]) == 0
+    out, err = capsys.readouterr()
+    payload = json.loads(out)
+    assert set(payload) == JSON_KEYS and payload["route"] == "levels"
+    assert payload["populations"]["2p0"] == pytest.approx(1.0, abs=1e-5)   # π pulse (Allen & Eberly 1975)
+    assert payload["norm"] == pytest.approx(1.0, abs=1e-8) and payload["ionization"] == 0.0
+    hist = payload["history"]
+    assert set(hist) == {"times_au", "populations"}
+    assert all(len(v) == len(hist["times_au"]) for v in hist["populations"].values())
+    path = Path(payload["result_file"])
+    assert path.parent == tmp_path / "out" and path.name.startswith("rabi-")
+    back = read_result(path)
+    assert back.populations == payload["populations"]
+    assert "CAUTION" not in out + err          # atomic-unit field: no lab intensity given
+
+
+def test_text_summary_and_caution_for_lab_units(tmp_path, capsys):
+    text = RABI_TOML.replace("peak_field = 1e-3", 'intensity = "3.50945e10 W/cm^2"')
+    cfg = _config(tmp_path, text)
+    target = tmp_path / "one.h5"
+    assert main(["run", str(cfg), "--out", str(target), "--no-progress"]) == 0
+    out, _ = capsys.readouterr()
+    assert "final populations" in out and "2p0" in out and SAFETY_CAUTION in out
+    assert target.exists()
+    assert main(["run", str(cfg), "--out", str(target), "--json", "--no-progress"]) == 0
+    out, err = capsys.readouterr()
+    json.loads(out)
+    assert SAFETY_CAUTION in err
+
+
+@pytest.mark.parametrize("edit, word", [
+    (("decay = false", "decai = false"), "did you mean `decay`"),
+    (('states = ["1s", "2p"]', 'states = ["1s", "2q"]'), "solver.states"),
+    (('initial = "1s"', 'initial = "2s"'), "atom.initial"),
+])
+def test_bad_configs_exit_2_with_one_line(tmp_path, capsys, edit, word):
+    cfg = _config(tmp_path, RABI_TOML.replace(*edit))
+    assert main(["run", str(cfg), "--out", str(tmp_path), "--json"]) == 2
+    out, err = capsys.readouterr()
+    assert out == "" and err.count("\n") == 1 and word in err
+
+
+def test_unavailable_route_is_a_clear_message(tmp_path, capsys, monkeypatch):
+    from tdse import engines
+
+    monkeypatch.setitem(engines.ROUTES, "basis", "tdse.engines._not_written_yet")
+    cfg = _config(tmp_path, RABI_TOML.replace('route = "levels"\nstates = ["1s", "2p"]\ndecay = false',
+                                              'route = "basis"'))
+    assert main(["run", str(cfg), "--out", str(tmp_path)]) == 2
+    assert "not available" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in (ROOT / "configs").glob("levels_*.toml")) + ["demo.toml"])
+def test_shipped_levels_configs_run(tmp_path, capsys, name):
+    assert main(["run", str(ROOT / "configs" / name), "--out", str(tmp_path), "--json", "--no-progress"]) == 0
+    payload = json.loads(capsys.readouterr().out)
+    assert payload["route"] == "levels"
+    assert math.isclose(payload["norm"], 1.0, abs_tol=1e-7)
