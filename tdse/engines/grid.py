@@ -9,8 +9,10 @@ along z (m = 0). One step of length dt with the field E at mid-step (Strang, sec
     c_l = (l+1)/√((2l+1)(2l+3)) (PHYSICS.md, "Grid route").
 
 Both pieces are exactly unitary, so norm is lost only in the absorber at the edge: after each step
-the wave function is multiplied by the mask cos^(p)(π/2·(r − r_a)/w) on the outer width w
-(p = 1/8 by default; a common choice since Krause, Schafer & Kulander, PRA 45, 4998 (1992)).
+the wave function is multiplied by the mask cos^(p·dt/Δt_ref)(π/2·(r − r_a)/w) on the outer width w,
+Δt_ref = 0.05 a.u.: the classic cos^(1/8) per step (p = 1/8; Krause, Schafer & Kulander, PRA 45,
+4998 (1992)) at dt = Δt_ref, scaled so that the absorption per unit time does not depend on dt
+(the mask is then the propagator of the imaginary potential −i·p·ln(1/cos(…))/Δt_ref).
 
 Observables (all in atomic units):
 
@@ -45,6 +47,8 @@ from pydantic import BaseModel, ConfigDict, Field, field_validator
 from tdse.errors import InputError
 
 Quantity = Union[float, str]
+L_FACTOR = 1.6                # default l_max: this many times the returning angular momentum
+MASK_DT_REF = 0.05          # a.u. time: the mask exponent p is per this much time
 CHUNK_MAX = 256             # longest kernel call in steps (granularity of checkpoints and progress)
 SMALL_GRID = 600            # below this many points the bound states come from the dense solver
 
@@ -65,14 +69,15 @@ class Settings(BaseModel):
     dr: Quantity | None = Field(None, description="grid spacing (bohr); default min(0.1/Z, 0.5/k_max), "
                                 "which puts the grid 1s energy within 1e-5 of −Z²μ/2")
     l_max: int | None = Field(None, ge=1, le=2000, description="highest partial wave; default "
-                              "max(8, l₀ + 6, ⌈1.2·α₀·√(6.34 μ Uₚ)⌉): the angular momentum of a "
+                              "max(8, l₀ + 6, ⌈1.6·α₀·√(6.34 μ Uₚ)⌉): the angular momentum of a "
                               "returning electron (3.17 Uₚ) at the quiver radius")
     dt: Quantity | None = Field(None, description="largest time step (a.u. time); default "
                                 "min(0.05, 0.1/E_max, T/400); the step used divides the pulse window evenly")
     absorber: Literal["mask", "none"] = Field("mask", description="edge absorber: cos^p mask or none")
     absorber_width: Quantity | None = Field(None, description="width of the mask at the outer edge (bohr); "
                                             "default max(20 bohr, 20 % of the inner region) (at most half a given r_max)")
-    mask_power: float = Field(0.125, gt=0, le=2, description="exponent p of the cos^p mask")
+    mask_power: float = Field(0.125, gt=0, le=2, description="exponent p of the cos^p mask per "
+                              "0.05 au of time (each step applies cos^(p·dt/0.05): dt-independent absorption)")
     gauge: str = Field("length", description="interaction gauge; only \"length\" is implemented")
     n_max: int = Field(4, ge=1, le=30, description="label populations of bound states with n <= n_max")
     checkpoint_every: int | str = Field("60 s", description="checkpoint interval: an integer number of "
@@ -134,7 +139,7 @@ def grid_parameters(atom, pulse, settings: Settings, n_initial: int = 1,
     >>> p = Pulse({"wavelength": "800 nm", "intensity": "1e14 W/cm^2", "cycles": 4})
     >>> g = grid_parameters(Atom(1), p, Settings())
     >>> round(g.quiver_radius, 1), g.dr, g.l_max
-    (16.5, 0.1, 24)
+    (16.5, 0.1, 32)
     """
     from tdse.units import to_au
 
@@ -166,7 +171,7 @@ def grid_parameters(atom, pulse, settings: Settings, n_initial: int = 1,
     if settings.l_max is not None:
         l_max = settings.l_max
     else:
-        l_max = max(8, l_initial + 6, math.ceil(1.2 * alpha0 * math.sqrt(6.34 * mu * up)))
+        l_max = max(8, l_initial + 6, math.ceil(L_FACTOR * alpha0 * math.sqrt(6.34 * mu * up)))
     window = pulse.t_end - pulse.t_start
     if settings.dt is not None:
         dt_max = to_au(settings.dt, "time", name="solver.dt")
@@ -380,7 +385,7 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
     grid = uniform_grid(par.r_max, par.dr)
     n, n_l = grid.n_points, par.l_max + 1
     r = grid.r
-    mask = mask_profile(r, grid.r_max, par.absorber_width, settings.mask_power)
+    mask = mask_profile(r, grid.r_max, par.absorber_width, settings.mask_power * par.dt / MASK_DT_REF)
 
     bound = [bound_states(grid, l, atom) for l in range(n_l)]
     n_l_bound = max((l + 1 for l in range(n_l) if bound[l][0].size), default=0)
