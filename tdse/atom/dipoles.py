@@ -23,6 +23,7 @@ Conventions (Bethe & Salpeter 1957, §59-63; Condon & Shortley 1935):
 from __future__ import annotations
 
 import math
+import operator
 from functools import lru_cache
 
 from tdse.atom.levels import energy
@@ -31,9 +32,14 @@ from tdse.errors import InputError
 from tdse.units import ALPHA
 
 
-def _check_level(n, l, name):
-    if not (isinstance(n, int) and isinstance(l, int) and 0 <= l < n):
+def _check_level(n, l, name) -> tuple[int, int]:
+    try:
+        n_int, l_int = operator.index(n), operator.index(l)
+    except TypeError:
+        n_int, l_int = 0, 0
+    if not 0 <= l_int < n_int:
         raise InputError(f"`{name}` needs integers 0 <= l < n, got n = {n!r}, l = {l!r}")
+    return n_int, l_int
 
 
 def _coefficients(n: int, l: int) -> tuple[list[int], int]:
@@ -77,15 +83,15 @@ def _radial_integral_scaled(n1: int, l1: int, n2: int, l2: int, k: int) -> float
 
 
 def radial_integral(atom, n1: int, l1: int, n2: int, l2: int, k: int = 1) -> float:
-    """int R_n1l1 R_n2l2 r^(2+k) dr in bohr^k (exact up to one rounding; scales (Z mu)^-k).
+    """int R_n1l1 R_n2l2 r^(2+k) dr in bohr^k (exact to the last bit or two; scales (Z mu)^-k).
 
     >>> from tdse.atom import Atom
     >>> round(radial_integral(Atom(1), 2, 1, 2, 1, k=1), 12)   # <2p|r|2p> = 5
     5.0
     """
-    _check_level(n1, l1, "n1, l1")
-    _check_level(n2, l2, "n2, l2")
-    return _radial_integral_scaled(n1, l1, n2, l2, k) / (atom.Z * atom.reduced_mass) ** k
+    n1, l1 = _check_level(n1, l1, "n1, l1")
+    n2, l2 = _check_level(n2, l2, "n2, l2")
+    return _radial_integral_scaled(n1, l1, n2, l2, operator.index(k)) / (atom.Z * atom.reduced_mass) ** k
 
 
 def radial_dipole(atom, n1: int, l1: int, n2: int, l2: int) -> float:
