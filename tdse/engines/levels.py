@@ -227,7 +227,7 @@ def build_model(atom, states, *, decay: bool = True, ionization_sink: bool = Fal
 
 # --- time-dependent terms ----------------------------------------------------------------------
 @dataclass
-class _Terms:
+class FieldTerms:
     """Operators (N x N, sinks included) times coefficients sampled by ``values(t)``."""
 
     hamiltonian: list          # (matrix, index of coefficient row, conjugate the row?)
@@ -258,7 +258,7 @@ def _transitions(model: LevelModel) -> dict[float, list[tuple[int, int]]]:
     return groups
 
 
-def _rwa_terms(model: LevelModel, pulse) -> _Terms:
+def _rwa_terms(model: LevelModel, pulse) -> FieldTerms:
     groups = _transitions(model)
     names = {w: "/".join(sorted({f"{model.states[l].level.label}-{model.states[u].level.label}"
                                  for u, l in pairs})) for w, pairs in groups.items()}
@@ -302,10 +302,10 @@ def _rwa_terms(model: LevelModel, pulse) -> _Terms:
             out[r] = 0.5 * cache[k][:, qi] * np.exp(1j * detuning * t)
         return out
 
-    return _Terms(hamiltonian, dissipators, values, len(rows), top, notes, warnings)
+    return FieldTerms(hamiltonian, dissipators, values, len(rows), top, notes, warnings)
 
 
-def _full_terms(model: LevelModel, pulse) -> _Terms:
+def _full_terms(model: LevelModel, pulse) -> FieldTerms:
     cart = model.cartesian()
     active = [a for a in range(3) if any(c.jones[a] != 0 for c in pulse.components)]
     hamiltonian = [(_pad(model, cart[a]), r, False) for r, a in enumerate(active)]
@@ -314,10 +314,10 @@ def _full_terms(model: LevelModel, pulse) -> _Terms:
         return pulse.electric_field(t)[:, active].T.astype(complex)
 
     top = max(c.omega + abs(c.chirp) * c.length / 2 for c in pulse.components)
-    return _Terms(hamiltonian, [], values, len(active), top, [], [])
+    return FieldTerms(hamiltonian, [], values, len(active), top, [], [])
 
 
-def _add_ionization(terms: _Terms, model: LevelModel, atom, pulse) -> None:
+def _add_ionization(terms: FieldTerms, model: LevelModel, atom, pulse) -> None:
     """Loss of every sublevel j to "ionized" at σ_j(ω_k) c|ℰ_k|²/(8π ω_k) for each pulse k."""
     from tdse.atom.photoionization import cross_section
 
@@ -386,6 +386,26 @@ def sample_coefficients(values, t0: float, t1: float, *, n_start: int, tol: floa
         v = np.concatenate([v, vm[:, bad]], axis=1)[:, order]
 
 
+def coupling(atom, pulse, model: LevelModel, settings: Settings):
+    """The field's part of the model: operators with their coefficient rows (``FieldTerms``) and the
+    sampled coefficients ``(times, values)`` over the pulse window, as the solver uses them:
+    H(t) = Σ_r c_r(t) H_r (c_r* for the conjugate halves) and Lindblad terms |c_r(t)| D_r."""
+    components = pulse.components
+    terms = _rwa_terms(model, pulse) if settings.rwa else _full_terms(model, pulse)
+    if settings.ionization_loss:
+        _add_ionization(terms, model, atom, pulse)
+    t0, t1 = pulse.t_start, pulse.t_end
+    window = t1 - t0
+    n_start = max(257, math.ceil(window * terms.max_frequency / (2 * math.pi) * 16),
+                  math.ceil(64 * window / min(c.length for c in components)))
+    if not terms.n_rows:
+        return terms, (np.array([t0, t1]), np.zeros((0, 2), dtype=complex))
+    coefficients = sample_coefficients(terms.values, t0, t1, n_start=n_start, tol=settings.sampling_tol,
+                                       breakpoints=[b for c in components for b in c.breakpoints],
+                                       max_points=MAX_COEFFICIENT_VALUES // terms.n_rows)
+    return terms, coefficients
+
+
 # --- the solver --------------------------------------------------------------------------------
 def _initial_density(model: LevelModel, initial, t0: float, interaction: bool):
     """Density matrix (and the ket when pure) at t0 from [(State, amplitude)]; a level without m
@@ -442,16 +462,17 @@ def _field_free(model: LevelModel, p0: np.ndarray, t0: float, times: np.ndarray)
     return out
 
 
-def _solve(model: LevelModel, terms: _Terms, settings: Settings, rho0, ket0, tlist, *,
+def _solve(model: LevelModel, terms: FieldTerms, settings: Settings, rho0, ket0, tlist, *,
            coefficients, max_step: float, interaction: bool, progress: bool):
     """Propagate from tlist[0] to tlist[-1] with qutip; populations of every label at ``tlist``."""
     import qutip as qt
+    from scipy.sparse import csr_matrix
 
     ts, vals = coefficients
     n, dims = model.size, [[model.size], [model.size]]
 
-    def qobj(matrix):
-        return qt.Qobj(matrix, dims=dims)
+    def qobj(matrix):   # sparse (CSR): the Liouvillian of N levels is N² x N²
+        return qt.Qobj(csr_matrix(matrix), dims=dims)
 
     H0 = np.zeros((n, n), dtype=complex)
     if not interaction:
@@ -522,24 +543,11 @@ def propagate(atom, pulse, settings: Settings, *, initial, output=None, progress
 
     p_pulse = np.real(np.diag(rho0))
     during = times[times <= t_pulse]
-    pops_during = np.zeros((model.size, 0))
     if components:
-        terms = _rwa_terms(model, pulse) if settings.rwa else _full_terms(model, pulse)
-        if settings.ionization_loss:
-            _add_ionization(terms, model, atom, pulse)
+        terms, coefficients = coupling(atom, pulse, model, settings)
         warnings += terms.warnings
         notes += terms.notes
-        window = t_pulse - t0
         shortest = min(c.length for c in components)
-        n_start = max(257, math.ceil(window * terms.max_frequency / (2 * math.pi) * 16),
-                      math.ceil(64 * window / shortest))
-        breakpoints = [b for c in components for b in c.breakpoints]
-        if terms.n_rows:
-            coefficients = sample_coefficients(terms.values, t0, t_pulse, n_start=n_start,
-                                               tol=settings.sampling_tol, breakpoints=breakpoints,
-                                               max_points=MAX_COEFFICIENT_VALUES // terms.n_rows)
-        else:
-            coefficients = (np.array([t0, t_pulse]), np.zeros((0, 2), dtype=complex))
         stats["coefficient_samples"] = int(len(coefficients[0]))
         max_step = to_au(settings.max_step, "time") if settings.max_step is not None else shortest / 10
         tlist = during if during[-1] == t_pulse else np.append(during, t_pulse)
