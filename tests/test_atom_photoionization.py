@@ -5,6 +5,7 @@ import math
 import numpy as np
 import pytest
 from scipy.integrate import quad
+from hypothesis import given, settings, strategies as st
 from scipy.special import zeta
 
 from tdse.atom import Atom, State
@@ -90,19 +91,24 @@ def test_high_n_uses_extended_precision_consistently():
     assert bound_free_integral(50, 1, 2, 0.02) == pytest.approx(620.017, rel=1e-4)
 
 
-def _trk_sum(n0, l0):
-    """Sum of absorption f-values from (n0 l0) over bound n p (with an n^-3 tail, zeta(3))
-    and the continuum df/dE = sigma / (2 pi^2 alpha)."""
-    N = 60
-    f = [oscillator_strength(INF, State(n0, l0), State(n, 1)) for n in range(n0 + 1, N + 1)]
-    tail = f[-1] * N**3 * (zeta(3) - sum(1.0 / n**3 for n in range(1, N + 1)))
+def _trk_sum(n0, l0, N=60):
+    """Signed f-sum from (n0 l0): bound levels n' l0+-1 (emission f = -(g_lower/g_upper) f_abs;
+    the upward sum closed with an n'^-3 tail via zeta(3)) and the continuum df/dE = sigma/(2 pi^2 alpha)."""
+    bound = 0.0
+    for L in (l0 - 1, l0 + 1):
+        if L < 0:
+            continue
+        bound -= sum((2 * L + 1) / (2 * l0 + 1) * oscillator_strength(INF, State(n, L), State(n0, l0))
+                     for n in range(L + 1, n0))
+        f = [oscillator_strength(INF, State(n0, l0), State(n, L)) for n in range(n0 + 1, N + 1)]
+        bound += sum(f) + f[-1] * N**3 * (zeta(3) - sum(1.0 / n**3 for n in range(1, N + 1)))
 
     def dfde(w):
         return cross_section(INF, n0, l0, w) / (2 * math.pi**2 * ALPHA)
 
     th = 0.5 / n0**2
     cont = quad(dfde, th, 50 * th, limit=200, epsabs=1e-13)[0] + quad(dfde, 50 * th, np.inf, limit=200)[0]
-    return sum(f) + tail, cont
+    return bound, cont
 
 
 def test_thomas_reiche_kuhn_1s():
@@ -111,11 +117,26 @@ def test_thomas_reiche_kuhn_1s():
     assert bound + continuum == pytest.approx(1.0, abs=1e-3)  # Thomas-Reiche-Kuhn sum rule (analytic)
 
 
-def test_thomas_reiche_kuhn_2s():
-    bound, continuum = _trk_sum(2, 0)   # 2s has no downward E1 transition: sum = 1 (analytic)
+@pytest.mark.parametrize("n0, l0", [(2, 0), (3, 2), (4, 1), (5, 3)])
+def test_thomas_reiche_kuhn_excited(n0, l0):
+    # sum of all f-values (both continuum channels l+-1, downward ones negative) = 1 (TRK, analytic)
+    bound, continuum = _trk_sum(n0, l0)
     assert bound + continuum == pytest.approx(1.0, abs=1e-3)
+    assert 0 < continuum < 0.5
 
 
 def test_bad_level():
     with pytest.raises(InputError):
         cross_section(INF, 2, 2, 1.0)
+
+
+@settings(max_examples=30, deadline=None)
+@given(n=st.integers(1, 12), Z=st.integers(1, 10), x=st.floats(0.0, 40.0), data=st.data())
+def test_sigma_positive_above_threshold_and_z_scaled(n, Z, x, data):
+    # sigma > 0 above threshold, 0 below; sigma_Z(omega) = sigma_1(omega/Z^2)/Z^2 (analytic scaling)
+    l = data.draw(st.integers(0, n - 1))
+    omega = 0.5 / n**2 * (1.0 + x)
+    s1 = cross_section(INF, n, l, omega)
+    assert s1 > 0
+    assert cross_section(Atom(Z), n, l, omega * Z**2) == pytest.approx(s1 / Z**2, rel=1e-11)
+    assert cross_section(INF, n, l, 0.5 / n**2 * (1 - 1e-9)) == 0.0
