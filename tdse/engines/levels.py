@@ -361,9 +361,11 @@ def sample_coefficients(values, t0: float, t1: float, *, n_start: int, tol: floa
     """
     from scipy.interpolate import make_interp_spline
 
-    t = np.union1d(np.linspace(t0, t1, max(int(n_start), 4)),
-                   [b for b in breakpoints if t0 < b < t1])
-    h0 = (t1 - t0) / (max(int(n_start), 4) - 1)
+    t = np.linspace(t0, t1, max(int(n_start), 4))
+    h0 = t[1] - t[0]
+    for b in breakpoints:    # joints of the envelopes, unless a sample is already (nearly) there
+        if t0 < b < t1 and np.min(np.abs(t - b)) > 1e-3 * h0:
+            t = np.insert(t, np.searchsorted(t, b), b)
     v = values(t)
     scale = max(float(np.max(np.abs(v))) if v.size else 0.0, 1e-300)
     while True:
