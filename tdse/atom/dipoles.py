@@ -61,18 +61,13 @@ def _radial_integral_scaled(n1: int, l1: int, n2: int, l2: int, k: int) -> float
     s, prod = n1 + n2, n1 * n2
     p_max = n1 + n2 + k
     # M_p = p! (n1 n2)^(p+1) (n1+n2)^(p_max - p): the moment int r^p e^(-r s/prod) dr times s^(p_max+1)
-    moments = {}
+    moments = []   # index p - p0
     fact = math.factorial(p0)
     for p in range(p0, p_max + 1):
         if p > p0:
             fact *= p
-        moments[p] = fact * prod ** (p + 1) * s ** (p_max - p)
-    total = 0
-    for i, ai in enumerate(a):
-        inner = 0
-        for j, bj in enumerate(b):
-            inner += bj * moments[p0 + i + j]
-        total += ai * inner
+        moments.append(fact * prod ** (p + 1) * s ** (p_max - p))
+    total = sum(ai * sum(map(operator.mul, b, moments[i:i + len(b)])) for i, ai in enumerate(a))
     if total == 0:
         return 0.0
     # I^2 = N1^2 N2^2 (total / (d1 d2 s^(p_max+1)))^2 with N^2 = 4 (n-l-1)! / (n^4 (n+l)!)
