@@ -11,7 +11,6 @@ from scipy.special import zeta
 from tdse.atom import Atom, State
 from tdse.atom.dipoles import oscillator_strength
 from tdse.atom.photoionization import bound_free_integral, cross_section, cross_section_1s_closed_form
-from tdse.atom.radial import radial_function
 from tdse.errors import InputError
 from tdse.units import ALPHA, BOHR2_CM2, HARTREE_EV
 
