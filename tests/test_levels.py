@@ -161,3 +161,15 @@ def test_sampling_resolves_a_short_ramp_and_respects_the_budget():
     assert len(t) < 5000
     with pytest.raises(InputError, match="samples"):
         sample_coefficients(values, lp.t_start, lp.t_end, n_start=257, tol=1e-7, max_points=300)
+
+
+def test_each_carrier_is_paired_with_its_nearest_transition():
+    w21, w32 = 0.375, 5 / 72        # 3/8 and 1/4 - 1/9 hartree, infinite nuclear mass (analytic)
+    items = [{"envelope": "sin2", "photon_energy": w21, "peak_field": 1e-4, "length": 2000.0},
+             {"envelope": "sin2", "photon_energy": w32, "peak_field": 1e-4, "length": 2000.0}]
+    res = run(items, ["1s", "2p", "3d"])
+    first, second = res.metadata["transitions"]
+    assert "1s-2p" in first and "2p-3d" in second and "detuning +0" in first
+    assert not res.warnings and res.populations["3d0"] > 0
+    lonely = run(items[:1], ["1s"])
+    assert any("drives nothing" in w for w in lonely.warnings)

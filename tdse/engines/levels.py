@@ -268,6 +268,7 @@ def _rwa_terms(model: LevelModel, pulse) -> FieldTerms:
         if comp.omega == 0:
             raise InputError(f"pulse[{k}] is a static field: the levels route needs `solver.rwa` = false for it")
         if not groups:
+            warnings.append(f"pulse[{k}] drives nothing: no two states of the model are dipole-coupled")
             continue
         w = min(groups, key=lambda w: abs(w - comp.omega))
         detuning = w - comp.omega
@@ -290,13 +291,13 @@ def _rwa_terms(model: LevelModel, pulse) -> FieldTerms:
                 A[u, l] = model.dipoles[qi, u, l]
             if np.any(A):   # H_ul = f(t) A and its Hermitian conjugate H_lu = f*(t) A†
                 hamiltonian += [(_pad(model, A), len(rows), False), (_pad(model, A.conj().T), len(rows), True)]
-                rows.append(("rwa", k, qi, detuning))
+                rows.append((k, qi, detuning))
         top = max(top, abs(detuning) + abs(comp.chirp) * comp.length / 2)
 
     def values(t):
         out = np.empty((len(rows), len(t)), dtype=complex)
         cache = {}
-        for r, (_, k, qi, detuning) in enumerate(rows):
+        for r, (k, qi, detuning) in enumerate(rows):
             if k not in cache:
                 cache[k] = spherical_coefficients(pulse.components[k].complex_envelope(t))
             out[r] = 0.5 * cache[k][:, qi] * np.exp(1j * detuning * t)
@@ -327,7 +328,8 @@ def _add_ionization(terms: FieldTerms, model: LevelModel, atom, pulse) -> None:
     for k, comp in enumerate(pulse.components):
         if comp.omega == 0:
             continue
-        sigma = [float(cross_section(atom, s.n, s.l, comp.omega)) for s in model.states]
+        per_level = {s.level: float(cross_section(atom, s.n, s.l, comp.omega)) for s in model.states}
+        sigma = [per_level[s.level] for s in model.states]
         ops = []
         for j, sj in enumerate(sigma):
             if sj > 0:
@@ -391,7 +393,7 @@ def sample_coefficients(values, t0: float, t1: float, *, n_start: int, tol: floa
 def coupling(atom, pulse, model: LevelModel, settings: Settings):
     """The field's part of the model: operators with their coefficient rows (``FieldTerms``) and the
     sampled coefficients ``(times, values)`` over the pulse window, as the solver uses them:
-    H(t) = Σ_r c_r(t) H_r (c_r* for the conjugate halves) and Lindblad terms |c_r(t)| D_r."""
+    H(t) = Σ_r c_r(t) H_r (c_r* for the conjugate halves) and Lindblad terms c_r(t) D_r."""
     components = pulse.components
     terms = _rwa_terms(model, pulse) if settings.rwa else _full_terms(model, pulse)
     if settings.ionization_loss:
