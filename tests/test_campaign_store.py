@@ -108,6 +108,15 @@ def test_plan_round_trip_and_status(tmp_path):
     assert not marker.exists() and not leftover.exists()
 
 
+def test_live_marker_counts_as_running_while_a_scan_holds_the_folder(tmp_path):
+    ids = [job.id for job in _plan(tmp_path).unique_jobs()]
+    store.mark_running(store.job_path(tmp_path, ids[0]))                # this process runs it
+    assert store.campaign_status(tmp_path)["running"] == 0              # no scan holds the folder
+    with store.CampaignLock(tmp_path):
+        status = store.campaign_status(tmp_path)
+    assert status["scan_active"] and (status["running"], status["pending"], status["total"]) == (1, 2, 3)
+
+
 def test_not_a_campaign(tmp_path):
     with pytest.raises(InputError, match="not a campaign folder"):
         store.read_plan(tmp_path)

@@ -56,15 +56,16 @@ def _marker_path(path: Path) -> Path:
     return path.with_suffix(".running")
 
 
-def write_text_atomic(path, text: str) -> Path:
-    """Write ``text`` to ``path`` through a temp file and ``os.replace``."""
+def write_text_atomic(path, text: str, *, sync: bool = True) -> Path:
+    """Write ``text`` to ``path`` through a temp file and ``os.replace`` (``sync``: fsync first)."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     tmp = path.with_name(path.name + ".tmp")
     with open(tmp, "w") as fh:
         fh.write(text)
-        fh.flush()
-        os.fsync(fh.fileno())
+        if sync:
+            fh.flush()
+            os.fsync(fh.fileno())
     os.replace(tmp, path)
     return path
 
@@ -228,7 +229,7 @@ def _alive(info: dict) -> bool:
 
 def mark_running(path) -> Path:
     """Write ``<id>.running`` for the job at ``path`` (who runs it, since when)."""
-    return write_text_atomic(_marker_path(Path(path)), json.dumps(_identity()))
+    return write_text_atomic(_marker_path(Path(path)), json.dumps(_identity()), sync=False)
 
 
 def clear_running(path) -> None:
