@@ -194,6 +194,11 @@ def build_model(atom, states, *, decay: bool = True, ionization_sink: bool = Fal
 
     The part of a level's total rate 1/τ not carried by channels inside the model goes to the
     sink "elsewhere" (only present when that part is > 1e-9 of the total).
+
+    >>> from tdse.atom import Atom
+    >>> m = build_model(Atom(1), [State(1, 0, 0), State(2, 1, 0), State(3, 0, 0)])
+    >>> m.labels, round(float(abs(m.dipoles[1, 1, 0])), 6)   # <2p0|z|1s> = 2^7 √2/3^5
+    (['1s0', '2p0', '3s0', 'elsewhere'], 0.744936)
     """
     from tdse.atom.dipoles import dipole_matrix_element, einstein_A, lifetime
     from tdse.atom.levels import energy
@@ -393,7 +398,16 @@ def sample_coefficients(values, t0: float, t1: float, *, n_start: int, tol: floa
 def coupling(atom, pulse, model: LevelModel, settings: Settings):
     """The field's part of the model: operators with their coefficient rows (``FieldTerms``) and the
     sampled coefficients ``(times, values)`` over the pulse window, as the solver uses them:
-    H(t) = Σ_r c_r(t) H_r (c_r* for the conjugate halves) and Lindblad terms c_r(t) D_r."""
+    H(t) = Σ_r c_r(t) H_r (c_r* for the conjugate halves) and Lindblad terms c_r(t) D_r.
+
+    >>> from tdse.atom import Atom
+    >>> from tdse.pulse import Pulse
+    >>> model = build_model(Atom(1), [State(1, 0, 0), State(2, 1, 0)], decay=False)
+    >>> pulse = Pulse({"photon_energy": 0.375, "peak_field": 1e-3, "length": 2000.0})
+    >>> terms, (times, values) = coupling(Atom(1), pulse, model, Settings(states=["1s", "2p0"]))
+    >>> len(terms.hamiltonian), terms.notes[0][:32]
+    (2, 'pulse[0] (ω = 0.375 au) drives 1')
+    """
     components = pulse.components
     terms = _rwa_terms(model, pulse) if settings.rwa else _full_terms(model, pulse)
     if settings.ionization_loss:
@@ -522,6 +536,12 @@ def propagate(atom, pulse, settings: Settings, *, initial, output=None, progress
 
     ``pulse`` may be ``None`` (field-free evolution over ``settings.after``); ``checkpoint`` is
     accepted for the route interface and not used (levels runs are short).
+
+    >>> from tdse.atom import Atom
+    >>> res = propagate(Atom.from_name("H"), None, Settings(states=["1s", "2p"], after="1.5962 ns"),
+    ...                 initial=[(State(2, 1, 0), 1.0)])
+    >>> round(res.populations["2p"], 4), round(res.populations["1s"], 4)   # one lifetime: 1/e
+    (0.3679, 0.6321)
     """
     from tdse.observables.populations import level_populations
     from tdse.result import Result
