@@ -1,6 +1,6 @@
 """Units at the edges, Hartree atomic units inside.
 
-One pint registry, atomic units defined from CODATA 2018 as shipped by :mod:`scipy.constants`, and
+One pint registry, atomic units defined from CODATA 2022 (the values :mod:`scipy.constants` ships), and
 :func:`to_au` that turns a user's quantity ("800 nm", "1e14 W/cm^2", "10 fs", "0.05 au", or a plain
 number meaning atomic units) into a float in atomic units of a named kind.
 
@@ -16,27 +16,27 @@ from __future__ import annotations
 import math
 from functools import lru_cache
 
-import scipy.constants as sc
-
 from tdse.errors import InputError
 
-_pc = sc.physical_constants
-
-# --- CODATA 2018 (scipy.constants) ------------------------------------------------------------
-ALPHA = _pc["fine-structure constant"][0]
+# --- CODATA 2022 recommended values (Mohr et al., Rev. Mod. Phys. 97, 025002 (2025)); the same
+# numbers scipy.constants ships (tests compare). Literals keep start-up free of scipy. --------------
+ALPHA = 7.2973525643e-3                              # fine-structure constant
 C_AU = 1.0 / ALPHA                                   # speed of light in atomic units
-HARTREE_J = _pc["Hartree energy"][0]
-HARTREE_EV = _pc["Hartree energy in eV"][0]
-BOHR_M = _pc["Bohr radius"][0]
-AU_TIME_S = _pc["atomic unit of time"][0]
-AU_FIELD_VM = _pc["atomic unit of electric field"][0]
-RYDBERG_INF_M = _pc["Rydberg constant"][0]            # R_inf in 1/m
-ELECTRON_MASS_KG = sc.m_e
-ATOMIC_MASS_UNIT_ME = _pc["atomic mass constant"][0] / sc.m_e   # 1 u in electron masses
+SPEED_OF_LIGHT_MS = 299792458.0
+EPSILON_0 = 8.8541878188e-12                         # F/m
+HBAR_JS = 1.0545718176461565e-34
+HARTREE_J = 4.359744722206e-18
+HARTREE_EV = 27.211386245981
+BOHR_M = 5.29177210544e-11
+AU_TIME_S = 2.4188843265864e-17
+AU_FIELD_VM = 5.14220675112e11
+RYDBERG_INF_M = 10973731.568157                      # R_inf in 1/m
+ELECTRON_MASS_KG = 9.1093837139e-31
+ATOMIC_MASS_UNIT_ME = 1.66053906892e-27 / ELECTRON_MASS_KG   # 1 u in electron masses
 BOHR2_CM2 = (BOHR_M * 100.0) ** 2                     # 1 bohr^2 in cm^2 (2.80028e-17)
 MEGABARN_CM2 = 1e-18
 # Cycle-averaged intensity of a linearly polarised wave of amplitude 1 a.u.: I = 1/2 c eps0 E^2
-AU_INTENSITY_WM2 = 0.5 * sc.c * sc.epsilon_0 * AU_FIELD_VM**2
+AU_INTENSITY_WM2 = 0.5 * SPEED_OF_LIGHT_MS * EPSILON_0 * AU_FIELD_VM**2
 AU_INTENSITY_WCM2 = AU_INTENSITY_WM2 * 1e-4           # 3.50945e16 W/cm^2
 AU_FLUENCE_JCM2 = AU_INTENSITY_WCM2 * AU_TIME_S       # (W/cm^2)*s per a.u. intensity*time
 
@@ -62,7 +62,7 @@ def registry():
     import pint
 
     ureg = pint.UnitRegistry()
-    # Pin the atomic units to CODATA 2018 as scipy ships them, so every module agrees.
+    # Pin the atomic units to the constants above, so every module agrees.
     ureg.define(f"hartree = {HARTREE_J!r} * joule = E_h")
     ureg.define(f"bohr = {BOHR_M!r} * meter = a0 = a_0")
     ureg.define(f"atomic_unit_of_time = {AU_TIME_S!r} * second")

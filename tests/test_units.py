@@ -59,3 +59,30 @@ def test_wrong_dimension_is_one_line_error(text, kind):
 def test_non_finite_rejected():
     with pytest.raises(InputError):
         units.to_au(float("nan"), "energy")
+
+
+def test_literal_constants_match_scipy_codata():
+    # the module keeps CODATA literals for a fast start-up; scipy.constants is the reference library
+    import scipy.constants as sc
+
+    pc = sc.physical_constants
+    pairs = [(units.ALPHA, pc["fine-structure constant"][0]), (units.HARTREE_J, pc["Hartree energy"][0]),
+             (units.HARTREE_EV, pc["Hartree energy in eV"][0]), (units.BOHR_M, pc["Bohr radius"][0]),
+             (units.AU_TIME_S, pc["atomic unit of time"][0]),
+             (units.AU_FIELD_VM, pc["atomic unit of electric field"][0]),
+             (units.RYDBERG_INF_M, pc["Rydberg constant"][0]), (units.ELECTRON_MASS_KG, sc.m_e),
+             (units.EPSILON_0, sc.epsilon_0), (units.HBAR_JS, sc.hbar), (units.SPEED_OF_LIGHT_MS, sc.c),
+             (units.ATOMIC_MASS_UNIT_ME, pc["atomic mass constant"][0] / sc.m_e)]
+    for ours, reference in pairs:
+        assert ours == pytest.approx(reference, rel=1e-8)
+
+
+def test_nuclear_mass_ratios_match_scipy_codata():
+    import scipy.constants as sc
+
+    from tdse.atom.species import NUCLEI
+
+    pc = sc.physical_constants
+    for name, key in [("H", "proton"), ("D", "deuteron"), ("T", "triton"), ("He3", "helion"),
+                      ("He", "alpha particle")]:
+        assert NUCLEI[name][1] == pytest.approx(pc[f"{key}-electron mass ratio"][0], rel=1e-9)
