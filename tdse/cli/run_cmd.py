@@ -12,6 +12,7 @@ laser-safety caution (on stderr with ``--json``).
 from __future__ import annotations
 
 import sys
+from pathlib import Path
 
 
 def register(subparsers) -> None:
@@ -65,8 +66,6 @@ def handle(args):
     from tdse.cli import SAFETY_CAUTION
 
     cfg = load_config(args.config)
-    from pathlib import Path
-
     result = run(cfg, out=args.out, progress=not args.no_progress, name=Path(args.config).stem)
     caution = has_lab_intensity(cfg)
     if args.json:
