@@ -57,7 +57,11 @@ def _standin_propagate(atom, pulse, settings, *, initial, output, progress=False
     p = math.sin(10 * c.peak_field) ** 2
     energy = np.linspace(0.0, 1.0, 5)
     return Result(route="standin", populations={"1s": 1 - p, "2p": p}, ionization=p / 10, norm=1.0,
-                  spectra={"photoelectron": {"energy": energy, "dP_dE": p * energy}},
+                  spectra={"photoelectron": {"energy": energy, "dP_dE": p * energy},
+                           # an axis that differs between jobs, complex values, and a time series
+                           "harmonic": {"omega": np.arange(2 + int(c.peak_field > 0.025)) * 0.5,
+                                        "amplitude": np.full(2 + int(c.peak_field > 0.025), p + 1j)},
+                           "dipole_response": {"time": np.arange(3.0), "dipole_z": np.zeros(3)}},
                   stats={"steps_here": done_steps, "resumed_from": start})
 
 
@@ -159,6 +163,11 @@ def test_collect_table_opens_with_xarray(tmp_path, standin, capsys):
         assert ds["population"].sel(state="2p").values[1, 0] == pytest.approx(math.sin(10 * f0) ** 2, rel=1e-12)
         assert ds["photoelectron_dP_dE"].dims == ("pulse.0.intensity", "pulse.0.cep", "photoelectron_energy")
         assert ds["photoelectron_energy"].values.tolist() == [0.0, 0.25, 0.5, 0.75, 1.0]
+        # F0 = 0.0169 at 1e13 W/cm^2 and 0.0338 at 4e13 W/cm^2 (analytic): 2 and 3 harmonic points
+        assert ds["harmonic_omega"].dims[-1] == "harmonic_index"
+        np.testing.assert_array_equal(ds["harmonic_omega"].values[:, 0], [[0.0, 0.5, np.nan], [0.0, 0.5, 1.0]])
+        assert ds["harmonic_amplitude"].dtype.kind == "c" and ds["harmonic_amplitude"].values[1, 0, 2].imag == 1.0
+        assert not [name for name in ds.variables if name.startswith("dipole_response")]
         assert "versions" in ds.attrs and "host" in ds.attrs and "[scan" in ds.attrs["config"]
         assert (ds["status"].values == "done").all()
     lines = Path(payload["csv"]).read_text().splitlines()

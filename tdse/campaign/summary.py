@@ -10,6 +10,8 @@ axes as coordinates); every axis coordinate has a ``units`` attribute. Variables
 * spectra: for ``spectra[NAME] = {AXIS: ..., Y: ...}`` (AXIS one of energy, omega, frequency,
   order, k) the variable ``NAME_Y`` on (scan dims, ``NAME_AXIS``) when all jobs share one AXIS
   array, else on (scan dims, ``NAME_index``) with ``NAME_AXIS`` stored beside it (NaN padded).
+  Per-step time series kept with the spectra (an array named ``time``, e.g. the grid route's
+  ``dipole_response``) stay in the job files: they would make the table as large as all jobs.
 
 Grid points whose job is not done hold NaN (``status`` says why); attributes carry provenance
 (versions, host, created), the campaign config text and the job counts.
@@ -43,7 +45,8 @@ def _coordinates(plan: dict) -> dict:
 
 def _spectra_variables(results: dict, index_of: dict, dims: tuple, shape: tuple) -> dict:
     """Spectrum arrays of all done jobs -> data variables with the spectrum axis as extra dim."""
-    names = list(dict.fromkeys(name for r in results.values() for name in r.spectra))
+    names = list(dict.fromkeys(name for r in results.values() for name, arrays in r.spectra.items()
+                               if "time" not in arrays))
     out = {}
     for name in names:
         members = {jid: r.spectra[name] for jid, r in results.items() if name in r.spectra}
@@ -57,10 +60,11 @@ def _spectra_variables(results: dict, index_of: dict, dims: tuple, shape: tuple)
         for key in keys:
             if shared and key == axis_key:
                 continue
-            data = np.full(shape + (length,), np.nan)
+            dtype = np.result_type(float, *(np.asarray(a[key]).dtype for a in members.values() if key in a))
+            data = np.full(shape + (length,), np.nan, dtype=dtype)
             for jid, arrays in members.items():
                 if key in arrays:
-                    values = np.ravel(np.asarray(arrays[key], dtype=float))
+                    values = np.ravel(np.asarray(arrays[key]))
                     for idx in index_of[jid]:
                         data[idx + (slice(0, len(values)),)] = values
             out[f"{name}_{key}"] = (dims + (extra,), data, {"units": "au"})
