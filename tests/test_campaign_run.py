@@ -175,6 +175,20 @@ def test_collect_table_opens_with_xarray(tmp_path, standin, capsys):
     assert len(lines) == 5
 
 
+def test_collect_before_any_job_finished(tmp_path):
+    from tdse.campaign.scan import expand
+
+    cfg = {"atom": {"Z": 1}, "solver": {"route": "levels", "states": ["1s", "2p"]},
+           "pulse": [{"wavelength": "121.567 nm", "intensity": "1e8 W/cm^2", "cycles": 10}],
+           "scan": {"pulse.0.cep": [0.0, 1.0]}}
+    store.write_plan(tmp_path, expand(cfg))
+    collect(tmp_path, csv=True)
+    ds = open_campaign(tmp_path / "summary.h5")
+    assert np.isnan(ds["ionization"].values).all() and (ds["status"].values == "pending").all()
+    assert ds.attrs["complete"] == 0 and ds.sizes["state"] == 0
+    assert len((tmp_path / "summary.csv").read_text().splitlines()) == 3
+
+
 def test_second_scan_on_a_busy_folder_exits_2(tmp_path, standin, capsys):
     path = tmp_path / "cfg.toml"
     path.write_text(tomli_w.dumps(_standin_config()))

@@ -163,7 +163,7 @@ def collect(folder, csv: bool = False) -> Path:
     folder = Path(folder)
     ds = build_dataset(folder)
     path = folder / store.SUMMARY_FILE
-    tmp = path.with_name(path.name + ".tmp")
+    tmp = path.with_name(f"{path.name}.{os.getpid()}.tmp")      # two collects never share a temp file
     ds.to_netcdf(tmp, engine="h5netcdf")
     os.replace(tmp, path)
     if csv:
