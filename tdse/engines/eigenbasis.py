@@ -1,0 +1,339 @@
+"""Route ``basis``: propagation in bound + box-continuum eigenstates (:mod:`tdse.basis.eigenbasis`).
+
+The amplitudes obey i dc/dt = H(t) c with H(t) = diag(E) + s(t)·B, where for linear z
+polarisation either B = z, s = E_z(t) (length form, H_int = E·z for the electron's charge −1),
+or B = p_z = iμ[H₀, z], s = A_z(t)/μ (velocity form; the A²/2μ term is a global phase).
+
+Integrator: fourth-order Magnus (Blanes, Casas, Oteo & Ros, Phys. Rep. 470, 151 (2009), eq. 4.39)
+with the two Gauss points t± = t + h(1/2 ± √3/6):
+
+    Ω = −ih [E + s̄B + iγ[E, B]],   s̄ = (s₊ + s₋)/2,   γ = (√3/12) h (s₊ − s₋),
+
+using [H(t₋), H(t₊)] = (s₊ − s₋)[E, B] (exact for this H). exp(Ω)c is evaluated by a Lanczos
+process with full reorthogonalisation whose dimension grows until Saad's a-posteriori error
+estimate β_m |(e^{−ihT_m})_{m1}| (SIAM J. Numer. Anal. 29, 209 (1992)) is below tolerance/10.
+The step size is controlled by step doubling: one step h against two of h/2, local error
+≈ ‖difference‖/15, kept below ``tolerance``; the two half steps are accepted.
+
+Results: populations of bound states by label (m-resolved and level), ``ionization`` = total
+continuum population, ``norm``, histories at the ``[output] every`` samples (bound states with
+n ≤ 4, series norm, ionization, dipole_z) and ``spectra["photoelectron"]`` =
+{energy, dP_dE, dP_dE_l} from the box density of states (:mod:`tdse.observables.photoelectron`).
+
+Convergence guidance (stats): ``top_l_population`` (largest population in l = l_max over the
+samples) and ``e_max_population`` (largest continuum population within the top 10 % of
+energies below e_max). If either exceeds ``warn_population`` (default 1e-4, absolute) the result
+carries a warning naming the key to raise (``tdse run`` prints it).
+
+>>> Settings(route="basis", e_max="50 eV").e_max > 1.8
+True
+"""
+from __future__ import annotations
+
+import math
+import time
+from typing import Literal, Union
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field, field_validator
+
+from tdse.errors import InputError
+from tdse.result import Result
+
+Quantity = Union[float, str]
+_SQRT3 = math.sqrt(3.0)
+HISTORY_N_MAX = 4          # bound levels with n <= this get a population history
+
+
+def _positive(value, kind: str, key: str) -> float:
+    from tdse.units import to_au
+
+    result = to_au(value, kind, name=f"solver.{key}")
+    if not result > 0:
+        raise InputError(f"`solver.{key}` must be > 0, got {value!r}")
+    return result
+
+
+class Settings(BaseModel):
+    """``[solver]`` keys of route ``basis``; quantities take units ("80 eV") or plain a.u."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    route: Literal["basis"] = Field("basis", description="this route")
+    r_max: Quantity = Field(200.0, description="box radius (bohr); sets the continuum density of states")
+    dr: Quantity = Field(0.08, description="grid spacing (bohr); E_n exact to 1e-5 for n <= 6 at 0.08")
+    l_max: int = Field(3, ge=0, le=200, description="highest partial wave")
+    n_max: int | None = Field(None, ge=1, description="highest bound n kept (default: all the box holds)")
+    e_max: Quantity = Field(3.0, description="highest continuum energy kept (hartree or with units)")
+    form: Literal["length", "velocity"] = Field("length", description="dipole coupling: E·z or A·p/μ")
+    tolerance: float = Field(1e-9, gt=0, lt=1e-2, description="local error per time step (amplitude norm)")
+    max_step: Quantity | None = Field(None, description="largest time step (a.u. or with units; default: none)")
+    warn_population: float = Field(1e-4, gt=0, le=1, description="warn when the population in l = l_max "
+                                   "or near e_max exceeds this")
+    cache_dir: str | None = Field("auto", description="folder for the basis cache; \"auto\" = next to "
+                                  "the result file, none = no disk cache")
+    spectrum_points: int = Field(400, ge=10, description="energies in the photoelectron spectrum")
+
+    @field_validator("r_max", "dr")
+    @classmethod
+    def _length(cls, value, info):
+        return _positive(value, "length", info.field_name)
+
+    @field_validator("e_max")
+    @classmethod
+    def _energy(cls, value, info):
+        return _positive(value, "energy", info.field_name)
+
+    @field_validator("max_step")
+    @classmethod
+    def _time(cls, value, info):
+        return None if value is None else _positive(value, "time", info.field_name)
+
+
+class KrylovFailure(RuntimeError):
+    """The Lanczos process did not converge within its largest dimension (the step is retried)."""
+
+
+def lanczos_expm(matvec, v: np.ndarray, h: float, tol: float, m_max: int = 60) -> tuple[np.ndarray, int]:
+    """exp(−i h H) v for Hermitian H given by ``matvec``; returns (result, Krylov dimension).
+
+    Lanczos with full reorthogonalisation; stops when Saad's estimate β_m |(e^{−ihT_m})_{m1}|·‖v‖
+    is below ``tol`` (Saad, SIAM J. Numer. Anal. 29, 209 (1992)).
+
+    >>> H = np.diag([0.0, 1.0, 2.0]) + 0.1 * (np.eye(3, k=1) + np.eye(3, k=-1))
+    >>> from scipy.linalg import expm
+    >>> v = np.array([1.0, 0.0, 0.0], complex)
+    >>> w, m = lanczos_expm(lambda x: H @ x, v, 0.7, 1e-12)
+    >>> bool(np.allclose(w, expm(-0.7j * H) @ v, atol=1e-12))
+    True
+    """
+    from scipy.linalg import eigh_tridiagonal
+
+    norm0 = np.linalg.norm(v)
+    if norm0 == 0:
+        return v.copy(), 0
+    V = np.empty((m_max + 1, v.size), dtype=complex)
+    V[0] = v / norm0
+    alpha = np.empty(m_max)
+    beta = np.empty(m_max)
+    for j in range(m_max):
+        w = matvec(V[j])
+        alpha[j] = np.vdot(V[j], w).real
+        w = w - alpha[j] * V[j]
+        if j:
+            w -= beta[j - 1] * V[j - 1]
+        w -= V[:j + 1].T @ (V[:j + 1].conj() @ w)         # full reorthogonalisation
+        beta[j] = np.linalg.norm(w)
+        m = j + 1
+        if m == v.size or beta[j] <= 1e-14 or m % 3 == 0 or m == m_max:
+            theta, q = eigh_tridiagonal(alpha[:m], beta[:m - 1])
+            y = q @ (np.exp(-1j * h * theta) * q[0])
+            if beta[j] * abs(y[-1]) * norm0 < tol or beta[j] <= 1e-14 or m == v.size:
+                return norm0 * (V[:m].T @ y), m
+        if m < m_max:
+            V[j + 1] = w / beta[j]
+    raise KrylovFailure(f"Lanczos did not converge in {m_max} steps")
+
+
+class MagnusPropagator:
+    """Fourth-order Magnus + Lanczos for i dc/dt = (diag(E) + s(t)·factor·S) c, S real sparse.
+
+    ``factor`` is 1 (length form, S = z) or 1j (velocity form, S real antisymmetric with
+    p_z = i·S·...); ``drive(t)`` returns s at an array of times. Counts matrix products in
+    ``matvecs``.
+    """
+
+    def __init__(self, energies, S, factor, drive, tolerance: float, max_step: float | None = None):
+        self.E = np.asarray(energies, dtype=float)
+        self.S = S.tocsr()
+        self.factor = factor
+        self.drive = drive
+        self.tol = tolerance
+        self.max_step = max_step
+        self.matvecs = 0
+
+    def _apply_S(self, block: np.ndarray) -> np.ndarray:
+        """S @ block for complex (K, c) ``block`` through one real sparse product."""
+        k, c = block.shape
+        out = self.S @ np.ascontiguousarray(block).view(float).reshape(k, 2 * c)
+        self.matvecs += c
+        return np.ascontiguousarray(out).view(complex).reshape(k, c) * self.factor
+
+    def step(self, c: np.ndarray, t: float, h: float) -> tuple[np.ndarray, int]:
+        """One Magnus-4 step from t to t + h; returns (c(t + h), Krylov dimension)."""
+        s_minus, s_plus = self.drive(np.array([t + h * (0.5 - _SQRT3 / 6), t + h * (0.5 + _SQRT3 / 6)]))
+        s_bar = 0.5 * (s_minus + s_plus)
+        gamma = (_SQRT3 / 12.0) * h * (s_plus - s_minus)
+        E = self.E
+
+        def matvec(v):
+            bv, bev = self._apply_S(np.stack([v, E * v], axis=1)).T
+            return E * v + s_bar * bv + 1j * gamma * (E * bv - bev)
+
+        return lanczos_expm(matvec, c, h, self.tol / 10.0)
+
+    def advance(self, c: np.ndarray, t: float, t_stop: float, h: float) -> tuple[np.ndarray, float, float]:
+        """Adaptive steps from t to t_stop (step doubling); returns (c, t_stop, next h)."""
+        while t < t_stop:
+            if self.max_step is not None:
+                h = min(h, self.max_step)
+            last = t + h >= t_stop
+            h_try = t_stop - t if last else h
+            try:
+                coarse, _ = self.step(c, t, h_try)
+                half, _ = self.step(c, t, h_try / 2)
+                fine, _ = self.step(half, t + h_try / 2, h_try / 2)
+            except KrylovFailure:
+                h = h_try / 2
+                continue
+            err = np.linalg.norm(fine - coarse) / 15.0
+            grow = 2.0 if err == 0 else min(2.0, 0.9 * (self.tol / err) ** 0.2)
+            if err <= self.tol:
+                c, t = fine, t + h_try
+                if last:
+                    h = max(h, h_try * grow)      # a short final step does not shrink h
+                    break
+                h = h_try * grow
+            else:
+                h = h_try * max(0.2, grow)
+        return c, t_stop, h
+
+
+def _initial_vector(basis, initial) -> np.ndarray:
+    c = np.zeros(basis.size, dtype=complex)
+    for state, amplitude in initial:
+        c[basis.index(state)] += amplitude
+    return c
+
+
+def _basis_m(initial) -> int:
+    ms = {0 if s.m is None else s.m for s, _ in initial}
+    if len(ms) != 1:
+        raise InputError(f"`atom.initial`: the basis route propagates one m at a time; got m = {sorted(ms)}")
+    return ms.pop()
+
+
+def _cache_folder(settings: Settings, checkpoint):
+    if settings.cache_dir is None or settings.cache_dir.lower() == "none":
+        return None
+    if settings.cache_dir == "auto":
+        return None if checkpoint is None else checkpoint.path.parent / ".basis-cache"
+    return settings.cache_dir
+
+
+def propagate(atom, pulse, settings: Settings, *, initial, output, progress=False, checkpoint=None) -> Result:
+    """Propagate ``initial`` (list of (State, amplitude)) through ``pulse`` in the eigenbasis.
+
+    >>> from tdse.atom import Atom, State
+    >>> from tdse.pulse import Pulse
+    >>> from tdse.campaign.config import OutputConfig
+    >>> p = Pulse({"photon_energy": 0.6, "peak_field": 1e-3, "cycles": 3})
+    >>> s = Settings(r_max=40.0, dr=0.1, l_max=1, e_max=2.0, cache_dir=None)
+    >>> res = propagate(Atom(1), p, s, initial=[(State(1, 0), 1.0)], output=OutputConfig())
+    >>> 1e-7 < res.ionization < 1e-5, abs(res.norm - 1) < 1e-9
+    (True, True)
+    """
+    from tdse.basis.eigenbasis import cached_basis
+    from tdse.observables.photoelectron import box_spectrum
+    from tdse.observables.populations import level_populations
+    from tdse.units import to_au
+
+    if not pulse.is_linear_z:
+        raise InputError("`pulse.polarization`: the basis route handles linear z polarisation only "
+                         "(use route = \"grid\" or \"levels\" for x or circular light)")
+    wall0 = time.perf_counter()
+    m = _basis_m(initial)
+    basis, reused = cached_basis(atom, _cache_folder(settings, checkpoint), r_max=settings.r_max,
+                                 dr=settings.dr, l_max=settings.l_max, n_max=settings.n_max,
+                                 e_max=settings.e_max, m=m)
+    build_s = time.perf_counter() - wall0
+    c = _initial_vector(basis, initial)
+    if settings.form == "length":
+        drive, S, factor = pulse.field_z, basis.dipole, 1.0
+    else:
+        dz = basis.dipole.tocoo()
+        from scipy.sparse import csr_matrix
+
+        values = basis.mu * (basis.energies[dz.row] - basis.energies[dz.col]) * dz.data
+        S, factor = csr_matrix((values, (dz.row, dz.col)), shape=dz.shape), 1j
+
+        def drive(t):
+            return pulse.vector_potential_z(t) / basis.mu
+    prop = MagnusPropagator(basis.energies, S, factor, drive, settings.tolerance, settings.max_step)
+
+    t0, t1 = pulse.t_start, pulse.t_end
+    every = None if output.every is None else to_au(output.every, "time", name="output.every")
+    if every is not None and not every > 0:
+        raise InputError(f"`output.every` must be > 0, got {output.every!r}")
+    n_samples = 201 if every is None else max(2, int(math.floor((t1 - t0) / every + 1e-9)) + 1)
+    times = t0 + np.arange(n_samples) * ((t1 - t0) / (n_samples - 1) if every is None else every)
+    if times[-1] < t1 - 1e-9:
+        times = np.append(times, t1)
+    hist_idx = np.flatnonzero(basis.bound & (basis.n <= HISTORY_N_MAX))
+    cont = ~basis.bound
+    top_l = basis.l == basis.l.max()
+    e_cont = basis.energies[cont]
+    near_emax = cont & (basis.energies >= 0.9 * float(e_cont.max() if e_cont.size else 0.0))
+    records = {"bound": np.zeros((times.size, hist_idx.size)), "norm": np.zeros(times.size),
+               "ionization": np.zeros(times.size), "dipole_z": np.zeros(times.size),
+               "top_l": np.zeros(times.size), "near_emax": np.zeros(times.size)}
+
+    def record(i, c):
+        pop = np.abs(c) ** 2
+        records["bound"][i] = pop[hist_idx]
+        records["norm"][i] = pop.sum()
+        records["ionization"][i] = pop[cont].sum()
+        records["dipole_z"][i] = np.vdot(c, basis.dipole @ c).real
+        records["top_l"][i] = pop[top_l].sum()
+        records["near_emax"][i] = pop[near_emax].sum()
+
+    start, h = 0, min(1.0, (t1 - t0) / 10)
+    resumed = checkpoint.load() if checkpoint is not None else None
+    if resumed is not None:
+        arrays, meta = resumed
+        c, start, h = arrays["c"], int(meta["sample"]), float(meta["h"])
+        for key in records:
+            records[key][:start + 1] = arrays[key][:start + 1]
+    else:
+        record(0, c)
+    bar = None
+    if progress:
+        from tqdm import tqdm
+
+        bar = tqdm(total=times.size - 1, initial=start, desc="basis", unit="sample", leave=False)
+    last_save = time.perf_counter()
+    for i in range(start, times.size - 1):
+        c, _, h = prop.advance(c, times[i], times[i + 1], h)
+        record(i + 1, c)
+        if bar is not None:
+            bar.update(1)
+        if checkpoint is not None and time.perf_counter() - last_save > 60.0:
+            checkpoint.save({"c": c, **records}, {"sample": i + 1, "h": h})
+            last_save = time.perf_counter()
+    if bar is not None:
+        bar.close()
+
+    pop = np.abs(c) ** 2
+    bound_idx = np.flatnonzero(basis.bound)
+    populations = level_populations({basis.label(i): float(pop[i]) for i in bound_idx})
+    history = level_populations({basis.label(i): records["bound"][:, j] for j, i in enumerate(hist_idx)})
+    energy = np.linspace(0.0, float(settings.e_max), settings.spectrum_points)
+    l_min = int(basis.l.min())
+    n_waves = int(basis.l.max()) - l_min + 1
+    dP_dE, dP_dE_l = box_spectrum(energy, basis.energies[cont], basis.l[cont], pop[cont],
+                                  basis.dos[cont], n_waves, l_min)
+    stats = {"basis_size": basis.size, "basis_key": basis.key, "basis_reused": reused,
+             "basis_build_s": build_s, "matvecs": prop.matvecs, "form": settings.form,
+             "top_l_population": float(records["top_l"].max()),
+             "e_max_population": float(records["near_emax"].max()),
+             "propagate_s": time.perf_counter() - wall0 - build_s}
+    warnings = []
+    for key, setting in (("top_l_population", "l_max"), ("e_max_population", "e_max")):
+        if stats[key] > settings.warn_population:
+            warnings.append(f"basis not converged: {key} = {stats[key]:.3g} > warn_population = "
+                            f"{settings.warn_population:.3g}; raise `solver.{setting}`")
+    return Result(route="basis", populations=populations, ionization=float(pop[cont].sum()),
+                  norm=float(pop.sum()), times=times, history_populations=history,
+                  series={k: records[k] for k in ("norm", "ionization", "dipole_z")},
+                  spectra={"photoelectron": {"energy": energy, "dP_dE": dP_dE, "dP_dE_l": dP_dE_l}},
+                  stats=stats, warnings=warnings)

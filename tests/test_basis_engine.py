@@ -1,0 +1,146 @@
+"""Route "basis": propagation checks (norm, reference ODE solver, Rabi flopping, gauges, spectra, files)."""
+import math
+
+import numpy as np
+import pytest
+from scipy.integrate import solve_ivp
+from scipy.linalg import expm
+
+from tdse.atom import Atom, State
+from tdse.atom.dipoles import dipole_matrix_element
+from tdse.basis.eigenbasis import build_basis
+from tdse.campaign.config import OutputConfig
+from tdse.engines import route_module, settings_for
+from tdse.engines.eigenbasis import MagnusPropagator, Settings, lanczos_expm, propagate
+from tdse.errors import InputError
+from tdse.pulse import Pulse
+
+H = Atom(1)
+GROUND = [(State(1, 0), 1.0)]
+
+
+def _run(pulse, **keys):
+    keys.setdefault("cache_dir", None)
+    return propagate(H, pulse, Settings(**keys), initial=GROUND, output=OutputConfig())
+
+
+def test_norm_conserved_in_a_strong_field():
+    pulse = Pulse({"wavelength": "800 nm", "peak_field": 0.05, "cycles": 3})
+    res = _run(pulse, r_max=60.0, dr=0.1, l_max=6, e_max=3.0, tolerance=1e-8)
+    assert res.ionization > 1e-4                         # the field does something
+    assert abs(res.norm - 1) < 1e-9                       # unitary propagation, no absorber
+    assert np.max(np.abs(res.series["norm"] - 1)) < 1e-9
+
+
+def test_lanczos_matches_dense_exponential():
+    rng = np.random.default_rng(3)
+    a = rng.normal(size=(40, 40))
+    h = a + a.T
+    v = rng.normal(size=40) + 1j * rng.normal(size=40)
+    w, m = lanczos_expm(lambda x: h @ x, v, 0.3, 1e-12)
+    np.testing.assert_allclose(w, expm(-0.3j * h) @ v, atol=1e-11)   # scipy.linalg.expm reference
+    assert m < 40
+
+
+def test_magnus_matches_dop853_on_same_matrix():
+    basis = build_basis(H, r_max=30.0, dr=0.2, l_max=2, e_max=2.0)
+    pulse = Pulse({"photon_energy": 0.3, "peak_field": 0.03, "cycles": 3})
+    E, D = basis.energies, basis.dipole.toarray()
+    c0 = np.zeros(basis.size, complex)
+    c0[basis.index("1s")] = 1.0
+
+    def rhs(t, y):
+        return -1j * (E * y + pulse.field_z(np.array([t]))[0] * (D @ y))
+
+    ref = solve_ivp(rhs, (pulse.t_start, pulse.t_end), c0, method="DOP853", rtol=1e-12, atol=1e-13).y[:, -1]
+    prop = MagnusPropagator(E, basis.dipole, 1.0, pulse.field_z, 1e-10)
+    c, _, _ = prop.advance(c0, pulse.t_start, pulse.t_end, 1.0)
+    assert np.linalg.norm(c - ref) < 1e-7
+    assert 1 - abs(ref[basis.index("1s")]) ** 2 > 1e-3
+
+
+def test_tolerance_controls_the_error():
+    pulse = Pulse({"photon_energy": 0.4, "peak_field": 0.02, "cycles": 4})
+    keys = dict(r_max=40.0, dr=0.1, l_max=3, e_max=2.0)
+    loose, tight = _run(pulse, tolerance=1e-5, **keys), _run(pulse, tolerance=1e-11, **keys)
+    ref = tight.populations["2p"]
+    assert abs(loose.populations["2p"] - ref) < 1e-4
+    assert loose.stats["matvecs"] < tight.stats["matvecs"]
+
+
+def test_resonant_rabi_flopping_agrees_with_levels_route_and_pulse_area():
+    d = dipole_matrix_element(H, State(2, 1, 0), State(1, 0, 0), 0)
+    omega, cycles = 0.375, 120                            # 1s-2p resonance (analytic, infinite mass)
+    T = cycles * 2 * math.pi / omega
+    theta = math.pi / 2
+    F0 = 2 * theta / (d * T)                              # area: int F0 d sin^2(pi t/T) dt = F0 d T/2
+    pulse = Pulse({"photon_energy": omega, "peak_field": F0, "cycles": cycles})
+    basis = _run(pulse, r_max=100.0, dr=0.1, l_max=2, e_max=1.0, tolerance=1e-8)
+    levels_mod = route_module("levels")
+    lset = settings_for("levels", {"route": "levels", "states": ["1s", "2p0"], "rwa": False, "decay": False})
+    levels = levels_mod.propagate(H, pulse, lset, initial=GROUND, output=OutputConfig())
+    print("P(2p) basis", basis.populations["2p"], "levels", levels.populations["2p"])
+    assert basis.populations["2p"] == pytest.approx(math.sin(theta / 2) ** 2, rel=0.02)   # pulse-area theorem
+    assert basis.populations["2p"] == pytest.approx(levels.populations["2p"], rel=0.01)
+
+
+def test_length_and_velocity_forms_agree_in_weak_field():
+    pulse = Pulse({"photon_energy": 0.8, "peak_field": 1e-3, "cycles": 6})
+    keys = dict(r_max=100.0, dr=0.1, l_max=2, e_max=4.0, tolerance=1e-10)
+    length, velocity = _run(pulse, form="length", **keys), _run(pulse, form="velocity", **keys)
+    assert velocity.ionization == pytest.approx(length.ionization, rel=0.01)
+
+
+def test_photoelectron_spectrum_integrates_to_yield_and_peaks_at_photon_minus_ip():
+    pulse = Pulse({"photon_energy": 0.8, "peak_field": 1e-3, "cycles": 10})
+    res = _run(pulse, r_max=150.0, dr=0.1, l_max=2, e_max=2.0, tolerance=1e-10)
+    spec = res.spectra["photoelectron"]
+    energy, dpde = spec["energy"], spec["dP_dE"]
+    assert spec["dP_dE_l"].shape == (3, energy.size)
+    np.testing.assert_allclose(spec["dP_dE_l"].sum(axis=0), dpde)
+    assert np.trapezoid(dpde, energy) == pytest.approx(res.ionization, rel=0.01)
+    assert energy[np.argmax(dpde)] == pytest.approx(0.8 - 0.5, abs=0.02)    # Einstein: E = w - I_p
+    assert np.argmax(spec["dP_dE_l"].max(axis=1)) == 1                       # one photon from s: p wave
+
+
+def test_convergence_warning_when_top_partial_wave_is_populated():
+    pulse = Pulse({"wavelength": "800 nm", "peak_field": 0.05, "cycles": 2})
+    res = _run(pulse, r_max=40.0, dr=0.2, l_max=1, e_max=2.0, tolerance=1e-6)
+    assert res.stats["top_l_population"] > 1e-4
+    assert any("l_max" in w for w in res.warnings)
+    weak = _run(Pulse({"photon_energy": 0.3, "peak_field": 1e-4, "cycles": 2}),
+                r_max=40.0, dr=0.2, l_max=2, e_max=2.0)
+    assert weak.warnings == []
+
+
+def test_run_through_api_writes_file_and_reuses_basis(tmp_path):
+    from tdse.api import open_result, run
+
+    config = {"atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
+              "pulse": [{"photon_energy": "20 eV", "intensity": "1e12 W/cm^2", "cycles": 6}],
+              "solver": {"route": "basis", "r_max": "3 nm", "dr": 0.1, "l_max": 1, "e_max": "40 eV"},
+              "output": {"every": "0.5 fs"}}
+    first = run(config, out=tmp_path, progress=False)
+    assert first.stats["basis_reused"] is False
+    back = open_result(first.metadata["file"])
+    assert back.route == "basis" and back.ionization == pytest.approx(first.ionization)
+    assert {"1s", "1s0", "2p", "2p0"} <= set(back.populations)
+    assert "dP_dE" in back.spectra["photoelectron"]
+    assert back.times[1] - back.times[0] == pytest.approx(0.5 * 41.341373335, rel=1e-9)   # CODATA 2018: 1 a.u. time = 2.4188843266e-17 s
+    second = run(dict(config, pulse=[{"photon_energy": "21 eV", "intensity": "1e12 W/cm^2", "cycles": 6}]),
+                 out=tmp_path, progress=False)
+    assert second.stats["basis_reused"] is True
+
+
+def test_bad_input():
+    with pytest.raises(InputError, match="polari"):
+        _run(Pulse({"photon_energy": 0.4, "peak_field": 1e-3, "cycles": 2, "polarization": "circular+"}),
+             r_max=20.0, dr=0.2, l_max=1, e_max=1.0)
+    with pytest.raises(InputError, match="one m"):
+        propagate(H, Pulse({"photon_energy": 0.4, "peak_field": 1e-3, "cycles": 2}),
+                  Settings(r_max=20.0, dr=0.2, l_max=2, e_max=1.0, cache_dir=None),
+                  initial=[(State(2, 1, 0), 0.6), (State(2, 1, 1), 0.8)], output=OutputConfig())
+    with pytest.raises(InputError, match="solver.dr"):
+        settings_for("basis", {"route": "basis", "dr": "-1 nm"})
+    with pytest.raises(InputError, match="l_max"):
+        settings_for("basis", {"route": "basis", "lmax": 3})
