@@ -83,13 +83,10 @@ def setup():
     return grid, arrays, ops, psi
 
 
-def factors(arrays, n, nl):
-    w = np.zeros((n, nl), complex)
-    cp = np.zeros((n, nl), complex)
-    a = arrays
-    kernels.cn_factorize(a["m_diag"], a["m_off"], a["d_diag"], a["d_off"], a["m_first"], a["d_first"],
-                         a["cent"], a["coul"], a["invr2"], TAU, 0.5 / ATOM.reduced_mass, w, cp)
-    return w, cp
+def stepper_for(grid, mask, threads=1, nl=L):
+    from tdse.engines.grid import _Stepper
+
+    return _Stepper(grid, ATOM, nl, 2 * TAU, mask, threads)
 
 
 def test_potential_formula_matches_radial_grid(setup):
@@ -101,76 +98,70 @@ def test_potential_formula_matches_radial_grid(setup):
 
 def test_cn_factorize_matches_lu_of_dense_matrix(setup):
     grid, a, ops, _ = setup
-    w, cp = factors(a, N, L)
+    st = stepper_for(grid, np.ones(N))
     for l in (0, 1, L - 1):
+        j = st.column_of[l]
+        w = st.wr[:, j] + 1j * st.wi[:, j]
+        cp = st.cr[:, j] + 1j * st.ci[:, j]
         o = ops[l]
         M = np.diag(o.m_diag) + np.diag(o.m_off, 1) + np.diag(o.m_off, -1)
         D = np.diag(o.d_diag) + np.diag(o.d_off, 1) + np.diag(o.d_off, -1)
         ap = M + 1j * TAU * (-D / (2 * o.mu) + M @ np.diag(o.potential))
-        # rebuild A+ from the factors: A+ = L U with U = unit upper (c'), L lower bidiagonal (b', a)
-        b = 1.0 / w[:, l]
-        lower = np.diag(b) + np.diag(np.diag(ap, -1), -1)
-        upper = np.eye(N) + np.diag(cp[:-1, l], 1)
+        # rebuild A+ from the factors: A+ = L U, U unit upper bidiagonal (c'), L lower (b', a)
+        lower = np.diag(1.0 / w) + np.diag(np.diag(ap, -1), -1)
+        upper = np.eye(N) + np.diag(cp[:-1], 1)
         np.testing.assert_allclose(lower @ upper, ap, atol=1e-12 * abs(ap).max())
 
 
-def test_propagate_chunk_matches_twin(setup):
-    grid, a, ops, psi0 = setup
-    w, cp = factors(a, N, L)
-    r = grid.r
-    c = coupling(L)
+def edge_mask():
     mask = np.ones(N)
-    i_abs = N - 30
-    mask[i_abs:] = np.cos(0.5 * np.pi * np.arange(30) / 30) ** 0.125   # cos^(1/8) edge (common practice)
+    mask[N - 30:] = np.cos(0.5 * np.pi * np.arange(30) / 30) ** 0.125   # cos^(1/8) edge (common practice)
+    return mask
+
+
+@pytest.mark.parametrize("nl", [L, L - 1])           # odd and even numbers of partial waves
+def test_propagate_chunk_matches_twin(setup, nl):
+    grid, a, ops, psi0 = setup
+    psi0 = psi0[:, :nl] / np.linalg.norm(psi0[:, :nl])
+    mask = edge_mask()
+    st = stepper_for(grid, mask, nl=nl)
+    assert st.i_abs == N - 29
     fields = np.array([0.03, -0.05, 0.07, 0.01])
-    psi = psi0.copy()
-    y = np.zeros_like(psi)
+    st.set_state(psi0)
     out = np.zeros((fields.size, 3))
-    kernels.propagate_chunk(psi, y, w, cp, a["m_diag"], a["m_off"], a["d_diag"], a["d_off"],
-                            a["m_first"], a["d_first"], a["cent"], a["coul"], a["invr2"], TAU,
-                            0.5 / ATOM.reduced_mass, DR, c, fields, mask, i_abs,
-                            np.zeros(L, complex), np.zeros(L, complex), np.zeros((4, L), complex),
-                            np.zeros((4, L), complex), out)
-    ref, ref_obs = twin_chunk(psi0, ops, TAU, r, c, fields, mask)
-    np.testing.assert_allclose(psi, ref, atol=1e-12)
+    st.run(fields, out)
+    ref, ref_obs = twin_chunk(psi0, ops[:nl], TAU, grid.r, coupling(nl), fields, mask)
+    np.testing.assert_allclose(st.state(), ref, atol=1e-12)
     np.testing.assert_allclose(out, ref_obs, rtol=1e-11, atol=1e-13)
     assert out[-1, 0] < 1 - 1e-3          # the mask removed norm: the test sees absorption
 
 
 def test_propagate_chunk_parallel_matches_twin(setup):
     grid, a, ops, psi0 = setup
-    w, cp = factors(a, N, L)
-    c = coupling(L)
-    mask = np.ones(N)
-    mask[-20:] = 0.9
+    mask = edge_mask()
+    st = stepper_for(grid, mask, threads=2)
     fields = np.array([0.02, 0.04, -0.06])
-    block = 4
-    psi = psi0.copy()
+    st.set_state(psi0)
     out = np.zeros((fields.size, 3))
-    kernels.propagate_chunk_parallel(psi, np.zeros_like(psi), w, cp, a["m_diag"], a["m_off"],
-                                     a["d_diag"], a["d_off"], a["m_first"], a["d_first"], a["cent"],
-                                     a["coul"], a["invr2"], TAU, 0.5 / ATOM.reduced_mass, DR, c,
-                                     fields, mask, N - 20, np.zeros(((L + block - 1) // block, block),
-                                                                     complex),
-                                     np.zeros(((N + block - 1) // block, 3)), out, block)
-    ref, ref_obs = twin_chunk(psi0, ops, TAU, grid.r, c, fields, mask)
-    np.testing.assert_allclose(psi, ref, atol=1e-12)
+    st.run(fields, out)
+    ref, ref_obs = twin_chunk(psi0, ops, TAU, grid.r, coupling(L), fields, mask)
+    np.testing.assert_allclose(st.state(), ref, atol=1e-12)
     np.testing.assert_allclose(out, ref_obs, rtol=1e-11, atol=1e-13)
 
 
 def test_rotate_all_matches_twin(setup):
     grid, a, ops, psi0 = setup
-    c = coupling(L)
-    psi = psi0.copy()
-    kernels.rotate_all(psi, 0.3, TAU, DR, c, 1, np.zeros((2, L), complex), np.zeros((2, L), complex))
-    ref = twin_rotate(twin_rotate(psi0, 0.3, TAU, grid.r, c, 1), 0.3, TAU, grid.r, c, 0)
-    np.testing.assert_allclose(psi, ref, atol=1e-13)
-    assert abs(np.linalg.norm(psi) - 1.0) < 1e-13        # rotations are unitary
+    st = stepper_for(grid, np.ones(N))
+    st.set_state(psi0)
+    kernels.rotate_all(st.pr, st.pi, 0.3, TAU, DR, st.ca, st.cb, st.rot, st.stp)
+    ref = twin_rotate(twin_rotate(psi0, 0.3, TAU, grid.r, coupling(L), 0), 0.3, TAU, grid.r,
+                      coupling(L), 1)
+    np.testing.assert_allclose(st.state(), ref, atol=1e-13)
+    assert abs(np.linalg.norm(st.state()) - 1.0) < 1e-13        # rotations are unitary
 
 
-def test_project_rows_matches_matmul(setup):
-    grid, a, ops, psi0 = setup
-    vec = np.linalg.qr(np.random.default_rng(3).normal(size=(N, 5)))[0]
-    out = np.zeros(5, complex)
-    kernels.project_rows(psi0, vec, 2, out)
-    np.testing.assert_allclose(out, vec.T @ psi0[:, 2], atol=1e-14)
+def test_reduce_partial_sums_blocks():
+    part = np.random.default_rng(5).normal(size=(3, 7, 3))
+    out = np.zeros((3, 3))
+    kernels.reduce_partial(part, out)
+    np.testing.assert_allclose(out, part.sum(axis=1), rtol=1e-14)

@@ -268,7 +268,9 @@ def coupling_coefficients(l_max: int) -> np.ndarray:
 
 
 class _Stepper:
-    """Arrays of the propagation, prepared once: operators, Thomas factors, mask, scratch."""
+    """The propagation state and its arrays, prepared once: operators, Thomas factors, mask,
+    scratch. It holds the state in the kernels' layout (real and imaginary parts, columns even l
+    then odd l); :meth:`state` and :meth:`set_state` convert exactly (no arithmetic)."""
 
     def __init__(self, grid, atom, n_l: int, dt: float, mask, threads: int):
         from tdse.basis.radial_grid import numerov_operators
@@ -277,62 +279,89 @@ class _Stepper:
         self.kernels = kernels
         n = grid.n_points
         ops = [numerov_operators(grid, l, atom) for l in range(n_l)]
-        ref = ops[min(2, n_l - 1)]                  # rows >= 1 are the same for every l
+        ref = ops[-1]                                # rows >= 1 are the same for every l
         for o in ops:
             if not (np.array_equal(o.m_diag[1:], ref.m_diag[1:]) and np.array_equal(o.d_diag[1:], ref.d_diag[1:])
                     and np.array_equal(o.m_off, ref.m_off) and np.array_equal(o.d_off, ref.d_off)):
                 raise RuntimeError("radial_grid operators differ between l beyond the first row")
+        self.order = np.r_[np.arange(0, n_l, 2), np.arange(1, n_l, 2)]   # column j holds l = order[j]
+        self.column_of = np.argsort(self.order)
         r = grid.r
         mu = atom.reduced_mass
+        cent = np.array([l * (l + 1) / (2 * mu) for l in range(n_l)])
         self.a = dict(m_diag=ref.m_diag.copy(), m_off=ref.m_off.copy(), d_diag=ref.d_diag.copy(),
-                      d_off=ref.d_off.copy(), m_first=np.array([o.m_diag[0] for o in ops]),
-                      d_first=np.array([o.d_diag[0] for o in ops]),
-                      cent=np.array([l * (l + 1) / (2 * mu) for l in range(n_l)]),
-                      coul=-atom.Z / r, invr2=1.0 / r**2)
+                      d_off=ref.d_off.copy(),
+                      m_first=np.array([o.m_diag[0] for o in ops])[self.order].copy(),
+                      d_first=np.array([o.d_diag[0] for o in ops])[self.order].copy(),
+                      cent=cent[self.order].copy(), coul=-atom.Z / r, invr2=1.0 / r**2)
         self.tau = 0.5 * dt
         self.inv2mu = 0.5 / mu
         self.dr = grid.dr
-        self.coupling = np.ascontiguousarray(coupling_coefficients(n_l - 1))
+        c = coupling_coefficients(n_l - 1)
+        ne = (n_l + 1) // 2
+        self.ca = c[0:2 * (n_l // 2):2].copy()          # pairs (2p, 2p+1)
+        self.cb = c[1:2 * (ne - 1):2].copy()            # pairs (2p+1, 2p+2)
         self.mask = np.ascontiguousarray(mask, dtype=float)
         below = np.nonzero(self.mask < 1.0)[0]
         self.i_abs = int(below[0]) if below.size else n
-        self.w = np.zeros((n, n_l), complex)
-        self.cp = np.zeros((n, n_l), complex)
-        a = self.a
-        kernels.cn_factorize(a["m_diag"], a["m_off"], a["d_diag"], a["d_off"], a["m_first"],
-                             a["d_first"], a["cent"], a["coul"], a["invr2"], self.tau, self.inv2mu,
-                             self.w, self.cp)
-        self.y = np.zeros((n, n_l), complex)
+        shape = (n, n_l)
+        self.wr, self.wi, self.cr, self.ci = (np.zeros(shape) for _ in range(4))
+        self.refactor()
+        self.pr, self.pi, self.yr, self.yi = (np.zeros(shape) for _ in range(4))
         self.threads = threads
+        p = max(1, self.ca.size, self.cb.size)
         if threads == 1:
-            self.row = np.zeros(n_l, complex)
-            self.carry = np.zeros(n_l, complex)
-            self.rot = np.zeros((4, n_l), complex)
-            self.step = np.zeros((4, n_l), complex)
+            self.carry = np.zeros((2, n_l))
+            self.rot = np.zeros((8, p))
+            self.stp = np.zeros((8, p))
         else:
-            self.block = 8
-            self.carry = np.zeros(((n_l + 7) // 8, 8), complex)
-            self.partial = np.zeros(((n + 7) // 8, 3))
+            self.block = 16
+            nrb = (n + self.block - 1) // self.block
+            self.carry = np.zeros(((n_l + self.block - 1) // self.block, 2, self.block))
+            self.rot = np.zeros((nrb, 8, p))
+            self.stp = np.zeros((nrb, 8, p))
 
-    def run(self, psi, fields, out):
-        """Advance ``psi`` in place by len(fields) steps; ``out`` (k, 3) gets norm, ⟨z⟩, ⟨cosθ/r²⟩."""
+    def refactor(self):
+        """(Re)compute the Thomas factors from the arrays in ``self.a`` and ``self.tau``."""
+        a = self.a
+        self.kernels.cn_factorize(a["m_diag"], a["m_off"], a["d_diag"], a["d_off"], a["m_first"],
+                                  a["d_first"], a["cent"], a["coul"], a["invr2"], self.tau,
+                                  self.inv2mu, self.wr, self.wi, self.cr, self.ci)
+
+    def set_state(self, psi):
+        """Load ψ[i, l] (complex, natural l order)."""
+        self.pr[:] = psi.real[:, self.order]
+        self.pi[:] = psi.imag[:, self.order]
+
+    def state(self) -> np.ndarray:
+        """ψ[i, l] (complex, natural l order), a new array."""
+        psi = np.empty(self.pr.shape, complex)
+        psi.real[:, self.order] = self.pr
+        psi.imag[:, self.order] = self.pi
+        return psi
+
+    def column(self, l: int) -> np.ndarray:
+        """u_l(r_i) as a complex vector."""
+        j = self.column_of[l]
+        return self.pr[:, j] + 1j * self.pi[:, j]
+
+    def run(self, fields, out):
+        """Advance the state by len(fields) steps; ``out`` (k, 3) gets norm, ⟨z⟩, ⟨cosθ/r²⟩."""
         a = self.a
         fields = np.ascontiguousarray(fields, dtype=float)
+        args = (self.pr, self.pi, self.yr, self.yi, self.wr, self.wi, self.cr, self.ci, a["m_diag"],
+                a["m_off"], a["d_diag"], a["d_off"], a["m_first"], a["d_first"], a["cent"], a["coul"],
+                a["invr2"], self.tau, self.inv2mu, self.dr, self.ca, self.cb, fields, self.mask,
+                self.i_abs, self.carry, self.rot, self.stp)
         if self.threads == 1:
-            self.kernels.propagate_chunk(psi, self.y, self.w, self.cp, a["m_diag"], a["m_off"],
-                                         a["d_diag"], a["d_off"], a["m_first"], a["d_first"],
-                                         a["cent"], a["coul"], a["invr2"], self.tau, self.inv2mu,
-                                         self.dr, self.coupling, fields, self.mask, self.i_abs,
-                                         self.row, self.carry, self.rot, self.step, out)
+            self.kernels.propagate_chunk(*args, out)
         else:
             import numba
 
             numba.set_num_threads(min(self.threads, numba.config.NUMBA_NUM_THREADS))
-            self.kernels.propagate_chunk_parallel(
-                psi, self.y, self.w, self.cp, a["m_diag"], a["m_off"], a["d_diag"], a["d_off"],
-                a["m_first"], a["d_first"], a["cent"], a["coul"], a["invr2"], self.tau, self.inv2mu,
-                self.dr, self.coupling, fields, self.mask, self.i_abs, self.carry, self.partial, out,
-                self.block)
+            partial = np.zeros((fields.size, self.rot.shape[0], 3))
+            self.kernels.propagate_chunk_parallel(*args, partial, self.block)
+            self.kernels.reduce_partial(partial, out)
 
 
 def _chunk_ends(n_steps: int, every: int, ckpt_steps: int | None) -> list[int]:
@@ -429,25 +458,29 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
                 step, sample = int(meta["step"]), int(meta["sample"])
                 resumed = True
 
+    stepper = _Stepper(grid, atom, n_l, dt, mask, settings.threads)
+    stepper.set_state(psi)
+
     def measure(k):
         total = 0.0
-        for idx, (l, j) in enumerate(labelled):
-            hist_pop[k, idx] = abs(bound[l][1][:, j] @ psi[:, l]) ** 2
         for l in range(n_l_bound):
-            total += float(np.sum(abs(bound[l][1].T @ psi[:, l]) ** 2))
+            amps = bound[l][1].T @ stepper.column(l)
+            total += float(np.sum(abs(amps) ** 2))
+            for idx, (ll, j) in enumerate(labelled):
+                if ll == l:
+                    hist_pop[k, idx] = abs(amps[j]) ** 2
         hist_bound[k] = total
 
     if not resumed:
         measure(0)
         hist_obs[0] = _observables(psi, r, coupling_coefficients(par.l_max))
         sample = 1
-    stepper = _Stepper(grid, atom, n_l, dt, mask, settings.threads)
     bar = _progress_bar(n_steps, step, progress)
     last_save = time.perf_counter()
     for end in ends:
         if end <= step:
             continue
-        stepper.run(psi, fields_mid[step:end], per_step[step:end])
+        stepper.run(fields_mid[step:end], per_step[step:end])
         if bar is not None:
             bar.update(end - step)
         step = end
@@ -458,7 +491,7 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
         due = (ckpt_steps is not None and step % ckpt_steps == 0) or \
               (ckpt_wall is not None and time.perf_counter() - last_save >= ckpt_wall)
         if checkpoint is not None and due and step < n_steps:
-            checkpoint.save({"psi": psi, "per_step": per_step, "hist_pop": hist_pop,
+            checkpoint.save({"psi": stepper.state(), "per_step": per_step, "hist_pop": hist_pop,
                              "hist_bound": hist_bound, "hist_obs": hist_obs},
                             dict(meta_expect, step=step, sample=sample))
             last_save = time.perf_counter()

@@ -1,35 +1,38 @@
 """numba kernels of the grid route (nothing else lives here).
 
-The wave function is stored as ``psi[i, l]`` = u_l(r_i) (C order, complex128): one row holds all
-partial waves at one radius, so the inner loops run across l (SIMD-friendly) and the Thomas
-recurrences of all l advance side by side along r.
+Layout. The state is two float64 arrays ``pr``, ``pi`` (real and imaginary parts) of shape (N, L),
+C order: row i holds all partial waves at r_i = (i+1)·dr, so inner loops run across partial waves
+(SIMD) and the Thomas recurrences of all partial waves advance side by side along r. Within a
+row the columns are ordered even l first, then odd l: column p is l = 2p (p < ne = ⌈L/2⌉) and
+column ne + p is l = 2p + 1. The coupled pairs are then contiguous slices:
+
+* A pairs (2p, 2p+1): columns p and ne + p, p < no = ⌊L/2⌋;
+* B pairs (2p+1, 2p+2): columns ne + p and p + 1, p < nb = ⌈L/2⌉ − 1.
 
 One time step of length dt at mid-step field E (Strang splitting, second order in dt):
 
-    U = A·B·C·B·A,   A, B = exp(−i (dt/2) E r cosθ) restricted to the pairs (l, l+1) with l even
-                     (A) or odd (B): exact 2×2 rotations, angle θ = (dt/2)·E·r·c_l,
-                     c_l = ⟨l|cosθ|l+1⟩ = (l+1)/√((2l+1)(2l+3)) (m = 0);
+    U = A·B·C·B·A,   A, B = exp(−i (dt/2) E r cosθ) restricted to the A or B pairs: exact 2×2
+                     rotations by θ = (dt/2)·E·r·c_l, c_l = ⟨l|cosθ|l+1⟩ (m = 0);
                      C = Crank–Nicolson for H_l = −(1/2μ)M⁻¹Δ + V_l, τ = dt/2:
                      (M(1 + iτV) − iτΔ/2μ) ψ′ = (M(1 − iτV) + iτΔ/2μ) ψ.
 
-The Crank–Nicolson matrix A⁺ = M(1 + iτV) − iτΔ/2μ is field free: its Thomas factors
-(``w`` = 1/b′ and ``cp`` = c′ per row and l) are computed once (:func:`cn_factorize`); the
-right-hand side A⁻ = conj(A⁺) is formed on the fly. The forward sweep forms the right-hand side
-and eliminates; the backward sweep substitutes and, row by row while the row is in cache, applies
-the closing rotations of this step, the edge mask, the per-step observables and the opening
-rotations of the next step. Rotation angles are linear in r, so the rotors cos θ + i sin θ come
-from a complex-multiply recurrence along r, re-seeded with exact values every ``RESEED`` rows.
-No kernel allocates; the public wrapper in :mod:`tdse.engines.grid` validates and allocates.
+A⁺ = M(1 + iτV) − iτΔ/2μ is field free: its Thomas factors (``w`` = 1/b′, ``cp`` = c′ per row and
+column) are computed once (:func:`cn_factorize`); A⁻ = conj(A⁺) is formed on the fly from
+V[i, col] = cent[col]·invr2[i] + coul[i]. The forward sweep forms the right-hand side and eliminates;
+the backward sweep substitutes and, row by row while the row is in cache, applies the closing
+rotations of this step (B then A), the edge mask, the per-step observables and the opening
+rotations of the next step (A then B). The rotation angle is linear in r, so the rotors
+cos θ + i sin θ follow a complex-multiply recurrence along r, re-seeded exactly every ``RESEED``
+rows. No kernel allocates; :mod:`tdse.engines.grid` validates, allocates and converts layouts.
 """
 from __future__ import annotations
 
 import math
 
 import numba
-import numpy as np
 from numba import njit, prange
 
-RESEED = 32                       # rows between exact re-seeds of the rotor recurrence
+RESEED = 128                      # rows between exact re-seeds of the rotor recurrence
 
 # Threads for the optional parallel path: workqueue needs no TBB/OpenMP and is enough for a
 # bandwidth-bound step (set before any parallel kernel is compiled or run).
@@ -39,304 +42,367 @@ if numba.config.THREADING_LAYER == "default":
 
 @njit(cache=True, fastmath=False)
 def cn_factorize(m_diag, m_off, d_diag, d_off, m_first, d_first, cent, coul, invr2, tau, inv2mu,
-                 w, cp):
-    """Thomas factors of A⁺ = M(1 + iτV) − iτΔ/(2μ) for every l (columns), in place.
+                 wr, wi, cr, ci):
+    """Thomas factors of A⁺ = M(1 + iτV) − iτΔ/(2μ) for every column, in place.
 
-    Row 0 of l uses ``m_first[l]``, ``d_first[l]`` (the corrected l = 0 row); V[i, l] =
-    cent[l]·invr2[i] + coul[i]. Fills ``w[i, l]`` = 1/b′ᵢ and ``cp[i, l]`` = c′ᵢ = (upper)ᵢ/b′ᵢ
-    (standard tridiagonal elimination; A⁺ is diagonally dominant, no pivoting).
+    Row 0 of column j uses ``m_first[j]``, ``d_first[j]`` (the corrected first rows); V[i, j] =
+    cent[j]·invr2[i] + coul[i]. Fills w = 1/b′ᵢ (``wr`` + i``wi``) and c′ᵢ = (upper)ᵢ/b′ᵢ (``cr`` +
+    i``ci``) of the standard tridiagonal elimination (A⁺ is diagonally dominant: no pivoting).
     """
-    n, nl = w.shape
-    for l in range(nl):
-        v = cent[l] * invr2[0] + coul[0]
-        b = complex(m_first[l], tau * (m_first[l] * v - d_first[l] * inv2mu))
-        w[0, l] = 1.0 / b
-        if n > 1:
-            vn = cent[l] * invr2[1] + coul[1]
-            up = complex(m_off[0], tau * (m_off[0] * vn - d_off[0] * inv2mu))
-            cp[0, l] = up * w[0, l]
-        for i in range(1, n):
-            vp = cent[l] * invr2[i - 1] + coul[i - 1]
-            v = cent[l] * invr2[i] + coul[i]
-            lo = complex(m_off[i - 1], tau * (m_off[i - 1] * vp - d_off[i - 1] * inv2mu))
-            b = complex(m_diag[i], tau * (m_diag[i] * v - d_diag[i] * inv2mu))
-            b = b - lo * cp[i - 1, l]
-            w[i, l] = 1.0 / b
+    n, nl = wr.shape
+    for j in range(nl):
+        prev_c = 0.0 + 0.0j
+        for i in range(n):
+            md = m_first[j] if i == 0 else m_diag[i]
+            dd = d_first[j] if i == 0 else d_diag[i]
+            v = cent[j] * invr2[i] + coul[i]
+            b = complex(md, tau * (md * v - dd * inv2mu))
+            if i > 0:
+                vp = cent[j] * invr2[i - 1] + coul[i - 1]
+                lo = complex(m_off[i - 1], tau * (m_off[i - 1] * vp - d_off[i - 1] * inv2mu))
+                b = b - lo * prev_c
+            w = 1.0 / b
+            wr[i, j] = w.real
+            wi[i, j] = w.imag
+            c = 0.0 + 0.0j
             if i < n - 1:
-                vn = cent[l] * invr2[i + 1] + coul[i + 1]
+                vn = cent[j] * invr2[i + 1] + coul[i + 1]
                 up = complex(m_off[i], tau * (m_off[i] * vn - d_off[i] * inv2mu))
-                cp[i, l] = up * w[i, l]
-            else:
-                cp[i, l] = 0.0
+                c = up * w
+            cr[i, j] = c.real
+            ci[i, j] = c.imag
+            prev_c = c
 
 
 @njit(cache=True, fastmath=False)
-def _seed_rotors(rot, field, h, r, coupling, parity):
-    """rot[l] = e^{iθ}, θ = h·E·r·c_l, exactly, for the pairs (l, l+1) with l ≡ parity (mod 2)."""
-    nl = rot.shape[0]
-    for l in range(parity, nl - 1, 2):
-        th = h * field * r * coupling[l]
-        rot[l] = complex(math.cos(th), math.sin(th))
+def _seed(rc, rs, field, h, r, c):
+    """rc + i rs = e^{iθ}, θ = h·E·r·c_p, exactly."""
+    for p in range(c.shape[0]):
+        th = h * field * r * c[p]
+        rc[p] = math.cos(th)
+        rs[p] = math.sin(th)
 
 
 @njit(cache=True, fastmath=False)
-def _rotor_steps(step, field, h, dr, coupling, parity):
-    """step[l] = e^{−i h E dr c_l}: the rotor change from row i to row i − 1."""
-    nl = step.shape[0]
-    for l in range(parity, nl - 1, 2):
-        th = h * field * dr * coupling[l]
-        step[l] = complex(math.cos(th), -math.sin(th))
+def _steps(sc, ss, field, h, dr, c):
+    """sc + i ss = e^{−i h E dr c_p}: the rotor change from one row to the row inward."""
+    for p in range(c.shape[0]):
+        th = h * field * dr * c[p]
+        sc[p] = math.cos(th)
+        ss[p] = -math.sin(th)
 
 
 @njit(cache=True, fastmath=False)
-def _rotate_row(row, rot, parity):
-    """(a, b) -> (c a − i s b, −i s a + c b) for the pairs (l, l+1), l ≡ parity, rotor c + i s."""
-    nl = row.shape[0]
-    for l in range(parity, nl - 1, 2):
-        c = rot[l].real
-        s = rot[l].imag
-        a = row[l]
-        b = row[l + 1]
-        row[l] = complex(c * a.real + s * b.imag, c * a.imag - s * b.real)
-        row[l + 1] = complex(c * b.real + s * a.imag, c * b.imag - s * a.real)
+def _rotate(xr, xi, lo, hi, m, rc, rs, sc, ss):
+    """(a, b) → (c a − i s b, −i s a + c b) for a = x[lo + p], b = x[hi + p], p < m, with the
+    rotor c + i s = rc[p] + i rs[p]; then rotor ← rotor·(sc[p] + i ss[p]) (one row inward)."""
+    for p in range(m):
+        c = rc[p]
+        s = rs[p]
+        a = p + lo
+        b = p + hi
+        ar = xr[a]
+        ai = xi[a]
+        br = xr[b]
+        bi = xi[b]
+        xr[a] = c * ar + s * bi
+        xi[a] = c * ai - s * br
+        xr[b] = c * br + s * ai
+        xi[b] = c * bi - s * ar
+        rc[p] = c * sc[p] - s * ss[p]
+        rs[p] = c * ss[p] + s * sc[p]
 
 
 @njit(cache=True, fastmath=False)
-def _advance_rotor(rot, step, parity):
-    """rot[l] ← rot[l]·step[l] (one row inward)."""
-    nl = rot.shape[0]
-    for l in range(parity, nl - 1, 2):
-        rot[l] = rot[l] * step[l]
+def rotate_all(pr, pi, field, h, dr, ca, cb, rot, stp):
+    """Opening half of a step on every row: A then B at field ``field``, time ``h``.
 
-
-@njit(cache=True, fastmath=False)
-def rotate_all(psi, field, h, dr, coupling, first_parity, rot, step):
-    """Apply the rotation layers (first_parity, then the other parity) at field ``field`` and
-    time ``h`` to every row of ``psi``: the opening half of a Strang step (A then B for 0)."""
-    n, nl = psi.shape
-    for k in range(2):
-        parity = (first_parity + k) % 2
-        _rotor_steps(step[k], field, h, dr, coupling, parity)
-    for i in range(n - 1, -1, -1):
-        row = psi[i]
-        for k in range(2):
-            parity = (first_parity + k) % 2
-            if (n - 1 - i) % RESEED == 0:
-                _seed_rotors(rot[k], field, h, (i + 1) * dr, coupling, parity)
-            _rotate_row(row, rot[k], parity)
-            _advance_rotor(rot[k], step[k], parity)
-
-
-@njit(cache=True, fastmath=False)
-def propagate_chunk(psi, y, w, cp, m_diag, m_off, d_diag, d_off, m_first, d_first, cent, coul,
-                    invr2, tau, inv2mu, dr, coupling, fields, mask, i_abs, row, carry, rot, step,
-                    out):
-    """Advance ``psi`` by ``len(fields)`` Strang steps (dt = 2τ) with mid-step fields ``fields``.
-
-    On entry ``psi`` is the true state; on exit too. ``y`` (like psi), ``row``, ``carry`` (L) and
-    ``rot``, ``step`` (4, L) are scratch. After step k the state is multiplied by ``mask`` (rows
-    ≥ ``i_abs``) and ``out[k]`` receives (norm, ⟨r cosθ⟩, ⟨cosθ/r²⟩) of the masked state, with
-    ⟨f⟩ = Σᵢ f(rᵢ) Σ_l 2c_l Re(u*_{i,l} u_{i,l+1}) for the angular parts.
+    ``rot``, ``stp`` are (4, P) scratch (rows 0–1 used). Same recurrence and re-seeding as the
+    opening rotations inside :func:`propagate_chunk`, so a chunk boundary changes no bit.
     """
-    n, nl = psi.shape
+    n, nl = pr.shape
+    ne = (nl + 1) // 2
+    na, nb = ca.shape[0], cb.shape[0]
+    ra, ia, sa, ta = rot[0], rot[1], stp[0], stp[1]
+    rb, ib, sb, tb = rot[2], rot[3], stp[2], stp[3]
+    _steps(sa, ta, field, h, dr, ca)
+    _steps(sb, tb, field, h, dr, cb)
+    for i in range(n - 1, -1, -1):
+        if (n - 1 - i) % RESEED == 0:
+            _seed(ra, ia, field, h, (i + 1) * dr, ca)
+            _seed(rb, ib, field, h, (i + 1) * dr, cb)
+        xr = pr[i]
+        xi = pi[i]
+        _rotate(xr, xi, 0, ne, na, ra, ia, sa, ta)
+        _rotate(xr, xi, ne, 1, nb, rb, ib, sb, tb)
+
+
+@njit(cache=True, fastmath=False)
+def _forward_edge_row(pr, pi, yr, yi, wr, wi, i, md_row, dd_row, m_off, d_off, cent, coul, invr2,
+                      tau, inv2mu, col):
+    """Right-hand side and elimination for one column of row 0 or row N−1 (with the edge cases)."""
+    n = pr.shape[0]
+    v = cent[col] * invr2[i] + coul[i]
+    dim = -tau * (md_row * v - dd_row * inv2mu)
+    rr = md_row * pr[i, col] - dim * pi[i, col]
+    ri = md_row * pi[i, col] + dim * pr[i, col]
+    if i > 0:
+        vm = cent[col] * invr2[i - 1] + coul[i - 1]
+        lre = m_off[i - 1]
+        lim = -tau * (m_off[i - 1] * vm - d_off[i - 1] * inv2mu)
+        rr += lre * pr[i - 1, col] - lim * pi[i - 1, col] - (lre * yr[i - 1, col] + lim * yi[i - 1, col])
+        ri += lre * pi[i - 1, col] + lim * pr[i - 1, col] - (lre * yi[i - 1, col] - lim * yr[i - 1, col])
+    if i < n - 1:
+        vp = cent[col] * invr2[i + 1] + coul[i + 1]
+        ure = m_off[i]
+        uim = -tau * (m_off[i] * vp - d_off[i] * inv2mu)
+        rr += ure * pr[i + 1, col] - uim * pi[i + 1, col]
+        ri += ure * pi[i + 1, col] + uim * pr[i + 1, col]
+    yr[i, col] = rr * wr[i, col] - ri * wi[i, col]
+    yi[i, col] = rr * wi[i, col] + ri * wr[i, col]
+
+
+@njit(cache=True, fastmath=False)
+def _forward_columns(pr, pi, yr, yi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent,
+                     coul, invr2, tau, inv2mu, j0, j1):
+    """y = L⁻¹ A⁻ ψ for columns j0..j1−1 (all rows)."""
+    n = pr.shape[0]
+    for j in range(j0, j1):
+        _forward_edge_row(pr, pi, yr, yi, wr, wi, 0, m_first[j], d_first[j], m_off, d_off, cent,
+                          coul, invr2, tau, inv2mu, j)
+    for i in range(1, n - 1):
+        lre = m_off[i - 1]
+        la = -tau * lre
+        lb = tau * d_off[i - 1] * inv2mu
+        md = m_diag[i]
+        da = -tau * md
+        db = tau * d_diag[i] * inv2mu
+        ure = m_off[i]
+        ua = -tau * ure
+        ub = tau * d_off[i] * inv2mu
+        sm = invr2[i - 1]
+        s0 = invr2[i]
+        sp = invr2[i + 1]
+        km = coul[i - 1]
+        k0 = coul[i]
+        kp = coul[i + 1]
+        prm = pr[i - 1]
+        pim = pi[i - 1]
+        pr0 = pr[i]
+        pi0 = pi[i]
+        prp = pr[i + 1]
+        pip = pi[i + 1]
+        yrm = yr[i - 1]
+        yim = yi[i - 1]
+        yr0 = yr[i]
+        yi0 = yi[i]
+        wr0 = wr[i]
+        wi0 = wi[i]
+        for j in range(j0, j1):
+            cj = cent[j]
+            lim = la * (cj * sm + km) + lb
+            dim = da * (cj * s0 + k0) + db
+            uim = ua * (cj * sp + kp) + ub
+            rr = (lre * (prm[j] - yrm[j]) - lim * (pim[j] + yim[j])
+                  + md * pr0[j] - dim * pi0[j] + ure * prp[j] - uim * pip[j])
+            ri = (lre * (pim[j] - yim[j]) + lim * (prm[j] + yrm[j])
+                  + md * pi0[j] + dim * pr0[j] + ure * pip[j] + uim * prp[j])
+            yr0[j] = rr * wr0[j] - ri * wi0[j]
+            yi0[j] = rr * wi0[j] + ri * wr0[j]
+    if n > 1:
+        for j in range(j0, j1):
+            _forward_edge_row(pr, pi, yr, yi, wr, wi, n - 1, m_diag[n - 1], d_diag[n - 1], m_off,
+                              d_off, cent, coul, invr2, tau, inv2mu, j)
+
+
+@njit(cache=True, fastmath=False)
+def _row_observables(xr, xi, ne, ca, cb):
+    """(Σ|u|², Σ_l 2c_l Re(u*_l u_{l+1})) of one row in the even/odd column order."""
+    nl = xr.shape[0]
+    rn = 0.0
+    for j in range(nl):
+        rn += xr[j] * xr[j] + xi[j] * xi[j]
+    rz = 0.0
+    for p in range(ca.shape[0]):
+        rz += ca[p] * (xr[p] * xr[ne + p] + xi[p] * xi[ne + p])
+    for p in range(cb.shape[0]):
+        rz += cb[p] * (xr[ne + p] * xr[p + 1] + xi[ne + p] * xi[p + 1])
+    return rn, 2.0 * rz
+
+
+@njit(cache=True, fastmath=False)
+def propagate_chunk(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_first, d_first,
+                    cent, coul, invr2, tau, inv2mu, dr, ca, cb, fields, mask, i_abs, carry, rot,
+                    stp, out):
+    """Advance the state (``pr``, ``pi``) by ``len(fields)`` Strang steps (dt = 2τ) with mid-step
+    fields ``fields``; the state is the true one on entry and on exit.
+
+    ``yr``, ``yi`` (like the state), ``carry`` (2, L), ``rot``, ``stp`` (8, P) are scratch. After
+    step k the state is multiplied by ``mask`` (rows ≥ ``i_abs``) and ``out[k]`` receives
+    (norm, ⟨r cosθ⟩, ⟨cosθ/r²⟩) of the masked state, ⟨f⟩ = Σᵢ f(rᵢ) Σ_l 2c_l Re(u*_{i,l} u_{i,l+1}).
+    """
+    n, nl = pr.shape
+    ne = (nl + 1) // 2
+    na, nb = ca.shape[0], cb.shape[0]
     nsteps = fields.shape[0]
-    h = tau   # rotation time dt/2 equals the Crank–Nicolson tau
+    h = tau   # the rotations cover dt/2, which is also the Crank–Nicolson tau
     if nsteps == 0:
         return
-    rotate_all(psi, fields[0], h, dr, coupling, 0, rot[:2], step[:2])
+    rotate_all(pr, pi, fields[0], h, dr, ca, cb, rot, stp)
     for k in range(nsteps):
-        # ---- forward sweep: right-hand side A⁻ψ and elimination, y = L⁻¹ A⁻ ψ
-        for i in range(n):
-            for l in range(nl):
-                md = m_first[l] if i == 0 else m_diag[i]
-                dd = d_first[l] if i == 0 else d_diag[i]
-                v = cent[l] * invr2[i] + coul[i]
-                p = psi[i, l]
-                coef = complex(md, -tau * (md * v - dd * inv2mu))
-                rhs = coef * p
-                if i > 0:
-                    vp = cent[l] * invr2[i - 1] + coul[i - 1]
-                    lo = complex(m_off[i - 1], -tau * (m_off[i - 1] * vp - d_off[i - 1] * inv2mu))
-                    rhs += lo * psi[i - 1, l]
-                    rhs -= lo.conjugate() * y[i - 1, l]
-                if i < n - 1:
-                    vn = cent[l] * invr2[i + 1] + coul[i + 1]
-                    up = complex(m_off[i], -tau * (m_off[i] * vn - d_off[i] * inv2mu))
-                    rhs += up * psi[i + 1, l]
-                y[i, l] = rhs * w[i, l]
-        # ---- backward sweep: substitution, closing rotations, mask, observables, next opening
+        _forward_columns(pr, pi, yr, yi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first,
+                         cent, coul, invr2, tau, inv2mu, 0, nl)
         e_now = fields[k]
         last = k == nsteps - 1
         e_next = 0.0 if last else fields[k + 1]
-        _rotor_steps(step[0], e_now, h, dr, coupling, 1)
-        _rotor_steps(step[1], e_now, h, dr, coupling, 0)
+        _steps(stp[0], stp[1], e_now, h, dr, cb)      # closing B
+        _steps(stp[2], stp[3], e_now, h, dr, ca)      # closing A
         if not last:
-            _rotor_steps(step[2], e_next, h, dr, coupling, 0)
-            _rotor_steps(step[3], e_next, h, dr, coupling, 1)
+            _steps(stp[4], stp[5], e_next, h, dr, ca)   # opening A
+            _steps(stp[6], stp[7], e_next, h, dr, cb)   # opening B
+        car = carry[0]
+        cai = carry[1]
+        for j in range(nl):
+            car[j] = 0.0
+            cai[j] = 0.0
         norm = 0.0
         zsum = 0.0
         csum = 0.0
         for i in range(n - 1, -1, -1):
             ri = (i + 1) * dr
+            xr = pr[i]
+            xi = pi[i]
+            y0r = yr[i]
+            y0i = yi[i]
+            c0r = cr[i]
+            c0i = ci[i]
+            for j in range(nl):
+                ar = car[j]
+                ai = cai[j]
+                vr = y0r[j] - (c0r[j] * ar - c0i[j] * ai)
+                vi = y0i[j] - (c0r[j] * ai + c0i[j] * ar)
+                car[j] = vr
+                cai[j] = vi
+                xr[j] = vr
+                xi[j] = vi
             reseed = (n - 1 - i) % RESEED == 0
-            for l in range(nl):
-                val = y[i, l]
-                if i < n - 1:
-                    val -= cp[i, l] * carry[l]
-                carry[l] = val
-                row[l] = val
             if reseed:
-                _seed_rotors(rot[0], e_now, h, ri, coupling, 1)
-                _seed_rotors(rot[1], e_now, h, ri, coupling, 0)
-            _rotate_row(row, rot[0], 1)
-            _rotate_row(row, rot[1], 0)
-            _advance_rotor(rot[0], step[0], 1)
-            _advance_rotor(rot[1], step[1], 0)
+                _seed(rot[0], rot[1], e_now, h, ri, cb)
+                _seed(rot[2], rot[3], e_now, h, ri, ca)
+            _rotate(xr, xi, ne, 1, nb, rot[0], rot[1], stp[0], stp[1])
+            _rotate(xr, xi, 0, ne, na, rot[2], rot[3], stp[2], stp[3])
             if i >= i_abs:
                 mk = mask[i]
-                for l in range(nl):
-                    row[l] = row[l] * mk
-            rn = 0.0
-            rz = 0.0
-            for l in range(nl):
-                a = row[l]
-                rn += a.real * a.real + a.imag * a.imag
-            for l in range(nl - 1):
-                a = row[l]
-                b = row[l + 1]
-                rz += 2.0 * coupling[l] * (a.real * b.real + a.imag * b.imag)
+                for j in range(nl):
+                    xr[j] *= mk
+                    xi[j] *= mk
+            rn, rz = _row_observables(xr, xi, ne, ca, cb)
             norm += rn
             zsum += ri * rz
             csum += invr2[i] * rz
             if not last:
                 if reseed:
-                    _seed_rotors(rot[2], e_next, h, ri, coupling, 0)
-                    _seed_rotors(rot[3], e_next, h, ri, coupling, 1)
-                _rotate_row(row, rot[2], 0)
-                _rotate_row(row, rot[3], 1)
-                _advance_rotor(rot[2], step[2], 0)
-                _advance_rotor(rot[3], step[3], 1)
-            for l in range(nl):
-                psi[i, l] = row[l]
+                    _seed(rot[4], rot[5], e_next, h, ri, ca)
+                    _seed(rot[6], rot[7], e_next, h, ri, cb)
+                _rotate(xr, xi, 0, ne, na, rot[4], rot[5], stp[4], stp[5])
+                _rotate(xr, xi, ne, 1, nb, rot[6], rot[7], stp[6], stp[7])
         out[k, 0] = norm
         out[k, 1] = zsum
         out[k, 2] = csum
 
 
-@njit(cache=True, fastmath=False)
-def project_rows(psi, vectors, l, out):
-    """out[j] = Σᵢ vectors[i, j]·psi[i, l] (overlaps of column l with real eigenvectors)."""
-    n, nb = vectors.shape
-    for j in range(nb):
-        acc = 0.0 + 0.0j
-        for i in range(n):
-            acc += vectors[i, j] * psi[i, l]
-        out[j] = acc
-
-
 @njit(cache=True, fastmath=False, parallel=True)
-def propagate_chunk_parallel(psi, y, w, cp, m_diag, m_off, d_diag, d_off, m_first, d_first, cent,
-                             coul, invr2, tau, inv2mu, dr, coupling, fields, mask, i_abs, carry,
-                             partial, out, block):
-    """The same steps as :func:`propagate_chunk`, unfused, for several threads.
+def propagate_chunk_parallel(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_first,
+                             d_first, cent, coul, invr2, tau, inv2mu, dr, ca, cb, fields, mask, i_abs,
+                             carry, rot, stp, partial, block):
+    """The steps of :func:`propagate_chunk`, unfused, for several threads. ``partial[k, b]``
+    (shape (nsteps, n_rblocks, 3)) receives row block b's share of step k's (norm, ⟨r cosθ⟩,
+    ⟨cosθ/r²⟩); :func:`reduce_partial` adds the shares.
 
-    Per step: Crank–Nicolson for blocks of ``block`` partial waves in parallel (``carry`` is
-    (N_lblocks, block) scratch), then rotations, mask and observables for blocks of ``block``
-    rows in parallel (exact cos/sin at each block start, recurrence inside; ``partial`` holds
-    (n_rblocks, 3) sums, reduced in a fixed order so the result does not depend on threads).
+    Per step: Crank–Nicolson for blocks of ``block`` columns in parallel (``carry`` (n_cblocks,
+    2, block) scratch), then closing rotations, mask, observables and the next opening rotations
+    for blocks of ``block`` rows in parallel, each block seeding its rotors exactly at its first
+    row (``rot``, ``stp``: (n_rblocks, 8, P) scratch). Sums are reduced in a fixed order, so the
+    result does not depend on the number of threads.
     """
-    n, nl = psi.shape
+    n, nl = pr.shape
+    ne = (nl + 1) // 2
+    na, nb = ca.shape[0], cb.shape[0]
     nsteps = fields.shape[0]
     h = tau
-    nlb = (nl + block - 1) // block
+    ncb = (nl + block - 1) // block
     nrb = (n + block - 1) // block
     for k in range(nsteps + 1):
-        # rotations: opening half of step k (A then B) after closing half of step k-1 (B then A)
         for rb in prange(nrb):
+            i1 = min(n, (rb + 1) * block)
             i0 = rb * block
-            i1 = min(n, i0 + block)
+            rt = rot[rb]
+            st = stp[rb]
             pn = 0.0
             pz = 0.0
             pc = 0.0
-            for i in range(i0, i1):
-                ri = (i + 1) * dr
+            if k > 0:
+                e = fields[k - 1]
+                _steps(st[0], st[1], e, h, dr, cb)
+                _steps(st[2], st[3], e, h, dr, ca)
+                _seed(rt[0], rt[1], e, h, i1 * dr, cb)
+                _seed(rt[2], rt[3], e, h, i1 * dr, ca)
+            if k < nsteps:
+                e = fields[k]
+                _steps(st[4], st[5], e, h, dr, ca)
+                _steps(st[6], st[7], e, h, dr, cb)
+                _seed(rt[4], rt[5], e, h, i1 * dr, ca)
+                _seed(rt[6], rt[7], e, h, i1 * dr, cb)
+            for i in range(i1 - 1, i0 - 1, -1):
+                xr = pr[i]
+                xi = pi[i]
                 if k > 0:
-                    e = fields[k - 1]
-                    for parity in (1, 0):
-                        for l in range(parity, nl - 1, 2):
-                            th = h * e * ri * coupling[l]
-                            c = math.cos(th)
-                            s = math.sin(th)
-                            a = psi[i, l]
-                            b = psi[i, l + 1]
-                            psi[i, l] = complex(c * a.real + s * b.imag, c * a.imag - s * b.real)
-                            psi[i, l + 1] = complex(c * b.real + s * a.imag, c * b.imag - s * a.real)
+                    _rotate(xr, xi, ne, 1, nb, rt[0], rt[1], st[0], st[1])
+                    _rotate(xr, xi, 0, ne, na, rt[2], rt[3], st[2], st[3])
                     if i >= i_abs:
-                        for l in range(nl):
-                            psi[i, l] = psi[i, l] * mask[i]
-                    rn = 0.0
-                    rz = 0.0
-                    for l in range(nl):
-                        a = psi[i, l]
-                        rn += a.real * a.real + a.imag * a.imag
-                    for l in range(nl - 1):
-                        a = psi[i, l]
-                        b = psi[i, l + 1]
-                        rz += 2.0 * coupling[l] * (a.real * b.real + a.imag * b.imag)
+                        for j in range(nl):
+                            xr[j] *= mask[i]
+                            xi[j] *= mask[i]
+                    rn, rz = _row_observables(xr, xi, ne, ca, cb)
                     pn += rn
-                    pz += ri * rz
+                    pz += (i + 1) * dr * rz
                     pc += invr2[i] * rz
                 if k < nsteps:
-                    e = fields[k]
-                    for parity in (0, 1):
-                        for l in range(parity, nl - 1, 2):
-                            th = h * e * ri * coupling[l]
-                            c = math.cos(th)
-                            s = math.sin(th)
-                            a = psi[i, l]
-                            b = psi[i, l + 1]
-                            psi[i, l] = complex(c * a.real + s * b.imag, c * a.imag - s * b.real)
-                            psi[i, l + 1] = complex(c * b.real + s * a.imag, c * b.imag - s * a.real)
-            partial[rb, 0] = pn
-            partial[rb, 1] = pz
-            partial[rb, 2] = pc
-        if k > 0:
-            norm = 0.0
-            zsum = 0.0
-            csum = 0.0
-            for rb in range(nrb - 1, -1, -1):
-                norm += partial[rb, 0]
-                zsum += partial[rb, 1]
-                csum += partial[rb, 2]
-            out[k - 1, 0] = norm
-            out[k - 1, 1] = zsum
-            out[k - 1, 2] = csum
+                    _rotate(xr, xi, 0, ne, na, rt[4], rt[5], st[4], st[5])
+                    _rotate(xr, xi, ne, 1, nb, rt[6], rt[7], st[6], st[7])
+            if k > 0:
+                partial[k - 1, rb, 0] = pn
+                partial[k - 1, rb, 1] = pz
+                partial[k - 1, rb, 2] = pc
         if k == nsteps:
             break
-        # Crank–Nicolson, blocks of partial waves in parallel
-        for lb in prange(nlb):
-            l0 = lb * block
-            l1 = min(nl, l0 + block)
-            for i in range(n):
-                for l in range(l0, l1):
-                    md = m_first[l] if i == 0 else m_diag[i]
-                    dd = d_first[l] if i == 0 else d_diag[i]
-                    v = cent[l] * invr2[i] + coul[i]
-                    rhs = complex(md, -tau * (md * v - dd * inv2mu)) * psi[i, l]
-                    if i > 0:
-                        vp = cent[l] * invr2[i - 1] + coul[i - 1]
-                        lo = complex(m_off[i - 1], -tau * (m_off[i - 1] * vp - d_off[i - 1] * inv2mu))
-                        rhs += lo * psi[i - 1, l]
-                        rhs -= lo.conjugate() * y[i - 1, l]
-                    if i < n - 1:
-                        vn = cent[l] * invr2[i + 1] + coul[i + 1]
-                        up = complex(m_off[i], -tau * (m_off[i] * vn - d_off[i] * inv2mu))
-                        rhs += up * psi[i + 1, l]
-                    y[i, l] = rhs * w[i, l]
+        for cb_ in prange(ncb):
+            j0 = cb_ * block
+            j1 = min(nl, j0 + block)
+            _forward_columns(pr, pi, yr, yi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first,
+                             cent, coul, invr2, tau, inv2mu, j0, j1)
+            cy = carry[cb_]
+            for j in range(j1 - j0):
+                cy[0, j] = 0.0
+                cy[1, j] = 0.0
             for i in range(n - 1, -1, -1):
-                for l in range(l0, l1):
-                    val = y[i, l]
-                    if i < n - 1:
-                        val -= cp[i, l] * carry[lb, l - l0]
-                    carry[lb, l - l0] = val
-                    psi[i, l] = val
+                for j in range(j0, j1):
+                    ar = cy[0, j - j0]
+                    ai = cy[1, j - j0]
+                    vr = yr[i, j] - (cr[i, j] * ar - ci[i, j] * ai)
+                    vi = yi[i, j] - (cr[i, j] * ai + ci[i, j] * ar)
+                    cy[0, j - j0] = vr
+                    cy[1, j - j0] = vi
+                    pr[i, j] = vr
+                    pi[i, j] = vi
+
+
+@njit(cache=True, fastmath=False)
+def reduce_partial(partial, out):
+    """out[k] = Σ_blocks partial[k, block] summed from the outermost block inward (fixed order)."""
+    for k in range(partial.shape[0]):
+        for q in range(3):
+            acc = 0.0
+            for rb in range(partial.shape[1] - 1, -1, -1):
+                acc += partial[k, rb, q]
+            out[k, q] = acc
