@@ -21,7 +21,6 @@ CONFIG = {
                "checkpoint_every": 400},
     "output": {"every": 10.0},
 }
-RUNNER = "import sys, tdse.api as a; a.run(sys.argv[1], out=sys.argv[2], progress=False)"
 
 
 def same_arrays(a, b):
@@ -42,8 +41,8 @@ def test_sigkill_then_resume_gives_identical_arrays(tmp_path):
     cfg_path.write_text(tomli_w.dumps(CONFIG))
     killed = tmp_path / "killed.h5"
     env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
-    proc = subprocess.Popen([sys.executable, "-c", RUNNER, str(cfg_path), str(killed)], env=env,
-                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    proc = subprocess.Popen([sys.executable, "-m", "tdse", "run", str(cfg_path), "--out", str(killed),
+                             "--no-progress"], env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
     from tdse.campaign.config import load_config
 
     cfg = load_config(cfg_path)
