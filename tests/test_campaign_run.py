@@ -310,12 +310,13 @@ def test_sigkill_midway_then_resume(tmp_path, reference):
     _assert_same_arrays(open_campaign(folder), reference)
 
 
-def test_dask_local_cluster_equals_process_pool(tmp_path, reference):
-    from distributed import Client, LocalCluster
-
-    with LocalCluster(n_workers=1, threads_per_worker=1, processes=False, dashboard_address=None) as lc, \
-            Client(lc) as client:
-        folder = tdse.scan(_levels_config(), tmp_path / "dask", executor=client, progress=False)
+def test_dask_local_cluster_equals_process_pool(tmp_path, reference, capsys):
+    cfg_path = tmp_path / "kestrel_scan.toml"
+    cfg_path.write_text(tomli_w.dumps(_levels_config()))
+    folder = tmp_path / "dask"
+    assert main(["scan", str(cfg_path), "--out", str(folder), "--dask-local", "1", "--no-progress", "--json"]) == 0
+    payload = json.loads(capsys.readouterr().out)
+    assert (payload["total"], payload["done"], payload["failed"], payload["pending"]) == (6, 6, 0, 0)
     _assert_same_arrays(open_campaign(folder), reference)
 
 
