@@ -51,12 +51,22 @@ def _one_thread() -> None:
             pass
 
 
+def check_count(value, name: str) -> int:
+    """A worker count: an integer >= 1 (InputError naming ``name`` otherwise).
+
+    >>> check_count(2, "--workers")
+    2
+    """
+    if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+        raise InputError(f"`{name}` must be an integer >= 1, got {value!r}")
+    return value
+
+
 def local_pool(workers: int) -> cf.ProcessPoolExecutor:
     """A process pool of ``workers`` single-threaded ``spawn`` workers."""
     import multiprocessing
 
-    if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
-        raise InputError(f"`--workers` must be an integer >= 1, got {workers!r}")
+    check_count(workers, "--workers")
     return cf.ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"),
                                   initializer=_one_thread)
 
@@ -115,8 +125,7 @@ def cluster_options(table: dict) -> tuple[str, int, dict]:
         raise InputError(f"`cluster.system` must be \"slurm\" or \"pbs\", got {system!r}")
     workers, cores = table.get("workers", 1), table.get("cores", 1)
     for key, value in (("workers", workers), ("cores", cores)):
-        if isinstance(value, bool) or not isinstance(value, int) or value < 1:
-            raise InputError(f"`cluster.{key}` must be an integer >= 1, got {value!r}")
+        check_count(value, f"cluster.{key}")
     prologue = [f"export {name}=1" for name in THREAD_VARIABLES] + list(table.get("prologue", []))
     kwargs = {"cores": cores, "processes": cores, "memory": table.get("memory", f"{2 * cores} GB"),
               "walltime": table.get("walltime", "01:00:00"), "job_script_prologue": prologue}
@@ -142,8 +151,7 @@ def dask_client(*, scheduler: str | None = None, local_workers: int | None = Non
             yield client
         return
     if local_workers is not None:
-        if isinstance(local_workers, bool) or not isinstance(local_workers, int) or local_workers < 1:
-            raise InputError(f"`--dask-local` must be an integer >= 1, got {local_workers!r}")
+        check_count(local_workers, "--dask-local")
         environ = {name: "1" for name in THREAD_VARIABLES}
         with dask.config.set({"distributed.nanny.pre-spawn-environ": environ}):
             with LocalCluster(n_workers=local_workers, threads_per_worker=1, processes=True,

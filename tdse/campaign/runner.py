@@ -55,8 +55,11 @@ def scan(config, out, *, executor=None, workers: int | None = None, retry_failed
     Raises :class:`InputError` when another scan holds the folder.
     """
     from tdse.campaign.config import load_config
+    from tdse.campaign.executors import check_count
     from tdse.campaign.scan import expand
 
+    if workers is not None:
+        check_count(workers, "--workers")
     cfg = load_config(config)
     folder = check_folder(out)
     plan = expand(cfg)

@@ -1,9 +1,10 @@
-"""``tdse scan``, ``tdse status``, ``tdse collect``: campaigns from the command line.
+"""tdse scan, tdse status, tdse collect: campaigns from the command line.
 
-``tdse scan CONFIG --out DIR`` runs the scan (local process pool by default; ``--scheduler ADDR``
-for a running Dask scheduler, ``--dask-local N`` for a LocalCluster, or the config's ``[cluster]``
-table). CONFIG may also be a campaign folder: its stored config is then run again (resume).
-A second scan on a folder that is being worked on stops with exit code 2 naming the holder.
+tdse scan CONFIG --out DIR runs every job of the [scan] grid that is not done yet, on a local
+process pool (default), a running Dask scheduler (--scheduler ADDRESS), a Dask LocalCluster
+(--dask-local N) or the SLURM/PBS cluster of the config's [cluster] table. CONFIG may also be a
+campaign folder: its stored config runs again (resume). A second scan on a folder that is being
+worked on stops with exit code 2 naming the holder.
 """
 from __future__ import annotations
 
