@@ -334,3 +334,37 @@ def test_cluster_table_makes_a_valid_slurm_job_script():
         script = cluster.job_script()
     assert "#SBATCH -p hollow" in script and "export OMP_NUM_THREADS=1" in script
     assert "--nworkers 8" in script and "--nthreads 1" in script    # 8 single-threaded workers per batch job
+
+
+def test_killed_grid_job_resumes_from_its_checkpoint(tmp_path):
+    cfg = {"atom": {"Z": 1, "nucleus": "H"},
+           "pulse": [{"wavelength": "400 nm", "intensity": "5e13 W/cm^2", "cycles": 6}],
+           "solver": {"route": "grid", "r_max": 60.0, "dr": 0.3, "l_max": 6, "checkpoint_every": 256},
+           "scan": {"pulse.0.cep": [0.0]}}
+    cfg_path = tmp_path / "kestrel_grid.toml"
+    cfg_path.write_text(tomli_w.dumps(cfg))
+    folder = tmp_path / "grid"
+    env = {**os.environ, "OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"}
+    proc = subprocess.Popen([sys.executable, "-m", "tdse", "scan", str(cfg_path), "--out", str(folder),
+                             "--workers", "1", "--no-progress"], cwd=REPO, env=env,
+                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, start_new_session=True)
+    deadline = time.monotonic() + 180
+    try:
+        while time.monotonic() < deadline and proc.poll() is None:
+            files = list((folder / "jobs").glob("*.h5"))
+            if files and store.job_state(folder, files[0].stem).status == store.CHECKPOINTED:
+                break
+            time.sleep(0.02)
+        assert proc.poll() is None, proc.stderr.read().decode()
+    finally:
+        os.killpg(proc.pid, signal.SIGKILL)
+        proc.wait()
+    tdse.scan(cfg_path, folder, workers=1, progress=False)
+    (job_file,) = (folder / "jobs").glob("*.h5")
+    resumed = tdse.open_result(job_file)
+    assert resumed.stats["resumed"] is True
+    fresh = tdse.run({k: v for k, v in cfg.items() if k != "scan"}, out=tmp_path / "fresh.h5", progress=False)
+    assert fresh.stats["resumed"] is False
+    assert resumed.ionization == fresh.ionization and resumed.populations == fresh.populations   # bitwise
+    for name, values in fresh.series.items():
+        assert resumed.series[name].tobytes() == values.tobytes(), name
