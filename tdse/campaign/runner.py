@@ -104,7 +104,8 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
     bar = tqdm(total=total, initial=initial, unit="job", desc="scan", disable=not progress, dynamic_ncols=True)
     try:
         with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo)) as runner:
-            futures = {runner.submit(run_job, job.id, job.config, str(folder), key=f"tdse-job-{job.id}"): job
+            where = str(Path(folder).resolve())          # workers on other nodes have another cwd
+            futures = {runner.submit(run_job, job.id, job.config, where, key=f"tdse-job-{job.id}"): job
                        for job in todo}
             for future in runner.as_completed(list(futures)):
                 outcome = _outcome(future, futures[future], folder)
