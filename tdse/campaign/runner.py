@@ -13,6 +13,7 @@ unchanged.
 """
 from __future__ import annotations
 
+import hashlib
 import sys
 import time
 from pathlib import Path
@@ -105,7 +106,8 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
     try:
         with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo)) as runner:
             where = str(Path(folder).resolve())          # workers on other nodes have another cwd
-            futures = {runner.submit(run_job, job.id, job.config, where, key=f"tdse-job-{job.id}"): job
+            tag = hashlib.sha256(where.encode()).hexdigest()[:8]   # Dask keys: one per job and folder
+            futures = {runner.submit(run_job, job.id, job.config, where, key=f"tdse-{job.id}-{tag}"): job
                        for job in todo}
             for future in runner.as_completed(list(futures)):
                 outcome = _outcome(future, futures[future], folder)
