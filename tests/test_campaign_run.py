@@ -107,7 +107,7 @@ def test_failing_job_is_recorded_and_the_rest_finish(tmp_path, standin, capsys):
     assert all(j["wall_s"] > 0 for j in payload["jobs"] if j["status"] == "done")
     # without --retry-failed a re-run leaves them; with it they run again (and fail again)
     mtimes = {p: p.stat().st_mtime_ns for p in (folder / "jobs").glob("*.h5")}
-    _threads(folder, _standin_config())
+    _threads(folder, folder)                                    # the folder's own config, again
     assert {p: p.stat().st_mtime_ns for p in (folder / "jobs").glob("*.h5")} == mtimes
     _threads(folder, _standin_config(), retry_failed=True)
     rerun = {p for p in mtimes if p.stat().st_mtime_ns != mtimes[p]}

@@ -50,18 +50,20 @@ def scan(config, out, *, executor=None, workers: int | None = None, retry_failed
          progress: bool = True) -> Path:
     """Run (or resume) the campaign of ``config`` in folder ``out``; returns the folder.
 
+    ``config``: a path, dict or RunConfig with a ``[scan]`` table, or a campaign folder (its stored
+    config runs again).
+
     ``executor``: ``None`` (a local process pool of ``workers`` processes, default one per core;
     or the ``[cluster]`` table's dask-jobqueue cluster when the config has one and ``workers`` is
     not given), a ``concurrent.futures.Executor`` or a ``distributed.Client`` (used as is).
     Raises :class:`InputError` when another scan holds the folder.
     """
-    from tdse.campaign.config import load_config
     from tdse.campaign.executors import check_count
     from tdse.campaign.scan import expand
 
     if workers is not None:
         check_count(workers, "--workers")
-    cfg = load_config(config)
+    cfg = campaign_config(config)
     folder = check_folder(out)
     plan = expand(cfg)
     cfg.solver_settings()          # a typo in [solver] stops here, not in every job
@@ -132,6 +134,15 @@ def _outcome(future, job, folder) -> dict:
     except Exception as exc:  # noqa: BLE001 - e.g. distributed.KilledWorker
         store.write_failed(store.job_path(folder, job.id), job_id=job.id, config=_toml(job.config), error=exc)
         return {"id": job.id, "status": store.FAILED, "error": f"worker lost: {type(exc).__name__}: {exc}"}
+
+
+def campaign_config(source):
+    """The RunConfig of a config path/dict/RunConfig, or of a campaign folder's campaign.toml."""
+    from tdse.campaign.config import load_config
+
+    if isinstance(source, (str, Path)) and Path(source).is_dir():
+        return load_config(store.read_plan(source)["config"])
+    return load_config(source)
 
 
 def check_folder(out) -> Path:

@@ -47,15 +47,11 @@ def register(subparsers) -> None:
 
 
 def _config_and_folder(args):
-    from tdse.campaign import store
-    from tdse.campaign.config import load_config
+    from tdse.campaign.runner import campaign_config
 
     source = Path(args.config)
-    if source.is_dir():
-        plan = store.read_plan(source)
-        return load_config(plan["config"]), Path(args.out) if args.out else source
-    cfg = load_config(source)
-    return cfg, Path(args.out) if args.out else Path("runs") / source.stem
+    default = source if source.is_dir() else Path("runs") / source.stem
+    return campaign_config(source), Path(args.out) if args.out else default
 
 
 def _scan(args):
