@@ -5,6 +5,8 @@ import sys
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from tdse.campaign.config import load_config
 from tdse.campaign.scan import expand
@@ -128,3 +130,21 @@ def test_bad_scans_name_the_key(scan, key):
         expand(_base(**scan))
     message = str(err.value)
     assert key in message and "\n" not in message
+
+
+@settings(max_examples=15, deadline=None)
+@given(ceps=st.lists(st.floats(0, 6.28, allow_nan=False), min_size=1, max_size=3),
+       delays=st.lists(st.integers(0, 50), min_size=1, max_size=3), zipped=st.booleans())
+def test_expansion_covers_the_grid(ceps, delays, zipped):
+    delays = (delays * 3)[:len(ceps)] if zipped else delays
+    scan = {"pulse.0.cep": ceps, "pulse.1.delay": delays}
+    if zipped:
+        scan["zip"] = {"pair": ["pulse.0.cep", "pulse.1.delay"]}
+    plan = expand(_base(**scan))
+    shape = (len(ceps),) if zipped else (len(ceps), len(delays))
+    assert plan.shape == shape and len(plan.jobs) == int(np.prod(shape))   # analytic: product of lengths
+    for job in plan.jobs:
+        i = job.index[0]
+        j = job.index[0] if zipped else job.index[1]
+        assert job.config["pulse"][0]["cep"] == ceps[i] and job.config["pulse"][1]["delay"] == delays[j]
+    assert [j.id for j in expand(_base(**scan)).jobs] == [j.id for j in plan.jobs]
