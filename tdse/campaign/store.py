@@ -281,10 +281,10 @@ class CampaignLock:
         self._fh = None
         self.supported = True
 
-    def _try(self) -> bool:
+    def _try(self, mode: str = "a+") -> bool:
         import fcntl
 
-        fh = open(self.path, "a+")
+        fh = open(self.path, mode)
         try:
             fcntl.flock(fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
         except OSError as exc:
@@ -325,12 +325,14 @@ class CampaignLock:
 
     def busy(self) -> bool:
         """True when another process holds the lock (a probe: takes and drops it at once)."""
-        if not self.path.exists():
+        try:
+            free = self._try("r")      # read-only: status works in folders it may not write
+        except OSError:                # no lock file (never scanned) or unreadable: no holder seen
             return False
-        if not self._try():
-            return True
-        self.release()
-        return False
+        if self._fh is not None:
+            self._fh.close()
+            self._fh = None
+        return not free
 
     def __enter__(self):
         return self.acquire()
