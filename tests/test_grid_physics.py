@@ -40,7 +40,8 @@ WEAK_SOLVER = {"r_max": 200, "dr": 0.1, "l_max": 6, "dt": 0.02}
 
 @pytest.fixture(scope="module")
 def weak_run():
-    return propagate(Pulse(WEAK), WEAK_SOLVER)
+    return propagate(Pulse(WEAK), dict(WEAK_SOLVER, photoelectron=True, photoelectron_e_max=1.5,
+                                       photoelectron_points=150))
 
 
 def test_stobbe_threshold_value():
@@ -152,3 +153,14 @@ def test_demo_strong_field_run_is_converged_and_second_order_in_dt():
     assert abs(y2 / y1 - 1) < 0.01
     assert abs(yield_with(l_max=2 * par.l_max) / y1 - 1) < 0.01
     assert abs(yield_with(r_max=1.5 * par.r_max) / y1 - 1) < 0.01
+
+
+def test_photoelectron_spectrum_of_weak_pulse_peaks_at_einstein_energy(weak_run):
+    res = weak_run
+    spec = res.spectra["photoelectron"]
+    e, dpde = spec["energy"], spec["dP_dE"]
+    # one-photon line at E = omega - I_p = 0.5 hartree (Einstein's photoelectric law)
+    assert abs(e[np.argmax(dpde)] - 0.5) <= 0.01
+    # the spectrum holds the ionised norm (all electrons are still inside the box)
+    total = np.sum(dpde) * (e[1] - e[0])
+    assert abs(total / res.ionization - 1) < 0.03
