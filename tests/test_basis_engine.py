@@ -59,6 +59,36 @@ def test_magnus_matches_dop853_on_same_matrix():
     assert 1 - abs(ref[basis.index("1s")]) ** 2 > 1e-3
 
 
+@pytest.mark.parametrize("scheme,order", [("cf4", 4), ("cf6", 6)])
+def test_observed_order_of_the_magnus_schemes(scheme, order):
+    rng = np.random.default_rng(0)
+    k = 12
+    energies = np.sort(rng.uniform(-1, 2, k))
+    a = rng.normal(size=(k, k))
+    from scipy.sparse import csr_matrix
+
+    d = csr_matrix((a + a.T) / 2)
+
+    def drive(t):
+        return 0.7 * np.cos(1.3 * t) + 0.3 * np.sin(0.4 * t)
+
+    c0 = np.zeros(k, complex)
+    c0[0] = 1.0
+    T = 6.0
+    ref = solve_ivp(lambda t, y: -1j * (energies * y + drive(t) * (d @ y)), (0, T), c0, method="DOP853",
+                    rtol=1e-13, atol=1e-14).y[:, -1]           # scipy reference solution
+    errors = []
+    for n in (10, 20, 40):
+        prop = MagnusPropagator(energies, d, 1.0, drive, 1e-14, scheme=scheme)
+        c = c0
+        for i in range(n):
+            c = prop.step(c, i * T / n, T / n)
+        errors.append(np.linalg.norm(c - ref))
+    observed = math.log2(errors[1] / errors[2])
+    print(scheme, errors, "observed order", observed)
+    assert abs(observed - order) < 0.3
+
+
 def test_tolerance_controls_the_error():
     pulse = Pulse({"photon_energy": 0.4, "peak_field": 0.02, "cycles": 4})
     keys = dict(r_max=40.0, dr=0.1, l_max=3, e_max=2.0)
