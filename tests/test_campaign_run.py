@@ -27,6 +27,7 @@ from tdse.campaign import store
 from tdse.campaign.summary import collect, open_campaign
 from tdse.cli import main
 from tdse.engines import ROUTES
+from tdse.errors import InputError
 from tdse.result import Result, is_complete
 from tdse.units import AU_INTENSITY_WCM2
 
@@ -234,7 +235,7 @@ def test_a_lost_worker_fails_its_job_and_a_broken_pool_stops(tmp_path, standin, 
 def test_bad_cluster_tables_name_the_key(table, key):
     from tdse.campaign.executors import cluster_options
 
-    with pytest.raises(tdse.errors.InputError, match=key.replace(".", r"\.")):
+    with pytest.raises(InputError, match=key.replace(".", r"\.")):
         cluster_options(table)
 
 
