@@ -374,9 +374,10 @@ class _Stepper:
             self.rot = np.zeros((8, p))
             self.stp = np.zeros((8, p))
         else:
-            self.block = 16
-            nrb = (n + self.block - 1) // self.block
-            self.carry = np.zeros(((n_l + self.block - 1) // self.block, 2, self.block))
+            self.cblock = -(-n_l // threads)          # one block of partial waves per thread
+            self.rblock = 64
+            nrb = -(-n // self.rblock)
+            self.carry = np.zeros((-(-n_l // self.cblock), 2, self.cblock))
             self.rot = np.zeros((nrb, 8, p))
             self.stp = np.zeros((nrb, 8, p))
 
@@ -419,7 +420,7 @@ class _Stepper:
 
             numba.set_num_threads(min(self.threads, numba.config.NUMBA_NUM_THREADS))
             partial = np.zeros((fields.size, self.rot.shape[0], 3))
-            self.kernels.propagate_chunk_parallel(*args, partial, self.block)
+            self.kernels.propagate_chunk_parallel(*args, partial, self.cblock, self.rblock)
             self.kernels.reduce_partial(partial, out)
 
 

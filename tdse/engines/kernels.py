@@ -314,14 +314,14 @@ def propagate_chunk(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off
 @njit(cache=True, fastmath=False, parallel=True)
 def propagate_chunk_parallel(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_first,
                              d_first, cent, coul, invr2, tau, inv2mu, dr, ca, cb, fields, mask, i_abs,
-                             carry, rot, stp, partial, block):
+                             carry, rot, stp, partial, cblock, rblock):
     """The steps of :func:`propagate_chunk`, unfused, for several threads. ``partial[k, b]``
     (shape (nsteps, n_rblocks, 3)) receives row block b's share of step k's (norm, ⟨r cosθ⟩,
     ⟨cosθ/r²⟩); :func:`reduce_partial` adds the shares.
 
-    Per step: Crank–Nicolson for blocks of ``block`` columns in parallel (``carry`` (n_cblocks,
-    2, block) scratch), then closing rotations, mask, observables and the next opening rotations
-    for blocks of ``block`` rows in parallel, each block seeding its rotors exactly at its first
+    Per step: Crank–Nicolson for blocks of ``cblock`` columns in parallel (``carry`` (n_cblocks,
+    2, cblock) scratch), then closing rotations, mask, observables and the next opening rotations
+    for blocks of ``rblock`` rows in parallel, each block seeding its rotors exactly at its first
     row (``rot``, ``stp``: (n_rblocks, 8, P) scratch). Sums are reduced in a fixed order, so the
     result does not depend on the number of threads.
     """
@@ -330,12 +330,12 @@ def propagate_chunk_parallel(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_di
     na, nb = ca.shape[0], cb.shape[0]
     nsteps = fields.shape[0]
     h = tau
-    ncb = (nl + block - 1) // block
-    nrb = (n + block - 1) // block
+    ncb = (nl + cblock - 1) // cblock
+    nrb = (n + rblock - 1) // rblock
     for k in range(nsteps + 1):
         for rb in prange(nrb):
-            i1 = min(n, (rb + 1) * block)
-            i0 = rb * block
+            i1 = min(n, (rb + 1) * rblock)
+            i0 = rb * rblock
             rt = rot[rb]
             st = stp[rb]
             pn = 0.0
@@ -377,8 +377,8 @@ def propagate_chunk_parallel(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_di
         if k == nsteps:
             break
         for cb_ in prange(ncb):
-            j0 = cb_ * block
-            j1 = min(nl, j0 + block)
+            j0 = cb_ * cblock
+            j1 = min(nl, j0 + cblock)
             _forward_columns(pr, pi, yr, yi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first,
                              cent, coul, invr2, tau, inv2mu, j0, j1)
             cy = carry[cb_]
