@@ -32,7 +32,6 @@ from __future__ import annotations
 
 import copy
 import itertools
-import math
 import re
 from dataclasses import dataclass
 from typing import Any
@@ -305,15 +304,6 @@ def expand(config) -> Plan:
                         config=job_cfg.to_dict()))
     base = cfg.to_dict()
     return Plan(base=base, axes=tuple(axes), dims=tuple(dims), shape=tuple(shape), jobs=tuple(jobs))
-
-
-def grid_size(plan: Plan) -> int:
-    """Number of grid points (jobs before merging equal physics).
-
-    >>> grid_size(Plan(base={}, axes=(), dims=("a", "b"), shape=(3, 2), jobs=()))
-    6
-    """
-    return math.prod(plan.shape)
 
 
 def axis_table(plan: Plan) -> dict[str, Any]:
