@@ -16,8 +16,8 @@ from tdse.result import Checkpoint, read_result
 
 CONFIG = {
     "atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
-    "pulse": [{"envelope": "sin2", "wavelength": "800 nm", "intensity": "1e14 W/cm^2", "cycles": 6}],
-    "solver": {"route": "grid", "r_max": 60, "dr": 0.1, "l_max": 14, "dt": 0.05,
+    "pulse": [{"envelope": "sin2", "wavelength": "800 nm", "intensity": "1e14 W/cm^2", "cycles": 4}],
+    "solver": {"route": "grid", "r_max": 60, "dr": 0.1, "l_max": 10, "dt": 0.05,
                "checkpoint_every": 400},
     "output": {"every": 10.0},
 }

@@ -23,7 +23,9 @@ Observables (all in atomic units):
 * series (at the history times): ``norm``, ``ionization``, ``dipole_z`` = ⟨z⟩ and
   ``acceleration_z`` (Ehrenfest, :func:`tdse.observables.harmonics.ehrenfest_acceleration`);
   ⟨z⟩ and the acceleration are also kept at every step (spectra["dipole_response"]) and give
-  spectra["harmonic"] = {"omega", "power"}.
+  spectra["harmonic"] = {"omega", "power"};
+* optionally (``photoelectron = true``) spectra["photoelectron"] = {"energy", "dP_dE"} of the final
+  state by the window operator (:func:`window_spectrum`).
 
 Defaults derived from the pulse (documented on :class:`Settings` and returned by
 :func:`grid_parameters`): quiver radius α₀ = F/(μω²), Uₚ = F²/(4μω²), highest expected electron
