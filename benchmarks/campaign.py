@@ -100,17 +100,19 @@ def main() -> None:
                 rows[("dask", workers)] = (min(campaign(cfg, client, root) for _ in range(args.repeat)), start_up)
     t_direct = min(t_direct, direct(cfg))            # again at the end: the machine may be shared
     print(f"{'executor':<8}{'workers':>8}{'wall_s':>9}{'jobs/s':>9}{'start-up_s':>12}"
-          f"{'vs direct':>11}{'vs engine in jobs':>19}")
+          f"{'vs direct':>11}{'vs engine in jobs':>19}{'efficiency':>12}")
     for (kind, workers), ((wall, engine), start_up) in sorted(rows.items()):
         # core-seconds spent beyond the engine's: against the direct calls, and against the
-        # engine time the same jobs recorded inside the campaign (robust to load drift)
+        # engine time the same jobs recorded inside the campaign (robust to load drift);
+        # efficiency = engine seconds / (wall x workers): how busy the workers were kept
         vs_direct = (wall * workers - t_direct) / t_direct
         vs_engine = (wall * workers - engine) / engine
         print(f"{kind:<8}{workers:>8}{wall:>9.2f}{args.jobs / wall:>9.2f}{start_up:>12.2f}"
-              f"{vs_direct:>11.1%}{vs_engine:>19.1%}")
+              f"{vs_direct:>11.1%}{vs_engine:>19.1%}{engine / (wall * workers):>12.1%}")
     for kind in ("pool", "dask"):
-        speedup = rows[(kind, 1)][0][0] / rows[(kind, 2)][0][0]
-        print(f"{kind}: 2 workers / 1 worker speed-up {speedup:.2f}x (target >= 1.8x on 2 free cores)")
+        (w1, e1), (w2, e2) = rows[(kind, 1)][0], rows[(kind, 2)][0]
+        print(f"{kind}: 2 workers / 1 worker speed-up {w1 / w2:.2f}x measured "
+              f"(target >= 1.8x on 2 free cores); with free cores (2 x efficiency ratio) {(e2 / w2) / (e1 / w1):.2f}x")
     print(f"cores: {os.cpu_count()}, load average now: {os.getloadavg()[0]:.2f}")
 
 
