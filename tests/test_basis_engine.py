@@ -162,6 +162,37 @@ def test_run_through_api_writes_file_and_reuses_basis(tmp_path):
     assert second.stats["basis_reused"] is True
 
 
+def test_resume_from_checkpoint_equals_uninterrupted_run(tmp_path, monkeypatch):
+    from tdse.engines import eigenbasis
+    from tdse.result import Checkpoint
+
+    pulse = Pulse({"photon_energy": 0.4, "peak_field": 0.01, "cycles": 3})
+    settings = Settings(r_max=30.0, dr=0.2, l_max=2, e_max=1.0, cache_dir=None, checkpoint_every=0)
+    output = OutputConfig(every=5.0)
+    plain = propagate(H, pulse, settings, initial=GROUND, output=output)
+
+    original = eigenbasis.MagnusPropagator.advance
+    calls = []
+
+    def crash_on_tenth(self, *args):
+        calls.append(1)
+        if len(calls) == 10:
+            raise RuntimeError("simulated kill")
+        return original(self, *args)
+
+    cp = Checkpoint(tmp_path / "job.h5", physics_hash="abc")
+    monkeypatch.setattr(eigenbasis.MagnusPropagator, "advance", crash_on_tenth)
+    with pytest.raises(RuntimeError, match="simulated kill"):
+        propagate(H, pulse, settings, initial=GROUND, output=output, checkpoint=cp)
+    monkeypatch.setattr(eigenbasis.MagnusPropagator, "advance", original)
+    assert cp.load()[1]["sample"] == 9                   # saved after the ninth interval
+    resumed = propagate(H, pulse, settings, initial=GROUND, output=output, checkpoint=cp)
+    assert resumed.populations == pytest.approx(plain.populations, rel=1e-12)
+    np.testing.assert_allclose(resumed.series["dipole_z"], plain.series["dipole_z"], rtol=0, atol=1e-14)
+    np.testing.assert_allclose(resumed.spectra["photoelectron"]["dP_dE"], plain.spectra["photoelectron"]["dP_dE"],
+                               rtol=1e-12, atol=1e-300)
+
+
 def test_bad_input():
     with pytest.raises(InputError, match="polari"):
         _run(Pulse({"photon_energy": 0.4, "peak_field": 1e-3, "cycles": 2, "polarization": "circular+"}),

@@ -80,6 +80,8 @@ class Settings(BaseModel):
     cache_dir: str | None = Field("auto", description="folder for the basis cache; \"auto\" = next to "
                                   "the result file, none = no disk cache")
     spectrum_points: int = Field(400, ge=10, description="energies in the photoelectron spectrum")
+    checkpoint_every: Quantity = Field(60.0, description="wall-clock seconds between checkpoints of a run "
+                                       "(at history samples); plain numbers are seconds")
 
     @field_validator("r_max", "dr")
     @classmethod
@@ -90,6 +92,19 @@ class Settings(BaseModel):
     @classmethod
     def _energy(cls, value, info):
         return _positive(value, "energy", info.field_name)
+
+    @field_validator("checkpoint_every")
+    @classmethod
+    def _wall(cls, value, info):
+        from tdse.units import AU_TIME_S, to_au
+
+        if isinstance(value, (int, float)):
+            seconds = value
+        else:
+            seconds = to_au(value, "time", name="solver.checkpoint_every") * AU_TIME_S
+        if not seconds >= 0:
+            raise InputError(f"`solver.checkpoint_every` must be >= 0 s, got {value!r}")
+        return float(seconds)
 
     @field_validator("max_step")
     @classmethod
@@ -361,7 +376,7 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
         record(i + 1, c)
         if bar is not None:
             bar.update(1)
-        if checkpoint is not None and time.perf_counter() - last_save > 60.0:
+        if checkpoint is not None and time.perf_counter() - last_save >= settings.checkpoint_every:
             checkpoint.save({"c": c, **records}, {"sample": i + 1, "h": h})
             last_save = time.perf_counter()
     if bar is not None:
