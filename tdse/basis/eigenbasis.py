@@ -170,12 +170,13 @@ def build_basis(atom, *, r_max=200.0, dr=0.08, l_max=3, n_max=None, e_max=3.0, m
 
 
 def save_basis(basis: Eigenbasis, path) -> Path:
-    """Write ``basis`` to HDF5 atomically (temp file, then ``os.replace``)."""
+    """Write ``basis`` to HDF5 atomically (a per-process temp file, then ``os.replace``), so
+    workers of a scan that build the same basis at once never see a half-written file."""
     import h5py
 
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(path.name + ".tmp")
+    tmp = path.with_name(f"{path.name}.{os.getpid()}.tmp")
     d = basis.dipole
     with h5py.File(tmp, "w") as f:
         for name in ("energies", "l", "n", "dos"):
