@@ -51,7 +51,7 @@ def main(argv=None) -> None:
     B = basis.dipole.astype(complex).tocsr()
 
     def magnus(tol):
-        prop = MagnusPropagator(E, basis.dipole, 1.0, pulse.field_z, tol, scheme=args.scheme)
+        prop = MagnusPropagator(E, basis.dipole, pulse.field_z, tol, scheme=args.scheme)
         start = time.perf_counter()
         c, _, _ = prop.advance(c0, pulse.t_start, pulse.t_end, 1.0)
         return c, time.perf_counter() - start, prop.matvecs

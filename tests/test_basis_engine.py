@@ -53,7 +53,7 @@ def test_magnus_matches_dop853_on_same_matrix():
         return -1j * (E * y + pulse.field_z(np.array([t]))[0] * (D @ y))
 
     ref = solve_ivp(rhs, (pulse.t_start, pulse.t_end), c0, method="DOP853", rtol=1e-12, atol=1e-13).y[:, -1]
-    prop = MagnusPropagator(E, basis.dipole, 1.0, pulse.field_z, 1e-10)
+    prop = MagnusPropagator(E, basis.dipole, pulse.field_z, 1e-10)
     c, _, _ = prop.advance(c0, pulse.t_start, pulse.t_end, 1.0)
     assert np.linalg.norm(c - ref) < 1e-7
     assert 1 - abs(ref[basis.index("1s")]) ** 2 > 1e-3
@@ -79,7 +79,7 @@ def test_observed_order_of_the_magnus_schemes(scheme, order):
                     rtol=1e-13, atol=1e-14).y[:, -1]           # scipy reference solution
     errors = []
     for n in (10, 20, 40):
-        prop = MagnusPropagator(energies, d, 1.0, drive, 1e-14, scheme=scheme)
+        prop = MagnusPropagator(energies, d, drive, 1e-14, scheme=scheme)
         c = c0
         for i in range(n):
             c = prop.step(c, i * T / n, T / n)

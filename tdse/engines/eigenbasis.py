@@ -46,7 +46,6 @@ from tdse.errors import InputError
 from tdse.result import Result
 
 Quantity = Union[float, str]
-_SQRT3 = math.sqrt(3.0)
 HISTORY_N_MAX = 4          # bound levels with n <= this get a population history
 
 
@@ -183,18 +182,18 @@ SCHEMES = _schemes()
 
 
 class MagnusPropagator:
-    """Commutator-free Magnus + Lanczos for i dc/dt = (diag(E) + s(t)·factor·S) c.
+    """Commutator-free Magnus + Lanczos for i dc/dt = (diag(E) + s(t)·B) c.
 
-    ``S`` is a real sparse matrix, ``factor`` 1 (length form, S = z) or 1j (velocity form, S real
-    antisymmetric); ``drive(t)`` returns s at an array of times; ``scheme`` "cf6" (order 6, five
-    exponentials) or "cf4" (order 4, two). ``matvecs`` counts products with B = factor·S.
+    ``B`` is a Hermitian sparse matrix (z in the length form, p_z in the velocity form);
+    ``drive(t)`` returns s at an array of times; ``scheme`` "cf6" (order 6, five exponentials)
+    or "cf4" (order 4, two). ``matvecs`` counts products with B.
     See the module docstring for the schemes and the error control.
     """
 
-    def __init__(self, energies, S, factor, drive, tolerance: float, max_step: float | None = None,
+    def __init__(self, energies, B, drive, tolerance: float, max_step: float | None = None,
                  scheme: str = "cf6", check_every: int = 4):
         self.E = np.asarray(energies, dtype=float)
-        self.B = (factor * S).astype(complex).tocsr()      # complex CSR: the fastest sparse product
+        self.B = B.astype(complex).tocsr()      # complex CSR: the fastest sparse product with complex c
         self.drive = drive
         self.tol = tolerance
         self.max_step = max_step
@@ -317,17 +316,13 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
     build_s = time.perf_counter() - wall0
     c = _initial_vector(basis, initial)
     if settings.form == "length":
-        drive, S, factor = pulse.field_z, basis.dipole, 1.0
+        drive, coupling = pulse.field_z, basis.dipole
     else:
-        dz = basis.dipole.tocoo()
-        from scipy.sparse import csr_matrix
-
-        values = basis.mu * (basis.energies[dz.row] - basis.energies[dz.col]) * dz.data
-        S, factor = csr_matrix((values, (dz.row, dz.col)), shape=dz.shape), 1j
+        coupling = basis.velocity_dipole()
 
         def drive(t):
             return pulse.vector_potential_z(t) / basis.mu
-    prop = MagnusPropagator(basis.energies, S, factor, drive, settings.tolerance, settings.max_step,
+    prop = MagnusPropagator(basis.energies, coupling, drive, settings.tolerance, settings.max_step,
                             scheme=settings.scheme)
 
     t0, t1 = pulse.t_start, pulse.t_end
