@@ -22,6 +22,7 @@ import platform
 import socket
 import time
 from dataclasses import dataclass, field
+from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
@@ -52,8 +53,8 @@ class Result:
     metadata: dict = field(default_factory=dict)
 
 
-def package_versions() -> dict[str, str]:
-    """Versions of this package and the libraries that shape its numbers."""
+@lru_cache(maxsize=1)
+def _package_versions() -> tuple[tuple[str, str], ...]:
     from importlib import metadata
 
     out = {}
@@ -63,7 +64,12 @@ def package_versions() -> dict[str, str]:
         except metadata.PackageNotFoundError:
             out[dist] = "absent"
     out["python"] = platform.python_version()
-    return out
+    return tuple(out.items())
+
+
+def package_versions() -> dict[str, str]:
+    """Versions of this package and the libraries that shape its numbers (looked up once)."""
+    return dict(_package_versions())
 
 
 def provenance() -> dict[str, str]:
