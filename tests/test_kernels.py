@@ -18,17 +18,6 @@ def coupling(nl):
     return (l + 1) / np.sqrt((2 * l + 1) * (2 * l + 3))   # <l|cos th|l+1>, m = 0 (analytic)
 
 
-def kernel_arrays(grid, nl, atom):
-    ops = [numerov_operators(grid, l, atom) for l in range(nl)]
-    r = grid.r
-    one = ops[min(1, nl - 1)]
-    return dict(m_diag=one.m_diag.copy(), m_off=one.m_off.copy(), d_diag=one.d_diag.copy(),
-                d_off=one.d_off.copy(), m_first=np.array([o.m_diag[0] for o in ops]),
-                d_first=np.array([o.d_diag[0] for o in ops]),
-                cent=np.array([l * (l + 1) / (2 * atom.reduced_mass) for l in range(nl)]),
-                coul=-atom.Z / r, invr2=1.0 / r**2), ops
-
-
 def twin_cn(psi, ops, tau):
     """(M(1+i tau V) - i tau D/2mu) psi' = (M(1-i tau V) + i tau D/2mu) psi, per l, with scipy."""
     out = np.empty_like(psi)
@@ -76,11 +65,11 @@ def twin_chunk(psi, ops, tau, r, c, fields, mask):
 @pytest.fixture(scope="module")
 def setup():
     grid = uniform_grid(N * DR, DR)
-    arrays, ops = kernel_arrays(grid, L, ATOM)
+    ops = [numerov_operators(grid, l, ATOM) for l in range(L)]
     rng = np.random.default_rng(7)
     psi = rng.normal(size=(N, L)) + 1j * rng.normal(size=(N, L))
     psi /= np.linalg.norm(psi)
-    return grid, arrays, ops, psi
+    return grid, ops, psi
 
 
 def stepper_for(grid, mask, threads=1, nl=L):
@@ -90,14 +79,17 @@ def stepper_for(grid, mask, threads=1, nl=L):
 
 
 def test_potential_formula_matches_radial_grid(setup):
-    grid, a, ops, _ = setup
+    grid, ops, _ = setup
+    st = stepper_for(grid, np.ones(N))
+    a = st.a                                   # V[i, col] = cent[col]/r_i^2 + coul[i] in the kernels
     for l, o in enumerate(ops):
-        np.testing.assert_allclose(a["cent"][l] * a["invr2"] + a["coul"], o.potential, rtol=1e-14,
+        j = st.column_of[l]
+        np.testing.assert_allclose(a["cent"][j] * a["invr2"] + a["coul"], o.potential, rtol=1e-14,
                                    atol=1e-14 * abs(o.potential).max())
 
 
 def test_cn_factorize_matches_lu_of_dense_matrix(setup):
-    grid, a, ops, _ = setup
+    grid, ops, _ = setup
     st = stepper_for(grid, np.ones(N))
     for l in (0, 1, L - 1):
         j = st.column_of[l]
@@ -121,7 +113,7 @@ def edge_mask():
 
 @pytest.mark.parametrize("nl", [L, L - 1])           # odd and even numbers of partial waves
 def test_propagate_chunk_matches_twin(setup, nl):
-    grid, a, ops, psi0 = setup
+    grid, ops, psi0 = setup
     psi0 = psi0[:, :nl] / np.linalg.norm(psi0[:, :nl])
     mask = edge_mask()
     st = stepper_for(grid, mask, nl=nl)
@@ -137,7 +129,7 @@ def test_propagate_chunk_matches_twin(setup, nl):
 
 
 def test_propagate_chunk_parallel_matches_twin(setup):
-    grid, a, ops, psi0 = setup
+    grid, ops, psi0 = setup
     mask = edge_mask()
     st = stepper_for(grid, mask, threads=2)
     fields = np.array([0.02, 0.04, -0.06])
@@ -150,7 +142,7 @@ def test_propagate_chunk_parallel_matches_twin(setup):
 
 
 def test_rotate_all_matches_twin(setup):
-    grid, a, ops, psi0 = setup
+    grid, ops, psi0 = setup
     st = stepper_for(grid, np.ones(N))
     st.set_state(psi0)
     kernels.rotate_all(st.pr, st.pi, 0.3, TAU, DR, st.ca, st.cb, st.rot, st.stp)

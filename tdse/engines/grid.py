@@ -67,7 +67,8 @@ class Settings(BaseModel):
 
     route: Literal["grid"] = Field("grid", description="propagation route")
     r_max: Quantity | None = Field(None, description="radial box size (bohr); default: room for the "
-                                   "initial state (40 n²/(Zμ)) and 3 quiver radii + 20 bohr, plus the absorber")
+                                   "initial state (40 n²/(Zμ)), 3 quiver radii + 20 bohr and, for a static field F, "
+                                   "the tunnel exit I_p/F twice + 40 bohr; plus the absorber")
     dr: Quantity | None = Field(None, description="grid spacing (bohr); default min(0.1/Z, 0.5/k_max), "
                                 "which puts the grid 1s energy within 1e-5 of −Z²μ/2")
     l_max: int | None = Field(None, ge=1, le=2000, description="highest partial wave; default "
