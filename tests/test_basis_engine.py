@@ -89,6 +89,15 @@ def test_observed_order_of_the_magnus_schemes(scheme, order):
     assert abs(observed - order) < 0.3
 
 
+def test_stretched_grid_setting_reaches_the_basis():
+    pulse = Pulse({"photon_energy": 0.8, "peak_field": 1e-3, "cycles": 6})
+    uniform = _run(pulse, r_max=100.0, dr=0.1, l_max=1, e_max=3.0)
+    stretched = _run(pulse, r_max=100.0, dr=0.25, dr_min="0.02 au", r_stretch="0.3 nm", l_max=1, e_max=3.0)
+    assert stretched.stats["basis_size"] < uniform.stats["basis_size"] + 5
+    assert stretched.stats["basis_key"] != uniform.stats["basis_key"]
+    assert stretched.ionization == pytest.approx(uniform.ionization, rel=2e-3)
+
+
 def test_tolerance_controls_the_error():
     pulse = Pulse({"photon_energy": 0.4, "peak_field": 0.02, "cycles": 4})
     keys = dict(r_max=40.0, dr=0.1, l_max=3, e_max=2.0)

@@ -63,6 +63,16 @@ def test_photoionization_cross_section_from_box_states():
     print("max relative deviation 15-80 eV:", np.max(np.abs(sigma[window] / exact - 1)))
 
 
+def test_cross_section_and_polarizability_on_a_stretched_grid():
+    basis = build_basis(H, r_max=200.0, dr=0.25, dr_min=0.02, r_stretch=5.0, l_max=1, e_max=3.0)
+    assert basis.inputs["dr_min"] == 0.02
+    omega, sigma = box_cross_section(basis, "1s")
+    window = (omega * HARTREE_EV >= 15.0) & (omega * HARTREE_EV <= 80.0)
+    np.testing.assert_allclose(sigma[window], cross_section(H, 1, 0, omega[window]), rtol=0.01)   # Stobbe
+    # bound part of the sum only up to e_max: the rest of the 4.5 (Dalgarno & Lewis 1955) is above 3 Eh
+    assert 4.49 < static_polarizability(basis, "1s") < 4.5
+
+
 @pytest.mark.parametrize("s1,s2", [("1s0", "2p0"), ("2s0", "3p0"), ("2p0", "3d0"), ("2p0", "3s0"),
                                    ("3p0", "4d0"), ("2p1", "3d1")])
 def test_bound_dipoles_match_closed_forms(s1, s2):

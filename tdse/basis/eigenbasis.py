@@ -92,16 +92,17 @@ class Eigenbasis:
         return csr_matrix((values, (d.row, d.col)), shape=d.shape)
 
 
-def basis_inputs(atom, *, r_max=200.0, dr=0.08, l_max=3, n_max=None, e_max=3.0, m=0) -> dict:
+def basis_inputs(atom, *, r_max=200.0, dr=0.08, l_max=3, n_max=None, e_max=3.0, m=0, dr_min=None,
+                 r_stretch=10.0) -> dict:
     """Validate the inputs that fix a basis; a JSON-able dict in atomic units (grid rounded).
+    With ``dr_min`` the grid is stretched from dr_min at the nucleus to ``dr`` beyond about
+    ``r_stretch`` (:func:`tdse.basis.radial_grid.stretched_grid`), else uniform with step dr.
 
     >>> from tdse.atom import Atom
     >>> basis_inputs(Atom(1), r_max=10.0, dr=0.5)["l_max"]
     3
     """
-    from tdse.basis.radial_grid import uniform_grid
-
-    grid = uniform_grid(r_max, dr)
+    grid = _grid(r_max, dr, dr_min, r_stretch)
     if isinstance(l_max, bool) or int(l_max) != l_max or l_max < 0:
         raise InputError(f"`l_max` must be an integer >= 0, got {l_max!r}")
     if abs(m) > l_max:
@@ -110,9 +111,19 @@ def basis_inputs(atom, *, r_max=200.0, dr=0.08, l_max=3, n_max=None, e_max=3.0, 
         raise InputError(f"`n_max` must be an integer >= 1, got {n_max!r}")
     if not e_max > 0:
         raise InputError(f"`e_max` must be > 0 hartree, got {e_max!r}")
+    stretched = dr_min is not None
     return {"Z": atom.Z, "nuclear_mass": repr(float(atom.nuclear_mass)), "r_max": grid.r_max,
-            "dr": grid.dr, "l_max": int(l_max), "n_max": None if n_max is None else int(n_max),
+            "dr": grid.dr_max if stretched else grid.dr, "dr_min": grid.dr_min if stretched else None,
+            "r_stretch": float(r_stretch) if stretched else None, "l_max": int(l_max), "n_max": None if n_max is None else int(n_max),
             "e_max": float(e_max), "m": int(m), "version": _FORMAT_VERSION}
+
+
+def _grid(r_max, dr, dr_min, r_stretch):
+    from tdse.basis.radial_grid import stretched_grid, uniform_grid
+
+    if dr_min is None:
+        return uniform_grid(r_max, dr)
+    return stretched_grid(r_max, dr_min, dr, r_stretch)
 
 
 def basis_hash(inputs: dict) -> str:
@@ -121,7 +132,8 @@ def basis_hash(inputs: dict) -> str:
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 
-def build_basis(atom, *, r_max=200.0, dr=0.08, l_max=3, n_max=None, e_max=3.0, m=0) -> Eigenbasis:
+def build_basis(atom, *, r_max=200.0, dr=0.08, l_max=3, n_max=None, e_max=3.0, m=0, dr_min=None,
+                r_stretch=10.0) -> Eigenbasis:
     """Diagonalise H_l for l = |m| … l_max on the grid and assemble states and dipoles.
 
     Keeps bound states with n ≤ n_max (all the box holds if ``None``) and continuum states with
@@ -136,10 +148,11 @@ def build_basis(atom, *, r_max=200.0, dr=0.08, l_max=3, n_max=None, e_max=3.0, m
     from scipy.sparse import bmat, csr_matrix
 
     from tdse.atom.dipoles import angular_factor
-    from tdse.basis.radial_grid import density_of_states, eigenstates, uniform_grid
+    from tdse.basis.radial_grid import density_of_states, eigenstates
 
-    inputs = basis_inputs(atom, r_max=r_max, dr=dr, l_max=l_max, n_max=n_max, e_max=e_max, m=m)
-    grid = uniform_grid(inputs["r_max"], inputs["dr"])
+    inputs = basis_inputs(atom, r_max=r_max, dr=dr, l_max=l_max, n_max=n_max, e_max=e_max, m=m,
+                          dr_min=dr_min, r_stretch=r_stretch)
+    grid = _grid(r_max, dr, dr_min, r_stretch)
     n_cap = np.inf if n_max is None else n_max
     energies, ls, ns, dos, vectors = [], [], [], [], []
     for l in range(abs(m), inputs["l_max"] + 1):

@@ -29,6 +29,14 @@ For l ≥ 2, u″(0) = 0 and no correction is needed. Because M is a polynomial 
 symmetric matrix for every l, corrected row included: Crank–Nicolson built on it,
 (M + iτK)ψ′ = (M − iτK)ψ with K = −Δ/(2μ) + M·diag(V), is then exactly unitary.
 
+Stretched grid (:func:`stretched_grid`): r = g(x) on a uniform x grid (unit steps) with spacing
+g′(x) = dr_max − (dr_max − dr_min) exp(−(x/w)²), fine at the nucleus (g″(0) = 0) and coarse far
+out. The Liouville transformation u = √g′ φ turns u″ = Q u into φ″ = (g′²Q − ½{g, x})φ with the
+Schwarzian {g, x} = g‴/g′ − (3/2)(g″/g′)², to which the same Numerov pair applies in x; the
+cusp rows use Zμ·dr_min as Zμ·dr (the series of φ in x has the same form since g″(0) = 0). With
+v = g′φ the problem is the symmetric H_s = G^{−1/2}[−(1/2μ)M⁻¹Δ + g′²V − {g, x}/(4μ)]G^{−1/2},
+G = diag(g′²), and Σ vᵢ² = 1 normalises ∫u² dr, so dipoles are Σ v_a r v_b on either grid.
+
 Eigenstates come from the dense symmetric H_l (M⁻¹Δ formed by one banded solve) with LAPACK's
 subset driver; for N ≈ 2000 that takes well under a second per l. Vectors are columns with
 Σᵢ|uᵢ|² = 1 (so uᵢ ≈ √dr · u(rᵢ)), sign fixed so that the first lobe is positive (as R_nl near 0).
@@ -180,6 +188,88 @@ def numerov_operators(grid: RadialGrid, l: int, atom) -> NumerovOperators:
                             potential=potential)
 
 
+@dataclass(frozen=True)
+class StretchedGrid:
+    """r_i = g(i), i = 1..n_points, g′(x) = dr_max − (dr_max − dr_min)·exp(−(x/w)²) (bohr).
+
+    ``r``, ``jacobian`` g′, ``schwarzian`` {g, x} at the points; ``r_max`` = g(n_points).
+    """
+
+    dr_min: float
+    dr_max: float
+    w: float
+    n_points: int
+
+    def _g(self, x):
+        from scipy.special import erf
+
+        return self.dr_max * x - (self.dr_max - self.dr_min) * self.w * (np.sqrt(np.pi) / 2) * erf(x / self.w)
+
+    @property
+    def r(self) -> np.ndarray:
+        return self._g(np.arange(1, self.n_points + 1, dtype=float))
+
+    @property
+    def r_max(self) -> float:
+        return float(self._g(float(self.n_points)))
+
+    @property
+    def jacobian(self) -> np.ndarray:
+        x = np.arange(1, self.n_points + 1, dtype=float)
+        return self.dr_max - (self.dr_max - self.dr_min) * np.exp(-((x / self.w) ** 2))
+
+    @property
+    def schwarzian(self) -> np.ndarray:
+        x = np.arange(1, self.n_points + 1, dtype=float)
+        gauss = (self.dr_max - self.dr_min) * np.exp(-((x / self.w) ** 2))
+        g1 = self.dr_max - gauss
+        g2 = gauss * 2 * x / self.w**2
+        g3 = gauss * (2 / self.w**2) * (1 - 2 * x**2 / self.w**2)
+        return g3 / g1 - 1.5 * (g2 / g1) ** 2
+
+
+def stretched_grid(r_max, dr_min, dr_max, r_stretch) -> StretchedGrid:
+    """Grid with spacing dr_min at the nucleus growing smoothly to dr_max; ``r_stretch`` (bohr)
+    is where g(w) reaches it, w the width of the transition in steps.
+
+    >>> g = stretched_grid(200.0, 0.02, 0.2, 5.0)
+    >>> round(float(g.r[1] - g.r[0]), 3), round(float(g.r[-1] - g.r[-2]), 3), g.r_max >= 200.0
+    (0.02, 0.2, True)
+    """
+    from scipy.optimize import brentq
+
+    from tdse.units import to_au
+
+    r_max = to_au(r_max, "length", name="r_max")
+    dr_min = to_au(dr_min, "length", name="dr_min")
+    dr_max = to_au(dr_max, "length", name="dr")
+    r_stretch = to_au(r_stretch, "length", name="r_stretch")
+    if not 0 < dr_min < dr_max:
+        raise InputError(f"`dr_min` must be > 0 and < dr = {dr_max:g} bohr, got {dr_min!r}")
+    if not 0 < r_stretch < r_max / 2:
+        raise InputError(f"`r_stretch` must be > 0 and < r_max/2 = {r_max / 2:g} bohr, got {r_stretch!r}")
+    w = brentq(lambda w: StretchedGrid(dr_min, dr_max, w, 1)._g(w) - r_stretch,
+               r_stretch / dr_max, r_stretch / dr_min * 2)
+    grid = StretchedGrid(dr_min, dr_max, w, 1)
+    n = int(brentq(lambda x: grid._g(x) - r_max, 1.0, r_max / dr_min + 1.0))
+    return StretchedGrid(dr_min, dr_max, w, n + 1)
+
+
+def stretched_hamiltonian(grid: StretchedGrid, l: int, atom) -> np.ndarray:
+    """Dense symmetric H_s of partial wave ``l`` on a stretched grid (module docstring)."""
+    mu = atom.reduced_mass
+    n = grid.n_points
+    r, jac = grid.r, grid.jacobian
+    d_diag = np.full(n, -2.0)                        # unit steps in x
+    d_diag[0] = first_row_correction(l, atom.Z, mu, grid.dr_min)
+    d_off = np.ones(n - 1)
+    ops = NumerovOperators(l=l, mu=mu, d_diag=d_diag, d_off=d_off, m_diag=1.0 + d_diag / 12.0,
+                           m_off=d_off / 12.0,
+                           potential=jac**2 * (l * (l + 1) / (2.0 * mu * r**2) - atom.Z / r)
+                           - grid.schwarzian / (4.0 * mu))
+    return ops.hamiltonian_dense() / jac[:, None] / jac[None, :]
+
+
 def _fix_signs(vectors: np.ndarray) -> np.ndarray:
     """Make the first lobe of each column positive (first entry above 1e-3 of its largest)."""
     mag = np.abs(vectors)
@@ -189,9 +279,10 @@ def _fix_signs(vectors: np.ndarray) -> np.ndarray:
     return vectors * signs
 
 
-def eigenstates(grid: RadialGrid, l: int, atom, *, e_max: float | None = None,
+def eigenstates(grid: RadialGrid | StretchedGrid, l: int, atom, *, e_max: float | None = None,
                 n_states: int | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Eigen-energies (ascending) and eigenvectors (columns, Σ|uᵢ|² = 1) of H_l.
+    """Eigen-energies (ascending) and eigenvectors (columns, Σ|vᵢ|² = 1, vᵢ ≈ √(Δrᵢ)·u(rᵢ)) of H_l
+    on a uniform or a stretched grid.
 
     ``e_max`` keeps states with E ≤ e_max (hartree), ``n_states`` the lowest ones; with neither,
     all N. Bound states are those with E < 0; the rest are box continuum states whose energy
@@ -199,7 +290,10 @@ def eigenstates(grid: RadialGrid, l: int, atom, *, e_max: float | None = None,
     """
     from scipy.linalg import eigh
 
-    h = numerov_operators(grid, l, atom).hamiltonian_dense()
+    if isinstance(grid, StretchedGrid):
+        h = stretched_hamiltonian(grid, l, atom)
+    else:
+        h = numerov_operators(grid, l, atom).hamiltonian_dense()
     n = grid.n_points
     if n_states is not None:
         if not 1 <= n_states <= n:

@@ -66,6 +66,9 @@ class Settings(BaseModel):
     route: Literal["basis"] = Field("basis", description="this route")
     r_max: Quantity = Field(200.0, description="box radius (bohr); sets the continuum density of states")
     dr: Quantity = Field(0.08, description="grid spacing (bohr); E_n exact to 1e-5 for n <= 6 at 0.08")
+    dr_min: Quantity | None = Field(None, description="finest spacing at the nucleus (bohr): stretches "
+                                    "the grid from dr_min to dr (default: uniform grid of step dr)")
+    r_stretch: Quantity = Field(10.0, description="radius (bohr) of the stretched grid's transition")
     l_max: int = Field(3, ge=0, le=200, description="highest partial wave")
     n_max: int | None = Field(None, ge=1, description="highest bound n kept (default: all the box holds)")
     e_max: Quantity = Field(3.0, description="highest continuum energy kept (hartree or with units)")
@@ -82,10 +85,15 @@ class Settings(BaseModel):
     checkpoint_every: Quantity = Field(60.0, description="wall-clock seconds between checkpoints of a run "
                                        "(at history samples); plain numbers are seconds")
 
-    @field_validator("r_max", "dr")
+    @field_validator("r_max", "dr", "r_stretch")
     @classmethod
     def _length(cls, value, info):
         return _positive(value, "length", info.field_name)
+
+    @field_validator("dr_min")
+    @classmethod
+    def _optional_length(cls, value, info):
+        return None if value is None else _positive(value, "length", info.field_name)
 
     @field_validator("e_max")
     @classmethod
@@ -312,7 +320,8 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
     m = _basis_m(initial)
     basis, reused = cached_basis(atom, _cache_folder(settings, checkpoint), r_max=settings.r_max,
                                  dr=settings.dr, l_max=settings.l_max, n_max=settings.n_max,
-                                 e_max=settings.e_max, m=m)
+                                 e_max=settings.e_max, m=m, dr_min=settings.dr_min,
+                                 r_stretch=settings.r_stretch)
     build_s = time.perf_counter() - wall0
     c = _initial_vector(basis, initial)
     if settings.form == "length":
