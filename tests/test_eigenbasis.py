@@ -85,7 +85,13 @@ def test_bound_dipoles_match_closed_forms(s1, s2):
 
 @lru_cache(maxsize=None)
 def _bound_basis(m):
-    return build_basis(H, r_max=80.0, dr=0.03, l_max=2, e_max=0.01, m=m)
+    return build_basis(H, r_max=80.0, dr=0.1, dr_min=0.01, r_stretch=3.0, l_max=2, e_max=0.01, m=m)
+
+
+def test_bound_dipole_on_the_uniform_grid():
+    basis = build_basis(H, r_max=40.0, dr=0.04, l_max=1, e_max=0.01)
+    value = basis.dipole[basis.index("1s"), basis.index("2p")]
+    assert value == pytest.approx(dipole_matrix_element(H, parse_state("1s0"), parse_state("2p0"), 0), abs=1e-6)
 
 
 def test_reduced_mass_scaling_of_dipoles():

@@ -199,7 +199,7 @@ class MagnusPropagator:
     """
 
     def __init__(self, energies, B, drive, tolerance: float, max_step: float | None = None,
-                 scheme: str = "cf6", check_every: int = 4):
+                 scheme: str = "cf6", check_every: int = 8):
         self.E = np.asarray(energies, dtype=float)
         self.B = B.astype(complex).tocsr()      # complex CSR: the fastest sparse product with complex c
         self.drive = drive
