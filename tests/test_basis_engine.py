@@ -202,6 +202,17 @@ def test_resume_from_checkpoint_equals_uninterrupted_run(tmp_path, monkeypatch):
                                rtol=1e-12, atol=1e-300)
 
 
+def test_sampling_longer_than_the_pulse_and_velocity_warning_for_static_field():
+    pulse = Pulse({"photon_energy": 0.4, "peak_field": 1e-3, "cycles": 2})
+    res = propagate(H, pulse, Settings(r_max=20.0, dr=0.2, l_max=1, e_max=1.0, cache_dir=None), initial=GROUND,
+                    output=OutputConfig(every=1e6))
+    assert res.times.tolist() == [pulse.t_start, pulse.t_end]
+    static = Pulse({"envelope": "static", "peak_field": 1e-3, "length": 200.0, "ramp": 50.0})
+    res = propagate(H, static, Settings(r_max=20.0, dr=0.2, l_max=1, e_max=1.0, cache_dir=None, form="velocity"),
+                    initial=GROUND, output=OutputConfig())
+    assert any("gauge" in w for w in res.warnings)
+
+
 def test_bad_input():
     with pytest.raises(InputError, match="polari"):
         _run(Pulse({"photon_energy": 0.4, "peak_field": 1e-3, "cycles": 2, "polarization": "circular+"}),

@@ -338,10 +338,12 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
     every = None if output.every is None else to_au(output.every, "time", name="output.every")
     if every is not None and not every > 0:
         raise InputError(f"`output.every` must be > 0, got {output.every!r}")
-    n_samples = 201 if every is None else max(2, int(math.floor((t1 - t0) / every + 1e-9)) + 1)
-    times = t0 + np.arange(n_samples) * ((t1 - t0) / (n_samples - 1) if every is None else every)
-    if times[-1] < t1 - 1e-9:
-        times = np.append(times, t1)
+    if every is None:
+        times = np.linspace(t0, t1, 201)
+    else:
+        times = t0 + every * np.arange(int(math.floor((t1 - t0) / every + 1e-9)) + 1)
+        if times[-1] < t1 - 1e-9:
+            times = np.append(times, t1)
     hist_idx = np.flatnonzero(basis.bound & (basis.n <= min(HISTORY_N_MAX, _hydrogenic_n(basis, atom))))
     cont = ~basis.bound
     top_l = basis.l == basis.l.max()
@@ -402,6 +404,9 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
              "e_max_population": float(records["near_emax"].max()),
              "propagate_s": time.perf_counter() - wall0 - build_s}
     warnings = []
+    if settings.form == "velocity" and abs(float(pulse.vector_potential_z(np.array([t1]))[0])) > 1e-8:
+        warnings.append("A(t) does not vanish at the end of the pulse (static field): velocity-form "
+                        "amplitudes differ from length-form ones by the gauge phase; use form = \"length\"")
     for key, setting in (("top_l_population", "l_max"), ("e_max_population", "e_max")):
         if stats[key] > settings.warn_population:
             warnings.append(f"basis not converged: {key} = {stats[key]:.3g} > warn_population = "
