@@ -286,7 +286,8 @@ def eigenstates(grid: RadialGrid | StretchedGrid, l: int, atom, *, e_max: float 
 
     ``e_max`` keeps states with E ≤ e_max (hartree), ``n_states`` the lowest ones; with neither,
     all N. Bound states are those with E < 0; the rest are box continuum states whose energy
-    density is given by :func:`density_of_states`.
+    density is given by :func:`density_of_states`. LAPACK runs on one thread (see
+    :func:`reproducible_blas`), so the vectors are the same bit for bit whatever the thread settings.
     """
     from scipy.linalg import eigh
 
@@ -295,15 +296,28 @@ def eigenstates(grid: RadialGrid | StretchedGrid, l: int, atom, *, e_max: float 
     else:
         h = numerov_operators(grid, l, atom).hamiltonian_dense()
     n = grid.n_points
-    if n_states is not None:
-        if not 1 <= n_states <= n:
-            raise InputError(f"`n_states` must be from 1 to {n}, got {n_states!r}")
-        energies, vectors = eigh(h, subset_by_index=(0, n_states - 1), driver="evr")
-    elif e_max is not None:
-        energies, vectors = eigh(h, subset_by_value=(-np.inf, float(e_max)), driver="evr")
-    else:
-        energies, vectors = eigh(h, driver="evr")
+    if n_states is not None and not 1 <= n_states <= n:
+        raise InputError(f"`n_states` must be from 1 to {n}, got {n_states!r}")
+    with reproducible_blas():
+        if n_states is not None:
+            energies, vectors = eigh(h, subset_by_index=(0, n_states - 1), driver="evr")
+        elif e_max is not None:
+            energies, vectors = eigh(h, subset_by_value=(-np.inf, float(e_max)), driver="evr")
+        else:
+            energies, vectors = eigh(h, driver="evr")
     return energies, _fix_signs(vectors)
+
+
+def reproducible_blas():
+    """Context in which BLAS/LAPACK use one thread.
+
+    Multi-threaded BLAS sums in an order that depends on the thread count, which changes
+    eigenvectors in the last bits; a run resumed from a checkpoint on another node (or under
+    other ``OMP_NUM_THREADS``) must start from the very same states, so eigen-solves run here.
+    """
+    from threadpoolctl import threadpool_limits
+
+    return threadpool_limits(limits=1, user_api="blas")
 
 
 def density_of_states(energies: np.ndarray) -> np.ndarray:

@@ -224,7 +224,7 @@ def bound_states(grid, l: int, atom) -> tuple[np.ndarray, np.ndarray]:
     from scipy.linalg import solve_banded
     from scipy.sparse.linalg import LinearOperator, eigsh
 
-    from tdse.basis.radial_grid import eigenstates, numerov_operators
+    from tdse.basis.radial_grid import eigenstates, numerov_operators, reproducible_blas
 
     n = grid.n_points
     if n <= SMALL_GRID:
@@ -249,8 +249,9 @@ def bound_states(grid, l: int, atom) -> tuple[np.ndarray, np.ndarray]:
     n_fit = int(math.sqrt(atom.Z * atom.reduced_mass * grid.r_max / 2)) + 1
     k = min(n - 2, max(1, n_fit - l) + 4)
     while True:
-        energies, vectors = eigsh(a, k=k, sigma=sigma, OPinv=op_inv, which="LM", v0=np.ones(n),
-                                  tol=0)
+        with reproducible_blas():
+            energies, vectors = eigsh(a, k=k, sigma=sigma, OPinv=op_inv, which="LM", v0=np.ones(n),
+                                      tol=0)
         order = np.argsort(energies)
         energies, vectors = energies[order], vectors[:, order]
         if energies[-1] >= 0 or k >= n - 2:
@@ -458,8 +459,17 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
 
     Returns a :class:`tdse.result.Result` (route "grid"); see the module docstring for what it
     holds. ``checkpoint`` (a :class:`tdse.result.Checkpoint`) is loaded at the start and saved
-    every ``settings.checkpoint_every``.
+    every ``settings.checkpoint_every``. BLAS runs single-threaded throughout, so a run resumed
+    under other thread settings stores the same bits as an uninterrupted one.
     """
+    from tdse.basis.radial_grid import reproducible_blas
+
+    with reproducible_blas():
+        return _propagate(atom, pulse, settings, initial=initial, output=output, progress=progress,
+                          checkpoint=checkpoint)
+
+
+def _propagate(atom, pulse, settings, *, initial, output, progress, checkpoint):
     from tdse.basis.radial_grid import uniform_grid
     from tdse.observables.harmonics import ehrenfest_acceleration, harmonic_spectrum
     from tdse.observables.populations import level_populations
