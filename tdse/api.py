@@ -18,6 +18,19 @@ def result_path(config: RunConfig, out=None, *, name: str = "run") -> Path:
     return folder / f"{name}-{config.physics_hash()}.h5"
 
 
+def ensure_writable(path: Path) -> None:
+    """Fail before any work is done if the result file cannot be written where it is asked for."""
+    from tdse.errors import InputError
+
+    probe = path.with_name(path.name + ".probe")
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        probe.write_bytes(b"")
+        probe.unlink()
+    except OSError as exc:
+        raise InputError(f"`--out` {str(path)!r} cannot be written: {exc.strerror or exc}") from None
+
+
 def run(config, *, out=None, progress: bool = True, name: str | None = None) -> Result:
     """Propagate one configuration with its route and write the HDF5 result.
 
@@ -35,6 +48,7 @@ def run(config, *, out=None, progress: bool = True, name: str | None = None) -> 
     settings = cfg.solver_settings()
     engine = route_module(cfg.solver["route"])
     path = result_path(cfg, out, name=name or "run")
+    ensure_writable(path)
     physics_hash = cfg.physics_hash()
     config_text = cfg.to_toml()
     checkpoint = Checkpoint(path, physics_hash=physics_hash, config=config_text)

@@ -99,3 +99,11 @@ def test_shipped_levels_configs_run(tmp_path, capsys, name):
     payload = json.loads(capsys.readouterr().out)
     assert payload["route"] == "levels"
     assert math.isclose(payload["norm"], 1.0, abs_tol=1e-7)
+
+
+@pytest.mark.parametrize("out", ["{tmp}/a_file/x.h5", "/proc/cannot_write_here.h5"])
+def test_unwritable_output_fails_before_the_run(tmp_path, capsys, out):
+    (tmp_path / "a_file").write_text("not a folder")
+    code = main(["run", str(_config(tmp_path)), "--out", out.format(tmp=tmp_path), "--no-progress"])
+    err = capsys.readouterr().err
+    assert code == 2 and "`--out`" in err and len(err.strip().splitlines()) == 1

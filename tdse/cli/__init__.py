@@ -85,6 +85,10 @@ def main(argv=None) -> int:
     except InputError as exc:
         sys.stderr.write(f"tdse: error: {exc}\n")
         return 2
+    except OSError as exc:   # a file or folder the user named cannot be read or written
+        where = f" {exc.filename!r}" if getattr(exc, "filename", None) else ""
+        sys.stderr.write(f"tdse: error:{where} {exc.strerror or exc}\n")
+        return 2
     except KeyboardInterrupt:
         sys.stderr.write("tdse: interrupted\n")
         return 130
