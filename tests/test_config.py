@@ -129,6 +129,7 @@ INVALID = [
     (with_changes("atom", nucleus="He"), "`nucleus` 'He' has Z = 2"),
     (with_changes("output", every="-1 fs"), "`output.every` must be a time > 0"),
     (with_changes("output", every="1 m"), "`output.every` must be a time"),
+    ({**BASE, "pulse": []}, "`pulse` is required for route 'grid'"),
 ]
 
 

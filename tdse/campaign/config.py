@@ -252,15 +252,18 @@ def load_config(source) -> RunConfig:
 def check_config(cfg: RunConfig) -> None:
     """Cross-section checks, each failing with one line naming the key: the atom and initial
     states exist, every pulse builds (units, exclusive keys, ranges), the route can treat the
-    light (basis and grid: linear z polarisation only; levels: fields below barrier suppression
+    light (basis and grid: at least one pulse, linear z polarisation only; levels: fields below barrier suppression
     of the initial state, F_BS = Ip^2/(4Z), Augst et al. 1989).
     """
     atom = cfg.build_atom()
     initial = cfg.initial_states()
     pulse = cfg.build_pulse()
-    if pulse is None:
-        return
     route = cfg.solver["route"]
+    if pulse is None:
+        if route in ("basis", "grid"):
+            raise InputError(f"`pulse` is required for route {route!r}: add a [[pulse]] table "
+                             f"(field-free runs: route \"levels\")")
+        return
     for i, c in enumerate(pulse.components):
         if route in ("basis", "grid") and c.polarization != "z":
             raise InputError(f"`pulse.{i}.polarization` = {c.polarization!r}: route {route!r} treats "
