@@ -370,17 +370,18 @@ class _Stepper:
         shape = (n, n_l)
         self.wr, self.wi, self.cr, self.ci = (np.zeros(shape) for _ in range(4))
         self.refactor()
-        self.pr, self.pi, self.yr, self.yi = (np.zeros(shape) for _ in range(4))
+        self.pr, self.pi = np.zeros(shape), np.zeros(shape)
         self.threads = threads
         p = max(1, self.ca.size, self.cb.size)
-        if threads == 1:
-            self.carry = np.zeros((2, n_l))
+        if threads == 1:                              # the fused kernel sweeps in place
+            self.carry = np.zeros((6, n_l))
             self.rot = np.zeros((8, p))
             self.stp = np.zeros((8, p))
         else:
             self.cblock = -(-n_l // threads)          # one block of partial waves per thread
             self.rblock = 64
             nrb = -(-n // self.rblock)
+            self.yr, self.yi = np.zeros(shape), np.zeros(shape)
             self.carry = np.zeros((-(-n_l // self.cblock), 2, self.cblock))
             self.rot = np.zeros((nrb, 8, p))
             self.stp = np.zeros((nrb, 8, p))
@@ -413,18 +414,18 @@ class _Stepper:
         """Advance the state by len(fields) steps; ``out`` (k, 3) gets norm, ⟨z⟩, ⟨cosθ/r²⟩."""
         a = self.a
         fields = np.ascontiguousarray(fields, dtype=float)
-        args = (self.pr, self.pi, self.yr, self.yi, self.wr, self.wi, self.cr, self.ci, a["m_diag"],
-                a["m_off"], a["d_diag"], a["d_off"], a["m_first"], a["d_first"], a["cent"], a["coul"],
-                a["invr2"], self.tau, self.inv2mu, self.dr, self.ca, self.cb, fields, self.mask,
-                self.i_abs, self.carry, self.rot, self.stp)
+        args = (self.wr, self.wi, self.cr, self.ci, a["m_diag"], a["m_off"], a["d_diag"], a["d_off"],
+                a["m_first"], a["d_first"], a["cent"], a["coul"], a["invr2"], self.tau, self.inv2mu,
+                self.dr, self.ca, self.cb, fields, self.mask, self.i_abs, self.carry, self.rot, self.stp)
         if self.threads == 1:
-            self.kernels.propagate_chunk(*args, out)
+            self.kernels.propagate_chunk(self.pr, self.pi, *args, out)
         else:
             import numba
 
             numba.set_num_threads(min(self.threads, numba.config.NUMBA_NUM_THREADS))
             partial = np.zeros((fields.size, self.rot.shape[0], 3))
-            self.kernels.propagate_chunk_parallel(*args, partial, self.cblock, self.rblock)
+            self.kernels.propagate_chunk_parallel(self.pr, self.pi, self.yr, self.yi, *args, partial,
+                                                  self.cblock, self.rblock)
             self.kernels.reduce_partial(partial, out)
 
 

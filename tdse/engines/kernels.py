@@ -18,12 +18,17 @@ One time step of length dt at mid-step field E (Strang splitting, second order i
 
 A⁺ = M(1 + iτV) − iτΔ/2μ is field free: its Thomas factors (``w`` = 1/b′, ``cp`` = c′ per row and
 column) are computed once (:func:`cn_factorize`); A⁻ = conj(A⁺) is formed on the fly from
-V[i, col] = cent[col]·invr2[i] + coul[i]. The forward sweep forms the right-hand side and eliminates;
-the backward sweep substitutes and, row by row while the row is in cache, applies the closing
-rotations of this step (B then A), the edge mask, the per-step observables and the opening
-rotations of the next step (A then B). The rotation angle is linear in r, so the rotors
-cos θ + i sin θ follow a complex-multiply recurrence along r, re-seeded exactly every ``RESEED``
-rows. No kernel allocates; :mod:`tdse.engines.grid` validates, allocates and converts layouts.
+V[i, col] = cent[col]·invr2[i] + coul[i]. The forward sweep forms the right-hand side and eliminates.
+The single-core kernel writes its result y over the state (row i of the right-hand side needs the
+original ψ_{i−1}, ψᵢ, ψ_{i+1}; ψ_{i−1} waits in an L-long scratch row), so no second (N, L) pair is
+streamed; the parallel kernel keeps y in separate arrays ``yr``, ``yi``. A row loop that writes one
+row of an (N, L) array and reads other rows of the same array stays scalar (the compiler hoists its
+overlap test out of the row loop, where it fails; :func:`_forward_columns` is such a loop), so the
+single-core forward sweep writes yᵢ into a scratch row and copies it. The backward sweep
+substitutes and, row by row while the row is in cache, applies the closing rotations of this step
+(B then A), the edge mask, the per-step observables and the opening rotations of the next step
+(A then B). The rotation angle is linear in r, so the rotors cos θ + i sin θ follow a
+complex-multiply recurrence along r, re-seeded exactly every ``RESEED`` rows. No kernel allocates; :mod:`tdse.engines.grid` validates, allocates and converts layouts.
 """
 from __future__ import annotations
 
@@ -138,28 +143,32 @@ def rotate_all(pr, pi, field, h, dr, ca, cb, rot, stp):
 
 
 @njit(cache=True, fastmath=False)
-def _forward_edge_row(pr, pi, yr, yi, wr, wi, i, md_row, dd_row, m_off, d_off, cent, coul, invr2,
-                      tau, inv2mu, col):
-    """Right-hand side and elimination for one column of row 0 or row N−1 (with the edge cases)."""
-    n = pr.shape[0]
+def _forward_edge_row(xmr, xmi, ymr, ymi, x0r, x0i, xpr, xpi, outr, outi, wr, wi, i, n, md_row,
+                      dd_row, m_off, d_off, cent, coul, invr2, tau, inv2mu, col):
+    """Right-hand side and elimination for one column of row 0 or row N−1 (with the edge cases).
+
+    Rows of the state: ``xm`` = ψ_{i−1} (read only if i > 0), ``x0`` = ψᵢ, ``xp`` = ψ_{i+1} (read
+    only if i < n − 1); ``ym`` = y_{i−1}; yᵢ goes to ``out`` (which may be ``x0``: column ``col``
+    of ``x0`` is read before it is written).
+    """
     v = cent[col] * invr2[i] + coul[i]
     dim = -tau * (md_row * v - dd_row * inv2mu)
-    rr = md_row * pr[i, col] - dim * pi[i, col]
-    ri = md_row * pi[i, col] + dim * pr[i, col]
+    rr = md_row * x0r[col] - dim * x0i[col]
+    ri = md_row * x0i[col] + dim * x0r[col]
     if i > 0:
         vm = cent[col] * invr2[i - 1] + coul[i - 1]
         lre = m_off[i - 1]
         lim = -tau * (m_off[i - 1] * vm - d_off[i - 1] * inv2mu)
-        rr += lre * pr[i - 1, col] - lim * pi[i - 1, col] - (lre * yr[i - 1, col] + lim * yi[i - 1, col])
-        ri += lre * pi[i - 1, col] + lim * pr[i - 1, col] - (lre * yi[i - 1, col] - lim * yr[i - 1, col])
+        rr += lre * xmr[col] - lim * xmi[col] - (lre * ymr[col] + lim * ymi[col])
+        ri += lre * xmi[col] + lim * xmr[col] - (lre * ymi[col] - lim * ymr[col])
     if i < n - 1:
         vp = cent[col] * invr2[i + 1] + coul[i + 1]
         ure = m_off[i]
         uim = -tau * (m_off[i] * vp - d_off[i] * inv2mu)
-        rr += ure * pr[i + 1, col] - uim * pi[i + 1, col]
-        ri += ure * pi[i + 1, col] + uim * pr[i + 1, col]
-    yr[i, col] = rr * wr[i, col] - ri * wi[i, col]
-    yi[i, col] = rr * wi[i, col] + ri * wr[i, col]
+        rr += ure * xpr[col] - uim * xpi[col]
+        ri += ure * xpi[col] + uim * xpr[col]
+    outr[col] = rr * wr[i, col] - ri * wi[i, col]
+    outi[col] = rr * wi[i, col] + ri * wr[i, col]
 
 
 @njit(cache=True, fastmath=False)
@@ -167,9 +176,11 @@ def _forward_columns(pr, pi, yr, yi, wr, wi, m_diag, m_off, d_diag, d_off, m_fir
                      coul, invr2, tau, inv2mu, j0, j1):
     """y = L⁻¹ A⁻ ψ for columns j0..j1−1 (all rows)."""
     n = pr.shape[0]
+    i1 = 1 if n > 1 else 0
     for j in range(j0, j1):
-        _forward_edge_row(pr, pi, yr, yi, wr, wi, 0, m_first[j], d_first[j], m_off, d_off, cent,
-                          coul, invr2, tau, inv2mu, j)
+        _forward_edge_row(pr[0], pi[0], yr[0], yi[0], pr[0], pi[0], pr[i1], pi[i1], yr[0], yi[0],
+                          wr, wi, 0, n, m_first[j], d_first[j], m_off, d_off, cent, coul, invr2,
+                          tau, inv2mu, j)
     for i in range(1, n - 1):
         lre = m_off[i - 1]
         la = -tau * lre
@@ -210,9 +221,86 @@ def _forward_columns(pr, pi, yr, yi, wr, wi, m_diag, m_off, d_diag, d_off, m_fir
             yr0[j] = rr * wr0[j] - ri * wi0[j]
             yi0[j] = rr * wi0[j] + ri * wr0[j]
     if n > 1:
+        i = n - 1
         for j in range(j0, j1):
-            _forward_edge_row(pr, pi, yr, yi, wr, wi, n - 1, m_diag[n - 1], d_diag[n - 1], m_off,
-                              d_off, cent, coul, invr2, tau, inv2mu, j)
+            _forward_edge_row(pr[i - 1], pi[i - 1], yr[i - 1], yi[i - 1], pr[i], pi[i], pr[i], pi[i],
+                              yr[i], yi[i], wr, wi, i, n, m_diag[i], d_diag[i], m_off, d_off, cent,
+                              coul, invr2, tau, inv2mu, j)
+
+
+@njit(cache=True, fastmath=False)
+def _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent, coul,
+                     invr2, tau, inv2mu, hr, hi, sr, si):
+    """y = L⁻¹ A⁻ ψ for all columns, written over ψ (the arithmetic of :func:`_forward_columns`).
+
+    When row i is formed, rows > i still hold ψ and rows < i hold y. The row loop reads the
+    state only: ``hr``, ``hi`` (L) carry the original ψ_{i−1}, ``sr``, ``si`` (L) carry y_{i−1} and
+    receive yᵢ, which a second short loop copies into row i. (Written straight into the state, yᵢ
+    would share an array with the rows the loop reads, and the compiler's overlap test, hoisted
+    out of the row loop, would then keep the loop scalar.)
+    """
+    n, nl = pr.shape
+    i1 = 1 if n > 1 else 0
+    x0r = pr[0]
+    x0i = pi[0]
+    for j in range(nl):
+        hr[j] = x0r[j]
+        hi[j] = x0i[j]
+    for j in range(nl):
+        _forward_edge_row(hr, hi, sr, si, hr, hi, pr[i1], pi[i1], sr, si, wr, wi, 0, n,
+                          m_first[j], d_first[j], m_off, d_off, cent, coul, invr2, tau, inv2mu, j)
+    for j in range(nl):
+        x0r[j] = sr[j]
+        x0i[j] = si[j]
+    for i in range(1, n - 1):
+        lre = m_off[i - 1]
+        la = -tau * lre
+        lb = tau * d_off[i - 1] * inv2mu
+        md = m_diag[i]
+        da = -tau * md
+        db = tau * d_diag[i] * inv2mu
+        ure = m_off[i]
+        ua = -tau * ure
+        ub = tau * d_off[i] * inv2mu
+        sm = invr2[i - 1]
+        s0 = invr2[i]
+        sp = invr2[i + 1]
+        km = coul[i - 1]
+        k0 = coul[i]
+        kp = coul[i + 1]
+        xr = pr[i]
+        xi = pi[i]
+        prp = pr[i + 1]
+        pip = pi[i + 1]
+        wr0 = wr[i]
+        wi0 = wi[i]
+        for j in range(nl):
+            cj = cent[j]
+            lim = la * (cj * sm + km) + lb
+            dim = da * (cj * s0 + k0) + db
+            uim = ua * (cj * sp + kp) + ub
+            prm = hr[j]
+            pim = hi[j]
+            yrm = sr[j]
+            yim = si[j]
+            pr0 = xr[j]
+            pi0 = xi[j]
+            rr = (lre * (prm - yrm) - lim * (pim + yim)
+                  + md * pr0 - dim * pi0 + ure * prp[j] - uim * pip[j])
+            ri = (lre * (pim - yim) + lim * (prm + yrm)
+                  + md * pi0 + dim * pr0 + ure * pip[j] + uim * prp[j])
+            hr[j] = pr0
+            hi[j] = pi0
+            sr[j] = rr * wr0[j] - ri * wi0[j]
+            si[j] = rr * wi0[j] + ri * wr0[j]
+        for j in range(nl):
+            xr[j] = sr[j]
+            xi[j] = si[j]
+    if n > 1:
+        i = n - 1
+        for j in range(nl):
+            _forward_edge_row(hr, hi, sr, si, pr[i], pi[i], pr[i], pi[i], pr[i], pi[i], wr, wi, i, n,
+                              m_diag[i], d_diag[i], m_off, d_off, cent, coul, invr2, tau, inv2mu, j)
 
 
 @njit(cache=True, fastmath=False)
@@ -231,13 +319,15 @@ def _row_observables(xr, xi, ne, ca, cb):
 
 
 @njit(cache=True, fastmath=False)
-def propagate_chunk(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_first, d_first,
+def propagate_chunk(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_first, d_first,
                     cent, coul, invr2, tau, inv2mu, dr, ca, cb, fields, mask, i_abs, carry, rot,
                     stp, out):
     """Advance the state (``pr``, ``pi``) by ``len(fields)`` Strang steps (dt = 2τ) with mid-step
     fields ``fields``; the state is the true one on entry and on exit.
 
-    ``yr``, ``yi`` (like the state), ``carry`` (2, L), ``rot``, ``stp`` (8, P) are scratch. After
+    ``carry`` (6, L), ``rot``, ``stp`` (8, P) are scratch; y of the forward sweep lives in the
+    state arrays between the two sweeps (:func:`_forward_inplace`), bit for bit the y of
+    :func:`_forward_columns`. After
     step k the state is multiplied by ``mask`` (rows ≥ ``i_abs``) and ``out[k]`` receives
     (norm, ⟨r cosθ⟩, ⟨cosθ/r²⟩) of the masked state, ⟨f⟩ = Σᵢ f(rᵢ) Σ_l 2c_l Re(u*_{i,l} u_{i,l+1}).
     """
@@ -250,8 +340,9 @@ def propagate_chunk(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off
         return
     rotate_all(pr, pi, fields[0], h, dr, ca, cb, rot, stp)
     for k in range(nsteps):
-        _forward_columns(pr, pi, yr, yi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first,
-                         cent, coul, invr2, tau, inv2mu, 0, nl)
+        _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent,
+                         coul, invr2, tau, inv2mu, carry[2], carry[3], carry[4],
+                         carry[5])
         e_now = fields[k]
         last = k == nsteps - 1
         e_next = 0.0 if last else fields[k + 1]
@@ -272,15 +363,13 @@ def propagate_chunk(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off
             ri = (i + 1) * dr
             xr = pr[i]
             xi = pi[i]
-            y0r = yr[i]
-            y0i = yi[i]
             c0r = cr[i]
             c0i = ci[i]
             for j in range(nl):
                 ar = car[j]
                 ai = cai[j]
-                vr = y0r[j] - (c0r[j] * ar - c0i[j] * ai)
-                vi = y0i[j] - (c0r[j] * ai + c0i[j] * ar)
+                vr = xr[j] - (c0r[j] * ar - c0i[j] * ai)
+                vi = xi[j] - (c0r[j] * ai + c0i[j] * ar)
                 car[j] = vr
                 cai[j] = vi
                 xr[j] = vr
