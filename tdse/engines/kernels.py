@@ -100,20 +100,28 @@ def _steps(sc, ss, field, h, dr, c):
 @njit(cache=True, fastmath=False)
 def _rotate(xr, xi, lo, hi, m, rc, rs, sc, ss):
     """(a, b) → (c a − i s b, −i s a + c b) for a = x[lo + p], b = x[hi + p], p < m, with the
-    rotor c + i s = rc[p] + i rs[p]; then rotor ← rotor·(sc[p] + i ss[p]) (one row inward)."""
+    rotor c + i s = rc[p] + i rs[p]; then rotor ← rotor·(sc[p] + i ss[p]) (one row inward).
+
+    Slices indexed from 0 spare the negative-index test of x[lo + p]; the rotor update runs as
+    a loop of its own."""
+    ar_ = xr[lo:lo + m]
+    ai_ = xi[lo:lo + m]
+    br_ = xr[hi:hi + m]
+    bi_ = xi[hi:hi + m]
     for p in range(m):
         c = rc[p]
         s = rs[p]
-        a = p + lo
-        b = p + hi
-        ar = xr[a]
-        ai = xi[a]
-        br = xr[b]
-        bi = xi[b]
-        xr[a] = c * ar + s * bi
-        xi[a] = c * ai - s * br
-        xr[b] = c * br + s * ai
-        xi[b] = c * bi - s * ar
+        ar = ar_[p]
+        ai = ai_[p]
+        br = br_[p]
+        bi = bi_[p]
+        ar_[p] = c * ar + s * bi
+        ai_[p] = c * ai - s * br
+        br_[p] = c * br + s * ai
+        bi_[p] = c * bi - s * ar
+    for p in range(m):
+        c = rc[p]
+        s = rs[p]
         rc[p] = c * sc[p] - s * ss[p]
         rs[p] = c * ss[p] + s * sc[p]
 
