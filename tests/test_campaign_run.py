@@ -282,10 +282,8 @@ def test_reference_campaign_is_complete(reference):
     np.testing.assert_allclose(reference["norm"].values, 1.0, atol=1e-6)
 
 
-def test_sigkill_midway_then_resume(tmp_path, reference):
-    cfg_path = tmp_path / "kestrel_scan.toml"
-    cfg_path.write_text(tomli_w.dumps(_levels_config()))
-    folder = tmp_path / "killed"
+def _scan_then_sigkill(cfg_path, folder, ready):
+    """Start `tdse scan` in a subprocess, wait until ``ready()``, then SIGKILL it and its workers."""
     env = {**os.environ, "OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"}
     proc = subprocess.Popen([sys.executable, "-m", "tdse", "scan", str(cfg_path), "--out", str(folder),
                              "--workers", "1", "--no-progress"], cwd=REPO, env=env,
@@ -293,13 +291,21 @@ def test_sigkill_midway_then_resume(tmp_path, reference):
     deadline = time.monotonic() + 180
     try:
         while time.monotonic() < deadline and proc.poll() is None:
-            if any(is_complete(p) for p in (folder / "jobs").glob("*.h5")):
+            if ready():
                 break
             time.sleep(0.02)
         assert proc.poll() is None, proc.stderr.read().decode()
     finally:
         os.killpg(proc.pid, signal.SIGKILL)                  # the scan and its workers
         proc.wait()
+
+
+def test_sigkill_midway_then_resume(tmp_path, reference):
+    cfg_path = tmp_path / "kestrel_scan.toml"
+    cfg_path.write_text(tomli_w.dumps(_levels_config()))
+    folder = tmp_path / "killed"
+    _scan_then_sigkill(cfg_path, folder,
+                       lambda: any(is_complete(p) for p in (folder / "jobs").glob("*.h5")))
     survivors = {p.name: p.stat().st_ino for p in (folder / "jobs").glob("*.h5") if is_complete(p)}
     assert 1 <= len(survivors) < 6
     tdse.scan(cfg_path, folder, workers=1, progress=False)
@@ -345,21 +351,12 @@ def test_killed_grid_job_resumes_from_its_checkpoint(tmp_path):
     cfg_path = tmp_path / "kestrel_grid.toml"
     cfg_path.write_text(tomli_w.dumps(cfg))
     folder = tmp_path / "grid"
-    env = {**os.environ, "OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"}
-    proc = subprocess.Popen([sys.executable, "-m", "tdse", "scan", str(cfg_path), "--out", str(folder),
-                             "--workers", "1", "--no-progress"], cwd=REPO, env=env,
-                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, start_new_session=True)
-    deadline = time.monotonic() + 180
-    try:
-        while time.monotonic() < deadline and proc.poll() is None:
-            files = list((folder / "jobs").glob("*.h5"))
-            if files and store.job_state(folder, files[0].stem).status == store.CHECKPOINTED:
-                break
-            time.sleep(0.02)
-        assert proc.poll() is None, proc.stderr.read().decode()
-    finally:
-        os.killpg(proc.pid, signal.SIGKILL)
-        proc.wait()
+
+    def checkpointed():
+        files = list((folder / "jobs").glob("*.h5"))
+        return bool(files) and store.job_state(folder, files[0].stem).status == store.CHECKPOINTED
+
+    _scan_then_sigkill(cfg_path, folder, checkpointed)
     tdse.scan(cfg_path, folder, workers=1, progress=False)
     (job_file,) = (folder / "jobs").glob("*.h5")
     resumed = tdse.open_result(job_file)
