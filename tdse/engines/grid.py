@@ -373,18 +373,16 @@ class _Stepper:
         self.pr, self.pi = np.zeros(shape), np.zeros(shape)
         self.threads = threads
         p = max(1, self.ca.size, self.cb.size)
-        if threads == 1:                              # the fused kernel sweeps in place
+        self.stp = np.zeros((8, p))
+        if threads == 1:
             self.carry = np.zeros((6, n_l))
             self.rot = np.zeros((8, p))
-            self.stp = np.zeros((8, p))
         else:
             self.cblock = -(-n_l // threads)          # one block of partial waves per thread
             self.rblock = 64
             nrb = -(-n // self.rblock)
-            self.yr, self.yi = np.zeros(shape), np.zeros(shape)
-            self.carry = np.zeros((-(-n_l // self.cblock), 2, self.cblock))
+            self.carry = np.zeros((-(-n_l // self.cblock), 6, self.cblock))
             self.rot = np.zeros((nrb, 8, p))
-            self.stp = np.zeros((nrb, 8, p))
 
     def refactor(self):
         """(Re)compute the Thomas factors from the arrays in ``self.a`` and ``self.tau``."""
@@ -424,8 +422,8 @@ class _Stepper:
 
             numba.set_num_threads(min(self.threads, numba.config.NUMBA_NUM_THREADS))
             partial = np.zeros((fields.size, self.rot.shape[0], 3))
-            self.kernels.propagate_chunk_parallel(self.pr, self.pi, self.yr, self.yi, *args, partial,
-                                                  self.cblock, self.rblock)
+            self.kernels.propagate_chunk_parallel(self.pr, self.pi, *args, partial, self.cblock,
+                                                  self.rblock)
             self.kernels.reduce_partial(partial, out)
 
 

@@ -19,12 +19,11 @@ One time step of length dt at mid-step field E (Strang splitting, second order i
 A⁺ = M(1 + iτV) − iτΔ/2μ is field free: its Thomas factors (``w`` = 1/b′, ``cp`` = c′ per row and
 column) are computed once (:func:`cn_factorize`); A⁻ = conj(A⁺) is formed on the fly from
 V[i, col] = cent[col]·invr2[i] + coul[i]. The forward sweep forms the right-hand side and eliminates.
-The single-core kernel writes its result y over the state (row i of the right-hand side needs the
-original ψ_{i−1}, ψᵢ, ψ_{i+1}; ψ_{i−1} waits in an L-long scratch row), so no second (N, L) pair is
-streamed; the parallel kernel keeps y in separate arrays ``yr``, ``yi``. A row loop that writes one
-row of an (N, L) array and reads other rows of the same array stays scalar (the compiler hoists its
-overlap test out of the row loop, where it fails; :func:`_forward_columns` is such a loop), so the
-single-core forward sweep writes yᵢ into a scratch row and copies it. The backward sweep
+Both kernels write the result y over the state (row i of the right-hand side needs the original
+ψ_{i−1}, ψᵢ, ψ_{i+1}; ψ_{i−1} waits in a scratch row), so no second (N, L) pair is streamed. A row
+loop that writes one row of an (N, L) array and reads other rows of the same array stays scalar
+(the compiler hoists its overlap test out of the row loop, where it fails), so the forward sweep
+writes yᵢ into a scratch row and copies it (:func:`_forward_inplace`). The backward sweep
 substitutes and, row by row while the row is in cache, applies the closing rotations of this step
 (B then A), the edge mask, the per-step observables and the opening rotations of the next step
 (A then B). The rotation angle is linear in r, so the rotors cos θ + i sin θ follow a
@@ -180,84 +179,35 @@ def _forward_edge_row(xmr, xmi, ymr, ymi, x0r, x0i, xpr, xpi, outr, outi, wr, wi
 
 
 @njit(cache=True, fastmath=False)
-def _forward_columns(pr, pi, yr, yi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent,
-                     coul, invr2, tau, inv2mu, j0, j1):
-    """y = L⁻¹ A⁻ ψ for columns j0..j1−1 (all rows)."""
-    n = pr.shape[0]
-    i1 = 1 if n > 1 else 0
-    for j in range(j0, j1):
-        _forward_edge_row(pr[0], pi[0], yr[0], yi[0], pr[0], pi[0], pr[i1], pi[i1], yr[0], yi[0],
-                          wr, wi, 0, n, m_first[j], d_first[j], m_off, d_off, cent, coul, invr2,
-                          tau, inv2mu, j)
-    for i in range(1, n - 1):
-        lre = m_off[i - 1]
-        la = -tau * lre
-        lb = tau * d_off[i - 1] * inv2mu
-        md = m_diag[i]
-        da = -tau * md
-        db = tau * d_diag[i] * inv2mu
-        ure = m_off[i]
-        ua = -tau * ure
-        ub = tau * d_off[i] * inv2mu
-        sm = invr2[i - 1]
-        s0 = invr2[i]
-        sp = invr2[i + 1]
-        km = coul[i - 1]
-        k0 = coul[i]
-        kp = coul[i + 1]
-        prm = pr[i - 1]
-        pim = pi[i - 1]
-        pr0 = pr[i]
-        pi0 = pi[i]
-        prp = pr[i + 1]
-        pip = pi[i + 1]
-        yrm = yr[i - 1]
-        yim = yi[i - 1]
-        yr0 = yr[i]
-        yi0 = yi[i]
-        wr0 = wr[i]
-        wi0 = wi[i]
-        for j in range(j0, j1):
-            cj = cent[j]
-            lim = la * (cj * sm + km) + lb
-            dim = da * (cj * s0 + k0) + db
-            uim = ua * (cj * sp + kp) + ub
-            rr = (lre * (prm[j] - yrm[j]) - lim * (pim[j] + yim[j])
-                  + md * pr0[j] - dim * pi0[j] + ure * prp[j] - uim * pip[j])
-            ri = (lre * (pim[j] - yim[j]) + lim * (prm[j] + yrm[j])
-                  + md * pi0[j] + dim * pr0[j] + ure * pip[j] + uim * prp[j])
-            yr0[j] = rr * wr0[j] - ri * wi0[j]
-            yi0[j] = rr * wi0[j] + ri * wr0[j]
-    if n > 1:
-        i = n - 1
-        for j in range(j0, j1):
-            _forward_edge_row(pr[i - 1], pi[i - 1], yr[i - 1], yi[i - 1], pr[i], pi[i], pr[i], pi[i],
-                              yr[i], yi[i], wr, wi, i, n, m_diag[i], d_diag[i], m_off, d_off, cent,
-                              coul, invr2, tau, inv2mu, j)
-
-
-@njit(cache=True, fastmath=False)
 def _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent, coul,
-                     invr2, tau, inv2mu, hr, hi, sr, si):
-    """y = L⁻¹ A⁻ ψ for all columns, written over ψ (the arithmetic of :func:`_forward_columns`).
+                     invr2, tau, inv2mu, j0, j1, hr, hi, sr, si):
+    """y = L⁻¹ A⁻ ψ for columns j0..j1−1 (all rows), written over ψ in those columns.
 
     When row i is formed, rows > i still hold ψ and rows < i hold y. The row loop reads the
-    state only: ``hr``, ``hi`` (L) carry the original ψ_{i−1}, ``sr``, ``si`` (L) carry y_{i−1} and
-    receive yᵢ, which a second short loop copies into row i. (Written straight into the state, yᵢ
-    would share an array with the rows the loop reads, and the compiler's overlap test, hoisted
-    out of the row loop, would then keep the loop scalar.)
+    state only: ``hr``, ``hi`` (≥ j1 − j0 long) carry the original ψ_{i−1}, ``sr``, ``si`` carry
+    y_{i−1} and receive yᵢ, which a second short loop copies into row i. (Written straight into
+    the state, yᵢ would share an array with the rows the loop reads, and the compiler's overlap
+    test, hoisted out of the row loop, would then keep the loop scalar.) Rows are taken as
+    slices pr[i, j0:j1], so the inner loops index from 0 over contiguous memory.
     """
-    n, nl = pr.shape
+    n = pr.shape[0]
+    m = j1 - j0
     i1 = 1 if n > 1 else 0
-    x0r = pr[0]
-    x0i = pi[0]
-    for j in range(nl):
+    cen = cent[j0:j1]
+    wrb = wr[:, j0:j1]
+    wib = wi[:, j0:j1]
+    x0r = pr[0, j0:j1]
+    x0i = pi[0, j0:j1]
+    for j in range(m):
         hr[j] = x0r[j]
         hi[j] = x0i[j]
-    for j in range(nl):
-        _forward_edge_row(hr, hi, sr, si, hr, hi, pr[i1], pi[i1], sr, si, wr, wi, 0, n,
-                          m_first[j], d_first[j], m_off, d_off, cent, coul, invr2, tau, inv2mu, j)
-    for j in range(nl):
+    xpr = pr[i1, j0:j1]
+    xpi = pi[i1, j0:j1]
+    for j in range(m):
+        _forward_edge_row(hr, hi, sr, si, hr, hi, xpr, xpi, sr, si, wrb, wib, 0, n,
+                          m_first[j0 + j], d_first[j0 + j], m_off, d_off, cen, coul, invr2, tau,
+                          inv2mu, j)
+    for j in range(m):
         x0r[j] = sr[j]
         x0i[j] = si[j]
     for i in range(1, n - 1):
@@ -276,14 +226,14 @@ def _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_fi
         km = coul[i - 1]
         k0 = coul[i]
         kp = coul[i + 1]
-        xr = pr[i]
-        xi = pi[i]
-        prp = pr[i + 1]
-        pip = pi[i + 1]
-        wr0 = wr[i]
-        wi0 = wi[i]
-        for j in range(nl):
-            cj = cent[j]
+        xr = pr[i, j0:j1]
+        xi = pi[i, j0:j1]
+        prp = pr[i + 1, j0:j1]
+        pip = pi[i + 1, j0:j1]
+        wr0 = wr[i, j0:j1]
+        wi0 = wi[i, j0:j1]
+        for j in range(m):
+            cj = cen[j]
             lim = la * (cj * sm + km) + lb
             dim = da * (cj * s0 + k0) + db
             uim = ua * (cj * sp + kp) + ub
@@ -301,14 +251,16 @@ def _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_fi
             hi[j] = pi0
             sr[j] = rr * wr0[j] - ri * wi0[j]
             si[j] = rr * wi0[j] + ri * wr0[j]
-        for j in range(nl):
+        for j in range(m):
             xr[j] = sr[j]
             xi[j] = si[j]
     if n > 1:
         i = n - 1
-        for j in range(nl):
-            _forward_edge_row(hr, hi, sr, si, pr[i], pi[i], pr[i], pi[i], pr[i], pi[i], wr, wi, i, n,
-                              m_diag[i], d_diag[i], m_off, d_off, cent, coul, invr2, tau, inv2mu, j)
+        xr = pr[i, j0:j1]
+        xi = pi[i, j0:j1]
+        for j in range(m):
+            _forward_edge_row(hr, hi, sr, si, xr, xi, xr, xi, xr, xi, wrb, wib, i, n, m_diag[i],
+                              d_diag[i], m_off, d_off, cen, coul, invr2, tau, inv2mu, j)
 
 
 @njit(cache=True, fastmath=False)
@@ -334,9 +286,7 @@ def propagate_chunk(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_firs
     fields ``fields``; the state is the true one on entry and on exit.
 
     ``carry`` (6, L), ``rot``, ``stp`` (8, P) are scratch; y of the forward sweep lives in the
-    state arrays between the two sweeps (:func:`_forward_inplace`), bit for bit the y of
-    :func:`_forward_columns`. After
-    step k the state is multiplied by ``mask`` (rows ≥ ``i_abs``) and ``out[k]`` receives
+    state arrays between the two sweeps (:func:`_forward_inplace`). After step k the state is multiplied by ``mask`` (rows ≥ ``i_abs``) and ``out[k]`` receives
     (norm, ⟨r cosθ⟩, ⟨cosθ/r²⟩) of the masked state, ⟨f⟩ = Σᵢ f(rᵢ) Σ_l 2c_l Re(u*_{i,l} u_{i,l+1}).
     """
     n, nl = pr.shape
@@ -349,8 +299,7 @@ def propagate_chunk(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_firs
     rotate_all(pr, pi, fields[0], h, dr, ca, cb, rot, stp)
     for k in range(nsteps):
         _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent,
-                         coul, invr2, tau, inv2mu, carry[2], carry[3], carry[4],
-                         carry[5])
+                         coul, invr2, tau, inv2mu, 0, nl, carry[2], carry[3], carry[4], carry[5])
         e_now = fields[k]
         last = k == nsteps - 1
         e_next = 0.0 if last else fields[k + 1]
@@ -409,18 +358,20 @@ def propagate_chunk(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_firs
 
 
 @njit(cache=True, fastmath=False, parallel=True)
-def propagate_chunk_parallel(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_first,
+def propagate_chunk_parallel(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_first,
                              d_first, cent, coul, invr2, tau, inv2mu, dr, ca, cb, fields, mask, i_abs,
                              carry, rot, stp, partial, cblock, rblock):
     """The steps of :func:`propagate_chunk`, unfused, for several threads. ``partial[k, b]``
     (shape (nsteps, n_rblocks, 3)) receives row block b's share of step k's (norm, ⟨r cosθ⟩,
     ⟨cosθ/r²⟩); :func:`reduce_partial` adds the shares.
 
-    Per step: Crank–Nicolson for blocks of ``cblock`` columns in parallel (``carry`` (n_cblocks,
-    2, cblock) scratch), then closing rotations, mask, observables and the next opening rotations
-    for blocks of ``rblock`` rows in parallel, each block seeding its rotors exactly at its first
-    row (``rot``, ``stp``: (n_rblocks, 8, P) scratch). Sums are reduced in a fixed order, so the
-    result does not depend on the number of threads.
+    Per step: Crank–Nicolson for blocks of ``cblock`` columns in parallel, each block sweeping
+    in place like :func:`propagate_chunk` (``carry`` (n_cblocks, 6, cblock) scratch: the carry of
+    the backward sweep and the scratch rows of :func:`_forward_inplace`), then closing rotations,
+    mask, observables and the next opening rotations for blocks of ``rblock`` rows in parallel,
+    each block seeding its rotors exactly at its first row (``rot`` (n_rblocks, 8, P) scratch;
+    the rotor steps ``stp`` (8, P) are formed once per step and shared). Sums are reduced in a
+    fixed order, so the result does not depend on the number of threads.
     """
     n, nl = pr.shape
     ne = (nl + 1) // 2
@@ -429,25 +380,27 @@ def propagate_chunk_parallel(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_di
     h = tau
     ncb = (nl + cblock - 1) // cblock
     nrb = (n + rblock - 1) // rblock
+    st = stp
     for k in range(nsteps + 1):
+        if k > 0:                 # rotor steps: the same for every row block, formed once
+            _steps(st[0], st[1], fields[k - 1], h, dr, cb)
+            _steps(st[2], st[3], fields[k - 1], h, dr, ca)
+        if k < nsteps:
+            _steps(st[4], st[5], fields[k], h, dr, ca)
+            _steps(st[6], st[7], fields[k], h, dr, cb)
         for rb in prange(nrb):
             i1 = min(n, (rb + 1) * rblock)
             i0 = rb * rblock
             rt = rot[rb]
-            st = stp[rb]
             pn = 0.0
             pz = 0.0
             pc = 0.0
             if k > 0:
                 e = fields[k - 1]
-                _steps(st[0], st[1], e, h, dr, cb)
-                _steps(st[2], st[3], e, h, dr, ca)
                 _seed(rt[0], rt[1], e, h, i1 * dr, cb)
                 _seed(rt[2], rt[3], e, h, i1 * dr, ca)
             if k < nsteps:
                 e = fields[k]
-                _steps(st[4], st[5], e, h, dr, ca)
-                _steps(st[6], st[7], e, h, dr, cb)
                 _seed(rt[4], rt[5], e, h, i1 * dr, ca)
                 _seed(rt[6], rt[7], e, h, i1 * dr, cb)
             for i in range(i1 - 1, i0 - 1, -1):
@@ -457,9 +410,10 @@ def propagate_chunk_parallel(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_di
                     _rotate(xr, xi, ne, 1, nb, rt[0], rt[1], st[0], st[1])
                     _rotate(xr, xi, 0, ne, na, rt[2], rt[3], st[2], st[3])
                     if i >= i_abs:
+                        mk = mask[i]
                         for j in range(nl):
-                            xr[j] *= mask[i]
-                            xi[j] *= mask[i]
+                            xr[j] *= mk
+                            xi[j] *= mk
                     rn, rz = _row_observables(xr, xi, ne, ca, cb)
                     pn += rn
                     pz += (i + 1) * dr * rz
@@ -476,22 +430,29 @@ def propagate_chunk_parallel(pr, pi, yr, yi, wr, wi, cr, ci, m_diag, m_off, d_di
         for cb_ in prange(ncb):
             j0 = cb_ * cblock
             j1 = min(nl, j0 + cblock)
-            _forward_columns(pr, pi, yr, yi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first,
-                             cent, coul, invr2, tau, inv2mu, j0, j1)
+            m = j1 - j0
             cy = carry[cb_]
-            for j in range(j1 - j0):
-                cy[0, j] = 0.0
-                cy[1, j] = 0.0
+            _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent,
+                             coul, invr2, tau, inv2mu, j0, j1, cy[2], cy[3], cy[4], cy[5])
+            car = cy[0]
+            cai = cy[1]
+            for j in range(m):
+                car[j] = 0.0
+                cai[j] = 0.0
             for i in range(n - 1, -1, -1):
-                for j in range(j0, j1):
-                    ar = cy[0, j - j0]
-                    ai = cy[1, j - j0]
-                    vr = yr[i, j] - (cr[i, j] * ar - ci[i, j] * ai)
-                    vi = yi[i, j] - (cr[i, j] * ai + ci[i, j] * ar)
-                    cy[0, j - j0] = vr
-                    cy[1, j - j0] = vi
-                    pr[i, j] = vr
-                    pi[i, j] = vi
+                xr = pr[i, j0:j1]
+                xi = pi[i, j0:j1]
+                c0r = cr[i, j0:j1]
+                c0i = ci[i, j0:j1]
+                for j in range(m):
+                    ar = car[j]
+                    ai = cai[j]
+                    vr = xr[j] - (c0r[j] * ar - c0i[j] * ai)
+                    vi = xi[j] - (c0r[j] * ai + c0i[j] * ar)
+                    car[j] = vr
+                    cai[j] = vi
+                    xr[j] = vr
+                    xi[j] = vi
 
 
 @njit(cache=True, fastmath=False)
