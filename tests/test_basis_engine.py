@@ -11,7 +11,7 @@ from tdse.atom.dipoles import dipole_matrix_element
 from tdse.basis.eigenbasis import build_basis
 from tdse.campaign.config import OutputConfig
 from tdse.engines import route_module, settings_for
-from tdse.engines.eigenbasis import MagnusPropagator, Settings, lanczos_expm, propagate
+from tdse.engines.eigenbasis import BlockProduct, MagnusPropagator, Settings, lanczos_expm, propagate
 from tdse.errors import InputError
 from tdse.pulse import Pulse
 
@@ -42,6 +42,19 @@ def test_lanczos_matches_dense_exponential():
     assert m < 40
 
 
+def test_block_product_equals_scipy_csr_product_and_declines_other_structures():
+    basis = build_basis(H, r_max=30.0, dr=0.2, l_max=3, e_max=2.0)
+    prod = BlockProduct.from_sparse(basis.dipole, basis.l)
+    assert prod is not None
+    rng = np.random.default_rng(5)
+    v = rng.normal(size=basis.size) + 1j * rng.normal(size=basis.size)
+    ref = basis.dipole.astype(complex).tocsr() @ v                     # scipy CSR reference
+    np.testing.assert_allclose(prod(v), ref, rtol=0, atol=1e-12 * np.abs(ref).max())
+    assert BlockProduct.from_sparse(basis.velocity_dipole(), basis.l) is None      # not real
+    assert BlockProduct.from_sparse(basis.dipole, basis.l[::-1]) is None           # groups not sorted
+    assert BlockProduct.from_sparse(basis.dipole + basis.dipole @ basis.dipole, basis.l) is None  # l ↔ l, l ± 2
+
+
 def test_magnus_matches_dop853_on_same_matrix():
     basis = build_basis(H, r_max=30.0, dr=0.2, l_max=2, e_max=2.0)
     pulse = Pulse({"photon_energy": 0.3, "peak_field": 0.03, "cycles": 3})
@@ -53,9 +66,10 @@ def test_magnus_matches_dop853_on_same_matrix():
         return -1j * (E * y + pulse.field_z(np.array([t]))[0] * (D @ y))
 
     ref = solve_ivp(rhs, (pulse.t_start, pulse.t_end), c0, method="DOP853", rtol=1e-12, atol=1e-13).y[:, -1]
-    prop = MagnusPropagator(E, basis.dipole, pulse.field_z, 1e-10)
-    c, _, _ = prop.advance(c0, pulse.t_start, pulse.t_end, 1.0)
-    assert np.linalg.norm(c - ref) < 1e-7
+    for groups in (None, basis.l):                       # complex CSR and l-block products
+        prop = MagnusPropagator(E, basis.dipole, pulse.field_z, 1e-10, groups=groups)
+        c, _, _ = prop.advance(c0, pulse.t_start, pulse.t_end, 1.0)
+        assert np.linalg.norm(c - ref) < 1e-7
     assert 1 - abs(ref[basis.index("1s")]) ** 2 > 1e-3
 
 

@@ -14,9 +14,12 @@ exponentials exp(−ih Σ_m G_im H(t + c_m h)) at Gauss–Legendre nodes c_m; ``
 with s_j = s(t + (1/2 ∓ √3/6)h). The observed orders (4 and 6) are checked in the tests.
 Each exponential acts through a Lanczos process with full reorthogonalisation whose dimension
 grows until Saad's a-posteriori estimate β_m |(e^{−ihT_m})_{m1}| (SIAM J. Numer. Anal. 29, 209
-(1992)) is below tolerance/10. Step size: every few steps a checked pair (two steps of h against
-one of 2h; local error ≈ ‖difference‖/(2^p − 1) for order p) keeps the error per step below
-``tolerance`` (amplitude norm) and sets h ∝ (tolerance/error)^(1/(p+1)); failed pairs are redone.
+(1992)) is below tolerance/10 (checked at every dimension m ≥ 4). With the states grouped by l,
+the length-form dipole, which couples only l ↔ l ± 1, is applied as dense real blocks
+(:class:`BlockProduct`); other couplings as a complex CSR product. Step size: every few steps a
+checked pair (two steps of h against one of 2h; local error ≈ ‖difference‖/(2^p − 1) for order
+p) keeps the error per step below ``tolerance`` (amplitude norm) and sets
+h ∝ (tolerance/error)^(1/(p+1)); failed pairs are redone.
 
 Results: populations of bound states by label (m-resolved and level) for n up to the last n whose
 states all lie within 1e-3 of −Z²μ/(2n²) (higher, wall-distorted box states only as the sum
@@ -126,8 +129,8 @@ class KrylovFailure(RuntimeError):
 def lanczos_expm(matvec, v: np.ndarray, h: float, tol: float, m_max: int = 60) -> tuple[np.ndarray, int]:
     """exp(−i h H) v for Hermitian H given by ``matvec``; returns (result, Krylov dimension).
 
-    Lanczos with full reorthogonalisation; stops when Saad's estimate β_m |(e^{−ihT_m})_{m1}|·‖v‖
-    is below ``tol`` (Saad, SIAM J. Numer. Anal. 29, 209 (1992)).
+    Lanczos with full reorthogonalisation; stops at the first dimension m ≥ 4 where Saad's estimate
+    β_m |(e^{−ihT_m})_{m1}|·‖v‖ is below ``tol`` (Saad, SIAM J. Numer. Anal. 29, 209 (1992)).
 
     >>> H = np.diag([0.0, 1.0, 2.0]) + 0.1 * (np.eye(3, k=1) + np.eye(3, k=-1))
     >>> from scipy.linalg import expm
@@ -151,10 +154,10 @@ def lanczos_expm(matvec, v: np.ndarray, h: float, tol: float, m_max: int = 60) -
         w = w - alpha[j] * V[j]
         if j:
             w -= beta[j - 1] * V[j - 1]
-        w -= V[:j + 1].T @ (V[:j + 1].conj() @ w)         # full reorthogonalisation
+        w -= V[:j + 1].T @ (V[:j + 1] @ w.conj()).conj()  # full reorthogonalisation, V^H w = conj(V w*)
         beta[j] = np.linalg.norm(w)
         m = j + 1
-        if m == v.size or beta[j] <= 1e-14 or m % 3 == 0 or m == m_max:
+        if m == v.size or beta[j] <= 1e-14 or m >= 4 or m == m_max:
             theta, q = eigh_tridiagonal(alpha[:m], beta[:m - 1])
             y = q @ (np.exp(-1j * h * theta) * q[0])
             if beta[j] * abs(y[-1]) * norm0 < tol or beta[j] <= 1e-14 or m == v.size:
@@ -189,19 +192,81 @@ def _schemes() -> dict:
 SCHEMES = _schemes()
 
 
+class BlockProduct:
+    """v ↦ B v for a real symmetric B that couples only neighbouring groups of states.
+
+    With the states sorted by group g (the partial wave l for the dipole, which couples only
+    l ↔ l ± 1), B consists of the dense blocks B[g, g+1] and their transposes, so
+
+        (B v)_g = B[g, g+1] v_{g+1} + B[g−1, g]ᵀ v_{g−1}.
+
+    Only the upper blocks are stored, real and without indices: a product reads each stored element
+    (8 bytes) twice, once per triangle, where a complex CSR product reads 2 × 20 bytes (value and
+    column index of both triangles). The real and imaginary parts of v go through a block together
+    as an (n, 2) real array (one BLAS matrix–matrix product).
+    ``from_sparse`` returns None when B does not have this structure.
+
+    >>> import scipy.sparse as sp
+    >>> B = sp.csr_matrix(np.array([[0, 1, 2, 0], [1, 0, 0, 3], [2, 0, 0, 4], [0, 3, 4, 0.0]]))
+    >>> prod = BlockProduct.from_sparse(B, np.array([0, 1, 1, 2]))
+    >>> v = np.array([1, 2j, 3, 4 + 1j])
+    >>> bool(np.allclose(prod(v), B @ v))
+    True
+    """
+
+    def __init__(self, starts: np.ndarray, blocks: list[np.ndarray]):
+        self.starts = starts
+        self.blocks = blocks
+
+    @classmethod
+    def from_sparse(cls, B, groups) -> "BlockProduct | None":
+        groups = np.asarray(groups)
+        B = B.tocoo()
+        if B.shape != (groups.size,) * 2 or np.any(np.diff(groups) < 0):
+            return None
+        if np.iscomplexobj(B.data):
+            if np.any(B.data.imag != 0):
+                return None
+            B = B.real
+        values, rank = np.unique(groups, return_inverse=True)
+        if np.any(np.abs(rank[B.row] - rank[B.col]) != 1) or (B != B.T).nnz:
+            return None
+        starts = np.searchsorted(groups, values, side="left").tolist() + [groups.size]
+        B = B.tocsr()
+        blocks = [np.ascontiguousarray(B[starts[g]:starts[g + 1], starts[g + 1]:starts[g + 2]].toarray())
+                  for g in range(values.size - 1)]
+        return cls(np.array(starts), blocks)
+
+    def __call__(self, v: np.ndarray) -> np.ndarray:
+        x = np.ascontiguousarray(v, dtype=complex).view(float).reshape(v.size, 2)
+        y = np.zeros_like(x)
+        s = self.starts
+        for g, block in enumerate(self.blocks):
+            y[s[g]:s[g + 1]] += block @ x[s[g + 1]:s[g + 2]]
+            y[s[g + 1]:s[g + 2]] += block.T @ x[s[g]:s[g + 1]]
+        return y.view(complex).ravel()
+
+
 class MagnusPropagator:
     """Commutator-free Magnus + Lanczos for i dc/dt = (diag(E) + s(t)·B) c.
 
     ``B`` is a Hermitian sparse matrix (z in the length form, p_z in the velocity form);
     ``drive(t)`` returns s at an array of times; ``scheme`` "cf6" (order 6, five exponentials)
-    or "cf4" (order 4, two). ``matvecs`` counts products with B.
+    or "cf4" (order 4, two). ``matvecs`` counts products with B. With ``groups`` (the group of each
+    state, e.g. its l) a real symmetric B coupling only neighbouring groups is applied by
+    :class:`BlockProduct`; otherwise (or when B lacks that structure) by a complex CSR product.
     See the module docstring for the schemes and the error control.
     """
 
     def __init__(self, energies, B, drive, tolerance: float, max_step: float | None = None,
-                 scheme: str = "cf6", check_every: int = 8):
+                 scheme: str = "cf6", check_every: int = 8, groups=None):
         self.E = np.asarray(energies, dtype=float)
-        self.B = B.astype(complex).tocsr()      # complex CSR: the fastest sparse product with complex c
+        blocks = None if groups is None else BlockProduct.from_sparse(B, groups)
+        if blocks is None:
+            csr = B.astype(complex).tocsr()
+            self._product = csr.__matmul__
+        else:
+            self._product = blocks
         self.drive = drive
         self.tol = tolerance
         self.max_step = max_step
@@ -213,7 +278,7 @@ class MagnusPropagator:
 
     def _apply_B(self, v: np.ndarray) -> np.ndarray:
         self.matvecs += 1
-        return self.B @ v
+        return self._product(v)
 
     def step(self, c: np.ndarray, t: float, h: float) -> np.ndarray:
         """One step t → t + h: Π_i exp(−ih Σ_m G[i, m] H(t + c_m h)) c (rightmost i = 0 first)."""
@@ -332,7 +397,7 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
         def drive(t):
             return pulse.vector_potential_z(t) / basis.mu
     prop = MagnusPropagator(basis.energies, coupling, drive, settings.tolerance, settings.max_step,
-                            scheme=settings.scheme)
+                            scheme=settings.scheme, groups=basis.l)
 
     t0, t1 = pulse.t_start, pulse.t_end
     every = None if output.every is None else to_au(output.every, "time", name="output.every")
