@@ -95,6 +95,11 @@ class OutputConfig(_Section):
             raise ValueError(f"`output.every` must be a time > 0, got {value!r}")
         return value
 
+    @property
+    def every_au(self) -> float | None:
+        """``every`` in atomic units of time (None: the route chooses its own sampling)."""
+        return None if self.every is None else to_au(self.every, "time", name="output.every")
+
 
 class RunConfig(_Section):
     """A whole run: ``[atom]``, ``[[pulse]]``, ``[solver]``, ``[output]``, optional ``[scan]``."""

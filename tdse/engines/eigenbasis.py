@@ -376,7 +376,6 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
     from tdse.basis.eigenbasis import cached_basis
     from tdse.observables.photoelectron import box_spectrum
     from tdse.observables.populations import level_populations
-    from tdse.units import to_au
 
     if not pulse.is_linear_z:
         raise InputError("`pulse.polarization`: the basis route handles linear z polarisation only "
@@ -400,9 +399,7 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
                             scheme=settings.scheme, groups=basis.l)
 
     t0, t1 = pulse.t_start, pulse.t_end
-    every = None if output.every is None else to_au(output.every, "time", name="output.every")
-    if every is not None and not every > 0:
-        raise InputError(f"`output.every` must be > 0, got {output.every!r}")
+    every = output.every_au
     if every is None:
         times = np.linspace(t0, t1, 201)
     else:

@@ -498,8 +498,7 @@ def _propagate(atom, pulse, settings, *, initial, output, progress, checkpoint):
 
     dt, n_steps = par.dt, par.n_steps
     t0 = pulse.t_start
-    every_t = (to_au(output.every, "time", name="output.every") if output.every is not None
-               else max(dt, (pulse.t_end - t0) / 500))
+    every_t = output.every_au if output.every is not None else max(dt, (pulse.t_end - t0) / 500)
     every = max(1, min(n_steps, round(every_t / dt)))
     ckpt_steps = settings.checkpoint_every if isinstance(settings.checkpoint_every, int) else None
     ckpt_wall = (None if ckpt_steps else

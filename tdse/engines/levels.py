@@ -450,8 +450,8 @@ def _initial_density(model: LevelModel, initial, t0: float, interaction: bool):
     return rho, (ket if pure else None)
 
 
-def _history_times(t0: float, t1: float, every) -> np.ndarray:
-    step = (t1 - t0) / 200 if every is None else to_au(every, "time", name="output.every")
+def _history_times(t0: float, t1: float, every: float | None) -> np.ndarray:
+    step = (t1 - t0) / 200 if every is None else every
     if t1 <= t0:
         return np.array([t0])
     if not step > 0:
@@ -561,7 +561,7 @@ def propagate(atom, pulse, settings: Settings, *, initial, output=None, progress
         t_final = t_pulse + (to_au(settings.after, "time") if settings.after is not None else 0.0)
     if not t_final > t0:
         raise InputError("nothing to propagate: give a `[[pulse]]` or `solver.after` > 0")
-    times = _history_times(t0, t_final, getattr(output, "every", None))
+    times = _history_times(t0, t_final, output.every_au if output is not None else None)
     rho0, ket0 = _initial_density(model, initial, t0, interaction=settings.rwa)
     warnings, notes, stats = [], [], {"n_sublevels": len(model.states), "solver": "closed form"}
 
