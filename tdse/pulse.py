@@ -548,6 +548,12 @@ def _from_config(cfg, key: str) -> LaserPulse:
     elif cfg.ramp is not None:
         raise InputError(f"{k('ramp')} applies only to envelope = \"flat\" or \"static\"")
     period = 2 * math.pi / omega if omega > 0 else math.inf
+
+    def cycles_duration() -> float:
+        if not cfg.cycles > 0:
+            raise InputError(f"{k('cycles')} must be > 0, got {cfg.cycles!r}")
+        return cfg.cycles * period
+
     fwhm_gaussian = None
     if kind == "static":
         if cfg.length is None:
@@ -556,9 +562,7 @@ def _from_config(cfg, key: str) -> LaserPulse:
     elif kind == "gaussian":
         which = exclusive(("fwhm", "cycles"), what=" for envelope = \"gaussian\"")
         if which == "cycles":
-            if not cfg.cycles > 0:
-                raise InputError(f"{k('cycles')} must be > 0, got {cfg.cycles!r}")
-            fwhm_gaussian = cfg.cycles * period
+            fwhm_gaussian = cycles_duration()
         else:
             fwhm_gaussian = positive("fwhm", cfg.fwhm, "time")
         if cfg.length is not None:
@@ -574,9 +578,7 @@ def _from_config(cfg, key: str) -> LaserPulse:
         if which == "length":
             length = positive("length", cfg.length, "time")
         elif which == "cycles":
-            if not cfg.cycles > 0:
-                raise InputError(f"{k('cycles')} must be > 0, got {cfg.cycles!r}")
-            length = cfg.cycles * period
+            length = cycles_duration()
         else:
             fwhm = positive("fwhm", cfg.fwhm, "time")
             if kind == "flat":
