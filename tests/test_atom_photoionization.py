@@ -139,3 +139,12 @@ def test_sigma_positive_above_threshold_and_z_scaled(n, Z, x, data):
     assert s1 > 0
     assert cross_section(Atom(Z), n, l, omega * Z**2) == pytest.approx(s1 / Z**2, rel=1e-11)
     assert cross_section(INF, n, l, 0.5 / n**2 * (1 - 1e-9)) == 0.0
+
+
+@pytest.mark.parametrize("n, l, Z", [(3, 0, 7), (1, 0, 3), (5, 2, 9)])
+def test_exact_threshold_survives_z_scaling_rounding(n, l, Z):
+    # found by hypothesis: omega = Z^2/(2 n^2) rounded one ulp below threshold and gave 0;
+    # sigma_Z(Z^2 omega) = sigma_1(omega)/Z^2 holds at threshold too (analytic scaling)
+    omega = 0.5 / n**2
+    assert cross_section(Atom(Z), n, l, omega * Z**2) == pytest.approx(cross_section(INF, n, l, omega) / Z**2,
+                                                                        rel=1e-11)

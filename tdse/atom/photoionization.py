@@ -147,8 +147,11 @@ def cross_section(atom, n: int, l: int, photon_energy):
     omega = np.asarray(photon_energy, dtype=float)
     scale = atom.Z**2 * atom.reduced_mass
     w = np.atleast_1d(omega) / scale
-    eps = w - 0.5 / n**2
-    above = eps >= 0
+    threshold = 0.5 / n**2
+    eps = w - threshold
+    # photon energies at threshold up to the rounding of the Z^2 mu scaling count as threshold
+    above = eps >= -4 * np.finfo(float).eps * threshold
+    eps = np.maximum(eps, 0.0)
     sigma = np.zeros_like(w)
     if above.any():
         k = np.sqrt(2.0 * eps[above])
