@@ -321,7 +321,9 @@ def test_dask_local_cluster_equals_process_pool(tmp_path, reference, capsys):
     cfg_path = tmp_path / "kestrel_scan.toml"
     cfg_path.write_text(tomli_w.dumps(_levels_config()))
     folder = tmp_path / "dask"
+    before = {name: os.environ.get(name) for name in ("OMP_NUM_THREADS", "NUMBA_NUM_THREADS")}
     assert main(["scan", str(cfg_path), "--out", str(folder), "--dask-local", "1", "--no-progress", "--json"]) == 0
+    assert {name: os.environ.get(name) for name in before} == before   # workers' settings stay in the workers
     payload = json.loads(capsys.readouterr().out)
     assert (payload["total"], payload["done"], payload["failed"], payload["pending"]) == (6, 6, 0, 0)
     _assert_same_arrays(open_campaign(folder), reference)

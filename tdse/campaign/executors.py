@@ -153,10 +153,18 @@ def dask_client(*, scheduler: str | None = None, local_workers: int | None = Non
     if local_workers is not None:
         check_count(local_workers, "--dask-local")
         environ = {name: "1" for name in THREAD_VARIABLES}
-        with dask.config.set({"distributed.nanny.pre-spawn-environ": environ}):
-            with LocalCluster(n_workers=local_workers, threads_per_worker=1, processes=True,
-                              dashboard_address=None) as lc, Client(lc) as client:
-                yield client
+        saved = {name: os.environ.get(name) for name in THREAD_VARIABLES}
+        try:
+            with dask.config.set({"distributed.nanny.pre-spawn-environ": environ}):
+                with LocalCluster(n_workers=local_workers, threads_per_worker=1, processes=True,
+                                  dashboard_address=None) as lc, Client(lc) as client:
+                    yield client
+        finally:   # the nanny writes pre-spawn-environ into this process's environment too
+            for name, value in saved.items():
+                if value is None:
+                    os.environ.pop(name, None)
+                else:
+                    os.environ[name] = value
         return
     if cluster is not None:
         system, workers, kwargs = cluster_options(cluster)
