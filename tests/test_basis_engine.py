@@ -11,7 +11,8 @@ from tdse.atom.dipoles import dipole_matrix_element
 from tdse.basis.eigenbasis import build_basis
 from tdse.campaign.config import OutputConfig
 from tdse.engines import route_module, settings_for
-from tdse.engines.eigenbasis import BlockProduct, MagnusPropagator, Settings, lanczos_expm, propagate
+from tdse.engines.eigenbasis import MagnusPropagator, Settings, propagate
+from tdse.engines.krylov import Coupling, KrylovFailure
 from tdse.errors import InputError
 from tdse.pulse import Pulse
 
@@ -32,27 +33,43 @@ def test_norm_conserved_in_a_strong_field():
     assert np.max(np.abs(res.series["norm"] - 1)) < 1e-9
 
 
-def test_lanczos_matches_dense_exponential():
+@pytest.mark.parametrize("groups", [None, "chain"])
+def test_lanczos_matches_dense_exponential(groups):
     rng = np.random.default_rng(3)
-    a = rng.normal(size=(40, 40))
-    h = a + a.T
-    v = rng.normal(size=40) + 1j * rng.normal(size=40)
-    w, m = lanczos_expm(lambda x: h @ x, v, 0.3, 1e-12)
-    np.testing.assert_allclose(w, expm(-0.3j * h) @ v, atol=1e-11)   # scipy.linalg.expm reference
-    assert m < 40
+    k = 40
+    from scipy.sparse import csr_matrix
+
+    a = rng.normal(size=(k, k))
+    group = np.repeat(np.arange(8), 5)
+    if groups == "chain":                                  # couplings between neighbouring groups only
+        a = a * (np.abs(group[:, None] - group[None, :]) == 1)
+    b = (a + a.T) / 2
+    d = rng.uniform(-1, 2, k)
+    coupling = Coupling(csr_matrix(b), None if groups is None else group)
+    assert coupling.form == ("csr" if groups is None else "blocks")
+    v = rng.normal(size=k) + 1j * rng.normal(size=k)
+    w, m = coupling.expm(d, 0.7, v, 0.3, 1e-12)
+    exact = expm(-0.3j * (np.diag(d) + 0.7 * b)) @ v                   # scipy.linalg.expm reference
+    np.testing.assert_allclose(w, exact, atol=1e-11)
+    assert m < k
+    coarse, m_coarse = coupling.expm(d, 0.7, v, 0.3, 1e-4)
+    assert m_coarse < m and 1e-12 < np.linalg.norm(coarse - exact) < 1e-3   # the tolerance is used
+    with pytest.raises(KrylovFailure):
+        Coupling(csr_matrix(np.diag(np.arange(200.0)))).expm(np.zeros(200), 1.0, np.ones(200, complex), 50.0, 1e-12)
 
 
-def test_block_product_equals_scipy_csr_product_and_declines_other_structures():
+def test_block_and_csr_products_equal_scipy_csr_product_and_blocks_decline_other_structures():
     basis = build_basis(H, r_max=30.0, dr=0.2, l_max=3, e_max=2.0)
-    prod = BlockProduct.from_sparse(basis.dipole, basis.l)
-    assert prod is not None
     rng = np.random.default_rng(5)
     v = rng.normal(size=basis.size) + 1j * rng.normal(size=basis.size)
-    ref = basis.dipole.astype(complex).tocsr() @ v                     # scipy CSR reference
-    np.testing.assert_allclose(prod(v), ref, rtol=0, atol=1e-12 * np.abs(ref).max())
-    assert BlockProduct.from_sparse(basis.velocity_dipole(), basis.l) is None      # not real
-    assert BlockProduct.from_sparse(basis.dipole, basis.l[::-1]) is None           # groups not sorted
-    assert BlockProduct.from_sparse(basis.dipole + basis.dipole @ basis.dipole, basis.l) is None  # l ↔ l, l ± 2
+    for matrix in (basis.dipole, basis.velocity_dipole()):
+        ref = matrix.astype(complex).tocsr() @ v                         # scipy CSR reference
+        for groups in (basis.l, None):
+            np.testing.assert_allclose(Coupling(matrix, groups) @ v, ref, rtol=0, atol=1e-12 * np.abs(ref).max())
+    assert Coupling(basis.dipole, basis.l).form == "blocks"
+    assert Coupling(basis.velocity_dipole(), basis.l).form == "csr"                    # not real
+    assert Coupling(basis.dipole, basis.l[::-1]).form == "csr"                         # groups not sorted
+    assert Coupling(basis.dipole + basis.dipole @ basis.dipole, basis.l).form == "csr"  # l ↔ l, l ± 2
 
 
 def test_magnus_matches_dop853_on_same_matrix():
@@ -210,7 +227,10 @@ def test_resume_from_checkpoint_equals_uninterrupted_run(tmp_path, monkeypatch):
     monkeypatch.setattr(eigenbasis.MagnusPropagator, "advance", original)
     assert cp.load()[1]["sample"] == 9                   # saved after the ninth interval
     resumed = propagate(H, pulse, settings, initial=GROUND, output=output, checkpoint=cp)
-    assert resumed.populations == pytest.approx(plain.populations, rel=1e-12)
+    assert resumed.populations == plain.populations                 # bit for bit: same steps, same checks
+    assert resumed.stats["matvecs"] == plain.stats["matvecs"]
+    for key in ("norm", "ionization", "dipole_z"):
+        np.testing.assert_array_equal(resumed.series[key], plain.series[key])
     np.testing.assert_allclose(resumed.series["dipole_z"], plain.series["dipole_z"], rtol=0, atol=1e-14)
     np.testing.assert_allclose(resumed.spectra["photoelectron"]["dP_dE"], plain.spectra["photoelectron"]["dP_dE"],
                                rtol=1e-12, atol=1e-300)

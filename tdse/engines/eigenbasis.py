@@ -12,14 +12,14 @@ exponentials exp(−ih Σ_m G_im H(t + c_m h)) at Gauss–Legendre nodes c_m; ``
     c(t + h) = exp(−ih[E/2 + (a₁s₁ + a₂s₂)B]) exp(−ih[E/2 + (a₂s₁ + a₁s₂)B]) c(t),  a₁,₂ = 1/4 ∓ √3/6,
 
 with s_j = s(t + (1/2 ∓ √3/6)h). The observed orders (4 and 6) are checked in the tests.
-Each exponential acts through a Lanczos process with full reorthogonalisation whose dimension
-grows until Saad's a-posteriori estimate β_m |(e^{−ihT_m})_{m1}| (SIAM J. Numer. Anal. 29, 209
-(1992)) is below tolerance/10 (checked at every dimension m ≥ 4). With the states grouped by l,
-the length-form dipole, which couples only l ↔ l ± 1, is applied as dense real blocks
-(:class:`BlockProduct`); other couplings as a complex CSR product. Step size: every few steps a
-checked pair (two steps of h against one of 2h; local error ≈ ‖difference‖/(2^p − 1) for order
-p) keeps the error per step below ``tolerance`` (amplitude norm) and sets
-h ∝ (tolerance/error)^(1/(p+1)); failed pairs are redone.
+Each exponential acts through a Lanczos process (:mod:`tdse.engines.krylov`, numba kernels) whose
+dimension grows until Saad's a-posteriori estimate (SIAM J. Numer. Anal. 29, 209 (1992)) is below
+tolerance/(2 × number of exponentials), so the Krylov error of a step stays below tolerance/2.
+With the states grouped by l, the length-form dipole, which couples only l ↔ l ± 1, is applied as
+dense real blocks; other couplings (the velocity form) as a complex CSR product. Step size: every
+``check_every`` (16) steps a checked pair (two steps of h against one of 2h; local error ≈
+‖difference‖/(2^p − 1) for order p) keeps the error per step below ``tolerance`` (amplitude norm)
+and sets h ∝ (tolerance/error)^(1/(p+1)); failed pairs are redone.
 
 Results: populations of bound states by label (m-resolved and level) for n up to the last n whose
 states all lie within 1e-3 of −Z²μ/(2n²) (higher, wall-distorted box states only as the sum
@@ -45,6 +45,7 @@ from typing import Literal, Union
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, field_validator
 
+from tdse.engines.krylov import Coupling, KrylovFailure
 from tdse.errors import InputError
 from tdse.result import Result
 
@@ -122,51 +123,6 @@ class Settings(BaseModel):
         return None if value is None else _positive(value, "time", info.field_name)
 
 
-class KrylovFailure(RuntimeError):
-    """The Lanczos process did not converge within its largest dimension (the step is retried)."""
-
-
-def lanczos_expm(matvec, v: np.ndarray, h: float, tol: float, m_max: int = 60) -> tuple[np.ndarray, int]:
-    """exp(−i h H) v for Hermitian H given by ``matvec``; returns (result, Krylov dimension).
-
-    Lanczos with full reorthogonalisation; stops at the first dimension m ≥ 4 where Saad's estimate
-    β_m |(e^{−ihT_m})_{m1}|·‖v‖ is below ``tol`` (Saad, SIAM J. Numer. Anal. 29, 209 (1992)).
-
-    >>> H = np.diag([0.0, 1.0, 2.0]) + 0.1 * (np.eye(3, k=1) + np.eye(3, k=-1))
-    >>> from scipy.linalg import expm
-    >>> v = np.array([1.0, 0.0, 0.0], complex)
-    >>> w, m = lanczos_expm(lambda x: H @ x, v, 0.7, 1e-12)
-    >>> bool(np.allclose(w, expm(-0.7j * H) @ v, atol=1e-12))
-    True
-    """
-    from scipy.linalg import eigh_tridiagonal
-
-    norm0 = np.linalg.norm(v)
-    if norm0 == 0:
-        return v.copy(), 0
-    V = np.empty((m_max + 1, v.size), dtype=complex)
-    V[0] = v / norm0
-    alpha = np.empty(m_max)
-    beta = np.empty(m_max)
-    for j in range(m_max):
-        w = matvec(V[j])
-        alpha[j] = np.vdot(V[j], w).real
-        w = w - alpha[j] * V[j]
-        if j:
-            w -= beta[j - 1] * V[j - 1]
-        w -= V[:j + 1].T @ (V[:j + 1] @ w.conj()).conj()  # full reorthogonalisation, V^H w = conj(V w*)
-        beta[j] = np.linalg.norm(w)
-        m = j + 1
-        if m == v.size or beta[j] <= 1e-14 or m >= 4 or m == m_max:
-            theta, q = eigh_tridiagonal(alpha[:m], beta[:m - 1])
-            y = q @ (np.exp(-1j * h * theta) * q[0])
-            if beta[j] * abs(y[-1]) * norm0 < tol or beta[j] <= 1e-14 or m == v.size:
-                return norm0 * (V[:m].T @ y), m
-        if m < m_max:
-            V[j + 1] = w / beta[j]
-    raise KrylovFailure(f"Lanczos did not converge in {m_max} steps")
-
-
 def _cfet_table(f: list[list[float]], n_nodes: int) -> tuple[np.ndarray, np.ndarray]:
     """Gauss nodes c_m on [0, 1] and weights G[i, m] of the exponentials Ω_i = −ih Σ_m G[i, m] H(t + c_m h)
     (applied i = 0 first) from the Legendre-moment coefficients f[i][n] of Alvermann & Fehske,
@@ -192,105 +148,41 @@ def _schemes() -> dict:
 SCHEMES = _schemes()
 
 
-class BlockProduct:
-    """v ↦ B v for a real symmetric B that couples only neighbouring groups of states.
-
-    With the states sorted by group g (the partial wave l for the dipole, which couples only
-    l ↔ l ± 1), B consists of the dense blocks B[g, g+1] and their transposes, so
-
-        (B v)_g = B[g, g+1] v_{g+1} + B[g−1, g]ᵀ v_{g−1}.
-
-    Only the upper blocks are stored, real and without indices: a product reads each stored element
-    (8 bytes) twice, once per triangle, where a complex CSR product reads 2 × 20 bytes (value and
-    column index of both triangles). The real and imaginary parts of v go through a block together
-    as an (n, 2) real array (one BLAS matrix–matrix product).
-    ``from_sparse`` returns None when B does not have this structure.
-
-    >>> import scipy.sparse as sp
-    >>> B = sp.csr_matrix(np.array([[0, 1, 2, 0], [1, 0, 0, 3], [2, 0, 0, 4], [0, 3, 4, 0.0]]))
-    >>> prod = BlockProduct.from_sparse(B, np.array([0, 1, 1, 2]))
-    >>> v = np.array([1, 2j, 3, 4 + 1j])
-    >>> bool(np.allclose(prod(v), B @ v))
-    True
-    """
-
-    def __init__(self, starts: np.ndarray, blocks: list[np.ndarray]):
-        self.starts = starts
-        self.blocks = blocks
-
-    @classmethod
-    def from_sparse(cls, B, groups) -> "BlockProduct | None":
-        groups = np.asarray(groups)
-        B = B.tocoo()
-        if B.shape != (groups.size,) * 2 or np.any(np.diff(groups) < 0):
-            return None
-        if np.iscomplexobj(B.data):
-            if np.any(B.data.imag != 0):
-                return None
-            B = B.real
-        values, rank = np.unique(groups, return_inverse=True)
-        if np.any(np.abs(rank[B.row] - rank[B.col]) != 1) or (B != B.T).nnz:
-            return None
-        starts = np.searchsorted(groups, values, side="left").tolist() + [groups.size]
-        B = B.tocsr()
-        blocks = [np.ascontiguousarray(B[starts[g]:starts[g + 1], starts[g + 1]:starts[g + 2]].toarray())
-                  for g in range(values.size - 1)]
-        return cls(np.array(starts), blocks)
-
-    def __call__(self, v: np.ndarray) -> np.ndarray:
-        x = np.ascontiguousarray(v, dtype=complex).view(float).reshape(v.size, 2)
-        y = np.zeros_like(x)
-        s = self.starts
-        for g, block in enumerate(self.blocks):
-            y[s[g]:s[g + 1]] += block @ x[s[g + 1]:s[g + 2]]
-            y[s[g + 1]:s[g + 2]] += block.T @ x[s[g]:s[g + 1]]
-        return y.view(complex).ravel()
-
-
 class MagnusPropagator:
     """Commutator-free Magnus + Lanczos for i dc/dt = (diag(E) + s(t)·B) c.
 
     ``B`` is a Hermitian sparse matrix (z in the length form, p_z in the velocity form);
     ``drive(t)`` returns s at an array of times; ``scheme`` "cf6" (order 6, five exponentials)
     or "cf4" (order 4, two). ``matvecs`` counts products with B. With ``groups`` (the group of each
-    state, e.g. its l) a real symmetric B coupling only neighbouring groups is applied by
-    :class:`BlockProduct`; otherwise (or when B lacks that structure) by a complex CSR product.
-    See the module docstring for the schemes and the error control.
+    state, e.g. its l) a real symmetric B coupling only neighbouring groups is applied in block
+    form, otherwise as complex CSR (:class:`tdse.engines.krylov.Coupling`). See the module
+    docstring for the schemes and the error control.
     """
 
     def __init__(self, energies, B, drive, tolerance: float, max_step: float | None = None,
-                 scheme: str = "cf6", check_every: int = 8, groups=None):
+                 scheme: str = "cf6", check_every: int = 16, groups=None):
         self.E = np.asarray(energies, dtype=float)
-        blocks = None if groups is None else BlockProduct.from_sparse(B, groups)
-        if blocks is None:
-            csr = B.astype(complex).tocsr()
-            self._product = csr.__matmul__
-        else:
-            self._product = blocks
+        self.coupling = Coupling(B, groups)
         self.drive = drive
         self.tol = tolerance
         self.max_step = max_step
         self.order, (self.nodes, self.weights) = SCHEMES[scheme]
         self.check_every = check_every
-        self.matvecs = 0
+        self._diagonals = [row.sum() * self.E for row in self.weights]
+        self._krylov_tol = tolerance / (2 * len(self.weights))     # Krylov error ≤ tolerance/2 per step
         self.steps = 0
         self.rejected = 0
 
-    def _apply_B(self, v: np.ndarray) -> np.ndarray:
-        self.matvecs += 1
-        return self._product(v)
+    @property
+    def matvecs(self) -> int:
+        """Products with B so far."""
+        return self.coupling.products
 
     def step(self, c: np.ndarray, t: float, h: float) -> np.ndarray:
         """One step t → t + h: Π_i exp(−ih Σ_m G[i, m] H(t + c_m h)) c (rightmost i = 0 first)."""
         s = self.drive(t + h * self.nodes)
-        E = self.E
-        for row in self.weights:
-            e_weight, s_weight = row.sum(), row @ s
-
-            def matvec(v, e_weight=e_weight, s_weight=s_weight):
-                return e_weight * E * v + s_weight * self._apply_B(v)
-
-            c = lanczos_expm(matvec, c, h, self.tol / 10.0)[0]
+        for diagonal, row in zip(self._diagonals, self.weights):
+            c = self.coupling.expm(diagonal, float(row @ s), c, h, self._krylov_tol)[0]
         return c
 
     def advance(self, c: np.ndarray, t: float, t_stop: float, h: float) -> tuple[np.ndarray, float, float]:
@@ -429,6 +321,7 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
     if resumed is not None:
         arrays, meta = resumed
         c, start, h = arrays["c"], int(meta["sample"]), float(meta["h"])
+        prop.steps, prop.coupling.products = int(meta.get("steps", 0)), int(meta.get("matvecs", 0))
         for key in records:
             records[key][:start + 1] = arrays[key][:start + 1]
     else:
@@ -445,7 +338,8 @@ def propagate(atom, pulse, settings: Settings, *, initial, output, progress=Fals
         if bar is not None:
             bar.update(1)
         if checkpoint is not None and time.perf_counter() - last_save >= settings.checkpoint_every:
-            checkpoint.save({"c": c, **records}, {"sample": i + 1, "h": h})
+            checkpoint.save({"c": c, **records}, {"sample": i + 1, "h": h, "steps": prop.steps,
+                                                  "matvecs": prop.matvecs})
             last_save = time.perf_counter()
     if bar is not None:
         bar.close()
