@@ -3,7 +3,8 @@
 HDF5 layout of a result file (``NAME.h5``)::
 
     attrs:  complete (bool, written last), route, config (TOML text), physics_hash,
-            versions (JSON), host, created, ionization, norm, stats (JSON), warnings (JSON)
+            versions (JSON), host, created, ionization, norm, stats (JSON), warnings (JSON),
+            sha256 (checksum of the result's content, see :func:`content_digest`)
     /times                       history sample times (a.u.)
     /populations                 attrs label -> final population; dataset "labels"/"values"
     /history/populations/<label> population at each sample time
@@ -12,10 +13,13 @@ HDF5 layout of a result file (``NAME.h5``)::
     /checkpoint/...              only in an unfinished file: the engine's resumable state
 
 Files are written to ``NAME.h5.tmp`` and renamed onto ``NAME.h5`` (``os.replace``), so a reader
-never sees a half-written file; readers trust a file only when ``complete`` is true.
+never sees a half-written file; readers trust a file only when ``complete`` is true, and
+:func:`read_result` refuses a file whose content no longer matches its ``sha256`` (a damaged disk
+or a bit flip: a campaign then re-runs the job).
 """
 from __future__ import annotations
 
+import hashlib
 import json
 import os
 import platform
@@ -109,6 +113,42 @@ def _write_body(f, result: Result) -> None:
             g.create_dataset(key, data=np.asarray(values))
 
 
+def digest(parts) -> str:
+    """SHA-256 (hex) of a sequence of arrays (by dtype, shape and bytes) and JSON-able values
+    (as sorted-key JSON, which keeps floats exactly).
+
+    >>> digest([np.arange(3.0), {"b": 1, "a": 0.1}]) == digest([np.arange(3.0), {"a": 0.1, "b": 1}])
+    True
+    """
+    h = hashlib.sha256()
+    for part in parts:
+        if isinstance(part, np.ndarray):
+            a = np.ascontiguousarray(part)
+            h.update(f"{a.dtype.str}{a.shape}".encode())
+            h.update(a.tobytes())
+        else:
+            h.update(json.dumps(part, sort_keys=True).encode())
+        h.update(b"\0")
+    return h.hexdigest()
+
+
+def content_digest(result: Result) -> str:
+    """:func:`digest` of everything a result file stores of ``result``: route, config, ionisation,
+    norm, stats, warnings, metadata, populations, times, histories, series and spectra (keys
+    sorted)."""
+    parts = [result.route, result.config, float(result.ionization), float(result.norm), result.stats,
+             result.warnings, result.metadata, np.asarray(result.times, dtype=float)]
+    for label in sorted(result.populations):
+        parts += [label, float(result.populations[label])]
+    for group in (result.history_populations, result.series):
+        for name in sorted(group):
+            parts += [name, np.asarray(group[name])]
+    for name in sorted(result.spectra):
+        for key in sorted(result.spectra[name]):
+            parts += [name, key, np.asarray(result.spectra[name][key])]
+    return digest(parts)
+
+
 def _str_dtype():
     import h5py
 
@@ -131,6 +171,7 @@ def write_result(path, result: Result, *, attrs: dict | None = None) -> Path:
                          "metadata": result.metadata})
         if attrs:
             _write_attrs(f, attrs)
+        f.attrs["sha256"] = content_digest(result)
         f.attrs["complete"] = True
     os.replace(tmp, path)
     return path
@@ -180,6 +221,10 @@ def read_result(path) -> Result:
             config=str(f.attrs.get("config", "")),
             metadata=_json_attr(f, "metadata", {}),
         )
+        stored = f.attrs.get("sha256")
+    if stored is not None and str(stored) != content_digest(result):
+        raise InputError(f"result file {str(path)!r} is damaged: its content does not match its "
+                         "SHA-256 checksum")
     return result
 
 

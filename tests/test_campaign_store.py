@@ -52,11 +52,15 @@ def test_failed_record_keeps_checkpoint(tmp_path):
     assert not path.with_name(path.name + ".tmp").exists()
 
 
-@pytest.mark.parametrize("damage", ["garbage", "truncate", "zero_middle"])
+@pytest.mark.parametrize("damage", ["garbage", "truncate", "zero_middle", "bit_flip"])
 def test_damaged_files_are_corrupt(tmp_path, damage):
     path = _done(tmp_path)
     raw = path.read_bytes()
-    if damage == "garbage":
+    if damage == "bit_flip":   # one bit of the stored times: the file opens and says complete
+        with h5py.File(path) as f:
+            offset = f["times"].id.get_offset()
+        path.write_bytes(raw[:offset + 9] + bytes([raw[offset + 9] ^ 1]) + raw[offset + 10:])
+    elif damage == "garbage":
         path.write_bytes(b"\x00garbage" * 50)
     elif damage == "truncate":
         path.write_bytes(raw[: len(raw) // 2])

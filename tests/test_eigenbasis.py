@@ -2,6 +2,7 @@
 import math
 from functools import lru_cache
 
+import h5py
 import numpy as np
 import pytest
 from scipy.integrate import quad
@@ -129,6 +130,13 @@ def test_save_load_and_cache(tmp_path):
     assert load_basis(path).inputs == first.inputs
     assert load_basis(tmp_path / "missing.h5") is None
     assert not list(tmp_path.glob("*.tmp"))
+    cache_file = next(tmp_path.glob(f"basis-{first.key}.h5"))
+    with h5py.File(cache_file, "a") as f:                  # a damaged cache entry is not used ...
+        f["dipole/data"][0] *= 1.0 + 1e-12
+    assert load_basis(cache_file) is None
+    again, reused = cached_basis(H, tmp_path, **spec)       # ... but rebuilt and rewritten
+    assert not reused and (again.dipole != first.dipole).nnz == 0
+    assert load_basis(cache_file) is not None
 
 
 def test_bad_input():

@@ -50,3 +50,23 @@ def test_garbage_file(tmp_path):
     assert Checkpoint(path).load() is None
     with pytest.raises(InputError):
         read_result(path)
+
+
+@pytest.mark.parametrize("damage", ["array byte", "population", "attribute"])
+def test_damaged_content_is_refused(tmp_path, damage):
+    path = write_result(tmp_path / "r.h5", _result())
+    if damage == "array byte":                            # one bit flipped on disk, file still opens
+        with h5py.File(path) as f:
+            offset = f["history/series/norm"].id.get_offset()
+        raw = bytearray(path.read_bytes())
+        raw[offset + 3] ^= 0x10
+        path.write_bytes(bytes(raw))
+    else:
+        with h5py.File(path, "a") as f:
+            if damage == "population":
+                f["populations/values"][1] = 0.7500000001
+            else:
+                f.attrs["ionization"] = 1e-3
+    assert is_complete(path)                              # looks finished ...
+    with pytest.raises(InputError, match="damaged"):      # ... but its checksum says otherwise
+        read_result(path)

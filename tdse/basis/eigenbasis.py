@@ -182,6 +182,14 @@ def build_basis(atom, *, r_max=200.0, dr=0.08, l_max=3, n_max=None, e_max=3.0, m
                       mu=atom.reduced_mass, inputs=inputs, key=basis_hash(inputs))
 
 
+def _basis_digest(basis: Eigenbasis) -> str:
+    from tdse.result import digest
+
+    d = basis.dipole
+    return digest([basis.energies, basis.l, basis.n, basis.dos, d.data, d.indices, d.indptr,
+                   int(basis.m), float(basis.mu), basis.inputs, basis.key])
+
+
 def save_basis(basis: Eigenbasis, path) -> Path:
     """Write ``basis`` to HDF5 atomically (a per-process temp file, then ``os.replace``), so
     workers of a scan that build the same basis at once never see a half-written file."""
@@ -202,13 +210,15 @@ def save_basis(basis: Eigenbasis, path) -> Path:
         f.attrs["mu"] = basis.mu
         f.attrs["inputs"] = json.dumps(basis.inputs)
         f.attrs["key"] = basis.key
+        f.attrs["sha256"] = _basis_digest(basis)
         f.attrs["complete"] = True
     os.replace(tmp, path)
     return path
 
 
 def load_basis(path) -> Eigenbasis | None:
-    """Read a basis written by :func:`save_basis`; ``None`` if missing or unreadable."""
+    """Read a basis written by :func:`save_basis`; ``None`` if missing, unreadable or damaged
+    (content not matching its SHA-256)."""
     import h5py
     from scipy.sparse import csr_matrix
 
@@ -219,11 +229,13 @@ def load_basis(path) -> Eigenbasis | None:
             size = f["energies"].shape[0]
             g = f["dipole"]
             dipole = csr_matrix((g["data"][()], g["indices"][()], g["indptr"][()]), shape=(size, size))
-            return Eigenbasis(energies=f["energies"][()], l=f["l"][()], n=f["n"][()], dos=f["dos"][()],
-                              dipole=dipole, m=int(f.attrs["m"]), mu=float(f.attrs["mu"]),
-                              inputs=json.loads(f.attrs["inputs"]), key=str(f.attrs["key"]))
+            basis = Eigenbasis(energies=f["energies"][()], l=f["l"][()], n=f["n"][()], dos=f["dos"][()],
+                               dipole=dipole, m=int(f.attrs["m"]), mu=float(f.attrs["mu"]),
+                               inputs=json.loads(f.attrs["inputs"]), key=str(f.attrs["key"]))
+            stored = str(f.attrs.get("sha256", ""))
     except (OSError, KeyError, ValueError):
         return None
+    return basis if stored == _basis_digest(basis) else None      # damaged: rebuilt by the caller
 
 
 def cached_basis(atom, cache_dir=None, **spec) -> tuple[Eigenbasis, bool]:
