@@ -54,6 +54,22 @@ def _clean(obj):
     return obj
 
 
+def significant(obj, digits: int = 12):
+    """``obj`` with every float rounded to ``digits`` significant digits (derived quantities of
+    inputs given to a few digits: 100.00000000000001 W/cm² prints as 100.0).
+
+    >>> significant({"I": [100.00000000000001, 2]})
+    {'I': [100.0, 2]}
+    """
+    if isinstance(obj, dict):
+        return {k: significant(v, digits) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [significant(v, digits) for v in obj]
+    if isinstance(obj, float) and math.isfinite(obj):
+        return float(f"{obj:.{digits}g}")
+    return obj
+
+
 def emit_json(payload: dict) -> None:
     sys.stdout.write(json.dumps(_clean(payload)) + "\n")
 

@@ -55,7 +55,7 @@ def table(derived: dict) -> str:
 
 def handle(args):
     from tdse.campaign.config import load_config
-    from tdse.cli import SAFETY_CAUTION
+    from tdse.cli import SAFETY_CAUTION, significant
     from tdse.errors import InputError
     from tdse.pulse import derived_quantities
 
@@ -63,7 +63,7 @@ def handle(args):
     pulse = cfg.build_pulse()
     if pulse is None:
         raise InputError(f"config {args.config!r} has no [[pulse]] table")
-    derived = derived_quantities(pulse, cfg.build_atom())
+    derived = significant(derived_quantities(pulse, cfg.build_atom()))
     if args.plot:
         from tdse.plotting import pulse_figure
 
