@@ -9,9 +9,13 @@ delay t₀, carrier-envelope phase φ and linear chirp β::
 
 with the Jones vector ε = (0,0,1) for "z", (1,0,0) for "x", (1, ±i, 0) for "circular±" (amplitude F₀
 in each component; "circular+" turns x → y, counter-clockwise about +z, and drives Δm = +1 in
-absorption). Because f vanishes at both feet, ∫E dt = A(t_start) − A(t_end) = 0 exactly.
+absorption) and (1, iη, 0) for "elliptical" with ellipticity η ∈ [−1, 1] (F₀ along the major axis
+x, ηF₀ along y; η = ±1 is circular±, η = 0 is x; in circular components
+ε = ½(1 + η)(1, i, 0) + ½(1 − η)(1, −i, 0)). Because f vanishes at both feet,
+∫E dt = A(t_start) − A(t_end) = 0 exactly.
 Peak cycle-averaged intensity I = |ε|² F₀² in atomic units (I_au = 3.50945e16 W/cm², CODATA 2018),
-so circular light carries twice the intensity of linear light of the same F₀ (PHYSICS.md).
+so circular light carries twice the intensity of linear light of the same F₀ (PHYSICS.md) and
+elliptical light (1 + η²) times; an ``intensity`` key sets the total, F₀ = √(I/(1 + η²)).
 
 Envelopes (T = foot-to-foot length, s = t − t₀, the window is t₀ ± T/2):
 
@@ -46,7 +50,32 @@ from tdse.units import (ALPHA, AU_FLUENCE_JCM2, AU_INTENSITY_WCM2, AU_TIME_S, HA
                         photon_energy_to_wavelength_nm, to_au)
 
 ENVELOPES = ("sin2", "gaussian", "flat", "cos4", "static")
-POLARIZATIONS = {"z": (0, 0, 1), "x": (1, 0, 0), "circular+": (1, 1j, 0), "circular-": (1, -1j, 0)}
+POLARIZATIONS = {"z": (0, 0, 1), "x": (1, 0, 0), "circular+": (1, 1j, 0), "circular-": (1, -1j, 0),
+                 "elliptical": None}       # (1, iη, 0): see jones_vector
+
+
+def jones_vector(polarization: str, ellipticity: float = 0.0) -> np.ndarray:
+    """Jones vector ε (x, y, z) of a polarisation name; ``ellipticity`` η only for "elliptical".
+
+    >>> jones_vector("elliptical", 0.5).tolist()
+    [(1+0j), 0.5j, 0j]
+    """
+    if polarization == "elliptical":
+        return np.array([1.0, 1j * ellipticity, 0.0], dtype=complex)
+    return np.array(POLARIZATIONS[polarization], dtype=complex)
+
+
+def _check_ellipticity(polarization: str, ellipticity, key: str) -> float:
+    """η as a float: in [−1, 1] for "elliptical", 0 (or absent) for every other polarisation."""
+    eta = 0.0 if ellipticity is None else float(ellipticity)
+    if polarization == "elliptical":
+        if not -1.0 <= eta <= 1.0:
+            raise InputError(f"`{key}.ellipticity` must be within [-1, 1] (minor/major field ratio, sign = "
+                             f"sense of rotation), got {ellipticity!r}")
+    elif eta != 0.0:
+        raise InputError(f"`{key}.ellipticity` applies only to polarization = \"elliptical\", "
+                         f"got polarization = {polarization!r}")
+    return eta
 GAUSSIAN_CUT = 1e-6            # default truncation level of the gaussian envelope
 LONG_CYCLES = 10_000           # above this many carrier periods integrals use the complex envelope
 MAX_INTENSITY_WCM2 = 1e20      # above this the electron turns relativistic; the dipole picture fails
@@ -113,6 +142,7 @@ class LaserPulse:
     polarization: str = "z"
     ramp: float = 0.0
     fwhm_gaussian: float | None = None
+    ellipticity: float = 0.0
 
     def __post_init__(self):
         if self.envelope_kind not in ENVELOPES:
@@ -120,6 +150,7 @@ class LaserPulse:
         if self.polarization not in POLARIZATIONS:
             raise InputError(f"`polarization` must be one of {', '.join(POLARIZATIONS)}, "
                              f"got {self.polarization!r}")
+        _check_ellipticity(self.polarization, self.ellipticity, "pulse")
         if not self.length > 0:
             raise InputError(f"`length` must be > 0, got {self.length!r}")
         if self.envelope_kind == "static":
@@ -169,7 +200,7 @@ class LaserPulse:
     @cached_property
     def jones(self) -> np.ndarray:
         """Complex Cartesian polarisation vector ε (x, y, z)."""
-        return np.array(POLARIZATIONS[self.polarization], dtype=complex)
+        return jones_vector(self.polarization, self.ellipticity)
 
     @property
     def intensity(self) -> float:
@@ -523,7 +554,8 @@ def _from_config(cfg, key: str) -> LaserPulse:
         else:
             omega = positive("photon_energy", cfg.photon_energy, "energy")
     pol = cfg.polarization
-    weight = float(np.vdot(POLARIZATIONS[pol], POLARIZATIONS[pol]).real)
+    eta = _check_ellipticity(pol, cfg.ellipticity, key)
+    weight = float(np.vdot(jones_vector(pol, eta), jones_vector(pol, eta)).real)
     # strength
     which = exclusive(("intensity", "peak_field"))
     if which == "intensity":
@@ -600,7 +632,7 @@ def _from_config(cfg, key: str) -> LaserPulse:
         raise InputError(f"{k('cep')} must be finite, got {cfg.cep!r}")
     delay = to_au(cfg.delay, "time", name=f"{key}.delay")
     return LaserPulse(kind, omega=omega, peak_field=field, length=length, cep=float(cfg.cep), delay=delay,
-                      chirp=chirp, polarization=pol, ramp=ramp, fwhm_gaussian=fwhm_gaussian)
+                      chirp=chirp, polarization=pol, ramp=ramp, fwhm_gaussian=fwhm_gaussian, ellipticity=eta)
 
 
 # --- derived quantities for the `tdse pulse` table -----------------------------------------------
@@ -630,9 +662,12 @@ def derived_quantities(pulse: Pulse, atom=None) -> dict:
                     f"and lowered so f = 0 at the feet; window {c.length * fs:.4g} fs foot to foot")
         if c.polarization.startswith("circular"):
             note = (note + "; " if note else "") + "circular: peak field in each of x and y; intensity counts both"
+        elif c.polarization == "elliptical":
+            note = (note + "; " if note else "") + (f"elliptical: peak field along x, {c.ellipticity:g} of it "
+                                                    f"along y; intensity counts both")
         rows.append({
             "envelope": c.envelope_kind,
-            "polarization": c.polarization,
+            "polarization": c.polarization if c.polarization != "elliptical" else f"elliptical {c.ellipticity:g}",
             "peak_field_au": c.peak_field,
             "intensity_Wcm2": c.intensity * AU_INTENSITY_WCM2 if carrier else None,
             "photon_energy_eV": c.omega * HARTREE_EV,

@@ -67,6 +67,22 @@ def test_pulse_area_theorem(theta, expected):
     assert res.populations["1s"] + res.populations["2p"] == pytest.approx(1.0, abs=1e-8)
 
 
+@pytest.mark.parametrize("eta", [0.5, -0.3, 1.0])
+def test_elliptical_light_pulse_area_and_circular_split(eta):
+    # ε = (1, iη, 0) = ½(1+η)(1, i, 0) + ½(1−η)(1, −i, 0): 1s couples to one bright 2p state with
+    # dipole d√(1+η²), so P(2p) = sin²(θ/2), θ = d√(1+η²)∫F dt (Allen & Eberly 1975), shared between
+    # 2p±1 as (1 ± η)²/(2(1 + η²)) (decomposition into circular components, common practice)
+    F0, theta = 1e-3, math.pi / 2
+    length = 2 * theta / (D_1S_2P0 * math.sqrt(1 + eta**2) * F0)
+    res = run([{"envelope": "sin2", "photon_energy": W_1S_2P, "peak_field": F0, "length": length,
+                "polarization": "elliptical", "ellipticity": eta}], ["1s", "2p"], decay=False,
+              rtol=1e-10, atol=1e-12)
+    assert res.populations["2p"] == pytest.approx(0.5, abs=1e-5)
+    assert res.populations["2p1"] == pytest.approx(0.5 * (1 + eta) ** 2 / (2 * (1 + eta**2)), abs=1e-5)
+    assert res.populations["2p-1"] == pytest.approx(0.5 * (1 - eta) ** 2 / (2 * (1 + eta**2)), abs=1e-5)
+    assert res.populations["2p0"] < 1e-14
+
+
 def _damped(detuning, rabi_over_gamma, length_gamma, dephasing=0.0, every_gamma=0.25):
     atom = Atom.from_name("H")
     from tdse.atom.dipoles import dipole_matrix_element, einstein_A

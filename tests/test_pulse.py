@@ -59,6 +59,39 @@ def test_circular_light_carries_twice_the_intensity():
     assert circ.intensity == pytest.approx(lin.intensity, rel=1e-14)
 
 
+@pytest.mark.parametrize("eta", [-1.0, -0.4, 0.0, 0.7, 1.0])
+def test_elliptical_light_intensity_limits_and_sense(eta):
+    # ε = (1, iη, 0), I = (1 + η²) F0² (a.u.); the intensity key fixes the total (common practice)
+    keys = dict(envelope="flat", wavelength="800 nm", intensity="1e14 W/cm^2", cycles=40, ramp="5 fs")
+    lin = one(**keys)
+    ell = one(**keys, polarization="elliptical", ellipticity=eta)
+    assert ell.peak_field == pytest.approx(lin.peak_field / math.sqrt(1 + eta**2), rel=1e-14)
+    period = 2 * math.pi / ell.omega                     # cycle average of |E|^2 on the plateau = I/2 (a.u.)
+    t = np.linspace(-period / 2, period / 2, 4001)
+    mean_square = integrate.simpson(np.sum(ell.electric_field(t) ** 2, axis=1), x=t) / period
+    assert mean_square == pytest.approx(lin.intensity / 2, rel=1e-6)
+    same = {-1.0: "circular-", 0.0: "x", 1.0: "circular+"}.get(eta)
+    if same is not None:                                  # the limits are the named polarisations
+        other = one(envelope="flat", wavelength="800 nm", peak_field=ell.peak_field, cycles=40, ramp="5 fs",
+                    polarization=same)
+        np.testing.assert_array_equal(ell.electric_field(t), other.electric_field(t))
+    if eta != 0:                                          # sense of rotation follows the sign of η
+        e, de = ell.electric_field(t[::400]), ell.electric_field(t[::400] + 1e-4) - ell.electric_field(t[::400] - 1e-4)
+        assert np.all(np.sign(e[:, 0] * de[:, 1] - e[:, 1] * de[:, 0]) == np.sign(eta))
+
+
+@pytest.mark.parametrize("keys, message", [
+    ({"polarization": "elliptical", "ellipticity": 1.5}, r"`pulse.0.ellipticity` must be within \[-1, 1\]"),
+    ({"polarization": "z", "ellipticity": 0.5}, "applies only to polarization"),
+    ({"polarization": "elliptical", "ellipticity": float("nan")}, "ellipticity"),
+])
+def test_bad_ellipticity_is_named(keys, message):
+    from tdse.errors import InputError
+
+    with pytest.raises(InputError, match=message):
+        Pulse({"wavelength": "800 nm", "peak_field": 0.01, "cycles": 4, **keys})
+
+
 def test_gaussian_fluence_matches_time_integral_of_intensity():
     # 2∫E^2 dt = I ∫(f^2 + f'^2/ω^2) dt = I τ sqrt(π/(4 ln2)) (1 + 2 ln2/(ωτ)^2) for a gaussian f^2 of
     # FWHM τ, the 2ω term being ~e^{-(ωτ)^2/(8 ln2)} (analytic; 1.0645 I τ is common practice)

@@ -71,7 +71,7 @@ class PulseConfig(_Section):
     wavelength: Quantity | None = Field(None, description="carrier wavelength (vacuum); or photon_energy")
     photon_energy: Quantity | None = Field(None, description="carrier photon energy; or wavelength")
     intensity: Quantity | None = Field(None, description="peak cycle-averaged intensity; or peak_field")
-    peak_field: Quantity | None = Field(None, description="peak field F0 (per component for circular light)")
+    peak_field: Quantity | None = Field(None, description="peak field F0 (per component for circular light, along the major axis for elliptical)")
     cycles: Number | None = Field(None, description="optical cycles foot to foot (gaussian: within the FWHM)")
     length: Quantity | None = Field(None, description="foot-to-foot duration (gaussian: the window)")
     fwhm: Quantity | None = Field(None, description="FWHM of the intensity envelope")
@@ -79,8 +79,10 @@ class PulseConfig(_Section):
     cep: Number = Field(0.0, description="carrier-envelope phase in radians")
     chirp: Quantity | None = Field(None, description="linear chirp beta = d(omega)/dt, e.g. \"0.05 eV/fs\"")
     delay: Quantity = Field(0.0, description="centre of the envelope t0")
-    polarization: Literal["z", "x", "circular+", "circular-"] = Field(
-        "z", description="z | x | circular+ (x -> y, drives Delta m = +1) | circular-")
+    polarization: Literal["z", "x", "circular+", "circular-", "elliptical"] = Field(
+        "z", description="z | x | circular+ (x -> y, drives Delta m = +1) | circular- | elliptical (x-y plane)")
+    ellipticity: Number | None = Field(None, description="elliptical only: minor/major field ratio in [-1, 1], "
+                                       "major axis x; + turns x -> y like circular+")
 
 
 class OutputConfig(_Section):
