@@ -206,11 +206,12 @@ class Coupling:
         self.size = B.shape[0]
         blocks = None if groups is None else _blocks_of(B, groups)
         if blocks is not None:
-            self.form, self._data, self._iterate = "blocks", blocks, _iterate_blocks
+            self.form, self._data = "blocks", blocks
+            self._apply, self._iterate = _apply_blocks, _iterate_blocks
         else:
             csr = B.astype(complex).tocsr()
             csr.sort_indices()
-            self.form, self._iterate = "csr", _iterate_csr
+            self.form, self._apply, self._iterate = "csr", _apply_csr, _iterate_csr
             self._data = (np.ascontiguousarray(csr.data.real), np.ascontiguousarray(csr.data.imag),
                           csr.indices.astype(np.int64), csr.indptr.astype(np.int64))
         self._Vr = np.empty((M_MAX + 1, self.size))
@@ -222,8 +223,7 @@ class Coupling:
         v = np.asarray(v, dtype=complex)
         xr, xi = np.ascontiguousarray(v.real), np.ascontiguousarray(v.imag)
         yr, yi = np.empty(self.size), np.empty(self.size)
-        apply = _apply_blocks if self.form == "blocks" else _apply_csr
-        apply(*self._data, xr, xi, yr, yi)
+        self._apply(*self._data, xr, xi, yr, yi)
         return yr + 1j * yi
 
     def expm(self, diag: np.ndarray, s: float, v: np.ndarray, h: float, tol: float) -> tuple[np.ndarray, int]:
