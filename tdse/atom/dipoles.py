@@ -225,3 +225,19 @@ def lifetime(atom, state) -> float:
     """
     rate = total_decay_rate(atom, state)
     return math.inf if rate == 0.0 else 1.0 / rate
+
+
+def spherical_coefficients(vec):
+    """Coefficients e_q of v·r = Σ_q e_q r_q for q = -1, 0, +1 (last axis), from Cartesian v.
+
+    With r_{±1} = ∓(x ± iy)/√2, r_0 = z: e_{-1} = (v_x + i v_y)/√2, e_0 = v_z,
+    e_{+1} = (-v_x + i v_y)/√2 (Edmonds, *Angular Momentum in QM*, 1957, eq. 5.1.3).
+
+    >>> [round(float(abs(e)), 6) for e in spherical_coefficients([1, 1j, 0])]   # circular+: only r_{+1} (Δm = +1)
+    [0.0, 0.0, 1.414214]
+    """
+    import numpy as np
+
+    v = np.asarray(vec, dtype=complex)
+    x, y, z = v[..., 0], v[..., 1], v[..., 2]
+    return np.stack([(x + 1j * y) / math.sqrt(2), z, (-x + 1j * y) / math.sqrt(2)], axis=-1)

@@ -14,7 +14,8 @@ import sys
 from tdse.errors import InputError
 
 # modules that define subcommands; each has register(subparsers)
-_COMMAND_MODULES = ["tdse.cli.atom_cmds", "tdse.cli.pulse_cmd", "tdse.cli.run_cmd", "tdse.cli.campaign_cmds"]
+_COMMAND_MODULES = ["tdse.cli.atom_cmds", "tdse.cli.pulse_cmd", "tdse.cli.run_cmd", "tdse.cli.campaign_cmds",
+                    "tdse.cli.estimate_cmd"]
 
 SAFETY_CAUTION = (
     "CAUTION: lasers at these intensities are class-4 hazards: direct, reflected and scattered beams "

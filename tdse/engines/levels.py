@@ -45,6 +45,7 @@ from typing import Literal, Union
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
+from tdse.atom.dipoles import spherical_coefficients
 from tdse.atom.states import State, parse_state
 from tdse.errors import InputError
 from tdse.units import C_AU, to_au
@@ -140,20 +141,6 @@ class Settings(BaseModel):
 
 
 # --- the static model ------------------------------------------------------------------------
-def spherical_coefficients(vec) -> np.ndarray:
-    """Coefficients e_q of v·r = Σ_q e_q r_q for q = -1, 0, +1 (last axis), from Cartesian v.
-
-    With r_{±1} = ∓(x ± iy)/√2, r_0 = z: e_{-1} = (v_x + i v_y)/√2, e_0 = v_z,
-    e_{+1} = (-v_x + i v_y)/√2 (Edmonds, *Angular Momentum in QM*, 1957, eq. 5.1.3).
-
-    >>> np.round(spherical_coefficients([1, 1j, 0]), 6)   # circular+: only r_{+1}, i.e. Δm = +1
-    array([ 0.      +0.j,  0.      +0.j, -1.414214+0.j])
-    """
-    v = np.asarray(vec, dtype=complex)
-    x, y, z = v[..., 0], v[..., 1], v[..., 2]
-    return np.stack([(x + 1j * y) / math.sqrt(2), z, (-x + 1j * y) / math.sqrt(2)], axis=-1)
-
-
 @dataclass(frozen=True)
 class LevelModel:
     """The field-free part of the model, atomic units.

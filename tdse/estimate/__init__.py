@@ -1,0 +1,222 @@
+"""Quick experiment estimates in lab units: what fraction of the atoms a pulse excites or ionises,
+and how many per shot in a Gaussian focus — in seconds, before a full run.
+
+``estimate(config, *, waist=..., density=... | pressure=... [temperature=...], length=..., m2=1)``
+takes a run configuration (its ``[atom]`` and ``[[pulse]]``; the ``[solver]`` is not used) and
+returns a dict of plain floats in the units their keys name:
+
+* peak quantities of the strongest pulse: intensity, field, Keldysh γ, barrier-suppression
+  intensity I_BS = Iₚ⁴/(16 Z²) (a.u.; Augst et al., PRL 63, 2212 (1989));
+* ``ionization``: the single-atom probability at the peak intensity by the model the regime
+  allows (:mod:`tdse.estimate.rates`): one photon above threshold → first-order golden rule,
+  saturated; otherwise → tunnelling (ADK), with a note when γ > 1 (multiphoton regime, where it
+  is not valid); ``saturation_intensity_Wcm2`` where the exponent reaches 1 (P = 1 − 1/e);
+* ``excitation``: for the dipole transition from the initial level nearest to resonance with a
+  carrier (within 10 spectral widths), the two-level pulse-area estimate;
+* with a focus (``waist`` = 1/e² intensity radius w₀, ``m2``): Rayleigh length and the pulse energy
+  that the intensity needs; with a gas density (or pressure and temperature, n = p/(k_B T)) and
+  an interaction ``length`` along the beam: ions and excited atoms per shot, averaged over the
+  focus (:mod:`tdse.estimate.focus`).
+
+Each result says which model it used in ``notes``; ``tdse run`` gives the full answer. The
+numbers are estimates, not a laser-safety assessment (the CLI prints the caution).
+
+>>> out = estimate({"atom": {"Z": 1, "initial": "1s"}, "solver": {"route": "grid"},
+...                 "pulse": [{"wavelength": "1600 nm", "intensity": "1e14 W/cm^2", "cycles": 10}]},
+...                waist="30 um", density="1e12 cm^-3", length="1 mm")
+>>> out["regime"], 1e-4 < out["ionization"] < 1e-1, out["ions_per_shot"] > 0
+('tunnelling', True, True)
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from tdse.errors import InputError
+
+RESONANCE_WIDTHS = 10.0     # transitions within this many spectral widths of a carrier are estimated
+N_UPPER_MAX = 12            # upper levels searched for the nearest resonance
+
+
+def _si(value, unit: str, name: str, example: str) -> float:
+    """``value`` (string with units, or a pint Quantity) in the SI ``unit``; one-line errors."""
+    import pint
+
+    from tdse.units import registry
+
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        raise InputError(f"`{name}` needs units, e.g. \"{example}\", got {value!r}")
+    try:
+        quantity = registry().Quantity(value) if isinstance(value, str) else value
+        result = float(quantity.to(unit).magnitude)
+    except (pint.errors.PintError, AttributeError, ValueError, TypeError):
+        raise InputError(f"`{name}` must be a quantity like \"{example}\", got {value!r}") from None
+    if not (math.isfinite(result) and result > 0):
+        raise InputError(f"`{name}` must be > 0, got {value!r}")
+    return result
+
+
+def _gas_density_cm3(density, pressure, temperature) -> float | None:
+    from tdse.units import BOHR_M, to_au
+
+    if density is not None and pressure is not None:
+        raise InputError("`density` and `pressure` exclude each other; give one")
+    if density is not None:
+        n = to_au(density, "density", name="density") / (BOHR_M * 100.0) ** 3
+        if not n > 0:
+            raise InputError(f"`density` must be > 0, got {density!r}")
+        return n
+    if pressure is not None:
+        p = _si(pressure, "pascal", "pressure", "1e-6 mbar")
+        T = _si(temperature, "kelvin", "temperature", "293 K")
+        return p / (1.380649e-23 * T) * 1e-6          # ideal gas, k_B exact (SI 2019); per cm³
+    return None
+
+
+def _nearest_transition(atom, pulse, state):
+    """(upper level, detuning, spectral width) of the dipole transition from ``state`` nearest to a
+    carrier, or None when none lies within RESONANCE_WIDTHS spectral widths."""
+    from tdse.atom import State
+    from tdse.atom.levels import energy
+
+    best = None
+    for n in range(1, N_UPPER_MAX + 1):
+        if n == state.n:
+            continue
+        for l_up in (state.l - 1, state.l + 1):
+            if not 0 <= l_up < n:
+                continue
+            w_ul = energy(atom, n) - energy(atom, state.n)
+            for c in pulse.components:
+                if c.omega <= 0 or w_ul <= 0:
+                    continue
+                width = 2 * math.pi / (c.fwhm if c.fwhm is not None else c.length) + abs(c.chirp) * c.length / 2
+                delta = c.omega - w_ul
+                if abs(delta) <= RESONANCE_WIDTHS * width and (best is None or abs(delta) / width < best[3]):
+                    best = (State(n, l_up), delta, width, abs(delta) / width)
+    return None if best is None else best[:3]
+
+
+def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None, temperature="293 K",
+             length=None) -> dict:
+    """Quick single-atom and focal-volume estimates for the run ``config`` (module docstring)."""
+    from tdse.atom import State
+    from tdse.campaign.config import load_config
+    from tdse.estimate.focus import focal_count, pulse_energy, rayleigh_length
+    from tdse.estimate.rates import excitation_first_order, tunnelling_exponent
+    from tdse.observables.perturbation import first_order_ionization
+    from tdse.atom.dipoles import lifetime as upper_lifetime
+    from tdse.units import AU_FLUENCE_JCM2, AU_INTENSITY_WCM2, AU_TIME_S, BOHR_M, C_AU, HARTREE_EV, to_au
+
+    cfg = load_config(config)
+    atom, pulse, initial = cfg.build_atom(), cfg.build_pulse(), cfg.initial_states()
+    if pulse is None:
+        raise InputError("`pulse`: an estimate needs a [[pulse]] table")
+    if len(initial) != 1:
+        raise InputError("`atom.initial`: an estimate needs one initial state, not a superposition")
+    state = initial[0][0]
+    state = state if state.m is not None else State(state.n, state.l, 0)
+    if not 1.0 <= m2 < 100.0:
+        raise InputError(f"`m2` (beam quality M²) must be within [1, 100), got {m2!r}")
+    w0_m = None if waist is None else to_au(waist, "length", name="waist") * BOHR_M
+    length_m = None if length is None else to_au(length, "length", name="length") * BOHR_M
+    for name, value, given in (("waist", w0_m, waist), ("length", length_m, length)):
+        if value is not None and not value > 0:
+            raise InputError(f"`{name}` must be > 0, got {given!r}")
+    n_cm3 = _gas_density_cm3(density, pressure, temperature)
+    ip = atom.Z**2 * atom.reduced_mass / (2.0 * state.n**2)
+    strongest = max(pulse.components, key=lambda c: c.intensity)
+    i0 = strongest.intensity
+    if not i0 > 0 or strongest.omega <= 0:
+        raise InputError("`pulse`: an estimate needs a pulse with a carrier and a nonzero intensity")
+    up = i0 / (4 * strongest.omega**2)
+    keldysh = math.sqrt(ip / (2 * up))
+    i_bs = ip**4 / (16 * atom.Z**2)
+    notes = []
+
+    # ionisation of one atom, P(s) at s·I0
+    if max(c.omega for c in pulse.components) >= ip:
+        p1 = first_order_ionization(atom, pulse, state.label)
+        regime = "one-photon"
+
+        def exponent(s):
+            return p1 * np.asarray(s, dtype=float)
+
+        notes.append("ionisation: one photon above threshold, first-order (golden-rule) probability "
+                     "saturated as 1 - exp(-P1)")
+        saturation = i0 / p1 if p1 > 0 else math.inf
+    else:
+        regime = "tunnelling" if keldysh < 1 else "multiphoton"
+
+        def exponent(s):
+            return tunnelling_exponent(pulse, ip, atom.Z, state.l, state.m, s)
+
+        notes.append(f"ionisation: ADK tunnelling rate over the pulse (Keldysh gamma {keldysh:.3g})")
+        if keldysh >= 1:
+            notes.append("gamma >= 1: multiphoton regime, where the tunnelling rate is not valid (it "
+                         "underestimates); run the grid route (tdse run) for the full answer")
+        lo, hi = -8.0, 8.0
+        if exponent(10**hi) < 1:
+            saturation = math.inf
+        else:
+            for _ in range(60):
+                mid = 0.5 * (lo + hi)
+                lo, hi = (mid, hi) if exponent(10**mid) < 1 else (lo, mid)
+            saturation = i0 * 10**hi
+    if i0 > i_bs:
+        notes.append("peak intensity above barrier suppression: over-the-barrier ionisation, the "
+                     "estimate is an upper bound on the time to saturate")
+
+    def ionization(s):
+        return -np.expm1(-exponent(s))
+
+    out = {"state": state.label, "ionization_potential_eV": ip * HARTREE_EV, "regime": regime,
+           "peak_intensity_Wcm2": i0 * AU_INTENSITY_WCM2, "peak_field_au": strongest.peak_field,
+           "keldysh": keldysh, "barrier_suppression_Wcm2": i_bs * AU_INTENSITY_WCM2,
+           "ionization": float(ionization(1.0)), "saturation_intensity_Wcm2": saturation * AU_INTENSITY_WCM2}
+
+    # excitation of the nearest resonance
+    near = _nearest_transition(atom, pulse, state)
+    excitation = None
+    if near is not None:
+        upper, delta, width = near
+        p1_exc = excitation_first_order(pulse, atom, state, upper)
+
+        def excitation(s):
+            return np.sin(np.sqrt(p1_exc * np.asarray(s, dtype=float))) ** 2
+
+        lifetime = upper_lifetime(atom, upper)
+        out["excitation"] = {"transition": f"{state.label}-{upper.label}", "detuning_eV": delta * HARTREE_EV,
+                             "spectral_width_eV": width * HARTREE_EV, "pulse_area_rad": 2 * math.sqrt(p1_exc),
+                             "probability": float(excitation(1.0)), "upper_lifetime_s": lifetime * AU_TIME_S}
+        notes.append(f"excitation {state.label} -> {upper.label}: two-level pulse-area estimate "
+                     f"sin^2(theta/2) with the detuning in first order; no decay (run route levels for it)")
+        window = max(c.length for c in pulse.components)
+        if lifetime < window:
+            notes.append(f"{upper.label} lives {lifetime * AU_TIME_S:.3g} s, less than the pulse window "
+                         f"({window * AU_TIME_S:.3g} s): decay during the pulse lowers the excited fraction")
+    else:
+        out["excitation"] = None
+        notes.append(f"excitation: no dipole transition from {state.label} within {RESONANCE_WIDTHS:g} "
+                     "spectral widths of a carrier")
+
+    # focus and gas
+    if w0_m is not None:
+        wavelength_m = 2 * math.pi * C_AU / strongest.omega * BOHR_M
+        z_r = rayleigh_length(w0_m, wavelength_m, m2)
+        fluence_jm2 = strongest.fluence() * AU_FLUENCE_JCM2 * 1e4
+        out.update({"waist_m": w0_m, "m2": m2, "rayleigh_length_m": z_r,
+                    "pulse_energy_J": pulse_energy(fluence_jm2, w0_m)})
+        if n_cm3 is not None and length_m is not None:
+            n_m3 = n_cm3 * 1e6
+            out.update({"density_cm3": n_cm3, "length_m": length_m,
+                        "ions_per_shot": focal_count(ionization, n_m3, w0_m, z_r, length_m)})
+            if excitation is not None:
+                out["excited_per_shot"] = focal_count(excitation, n_m3, w0_m, z_r, length_m)
+        elif n_cm3 is not None or length_m is not None:
+            notes.append("atom counts need both a gas density (or pressure) and an interaction length")
+    elif n_cm3 is not None or length_m is not None:
+        notes.append("atom counts need a focus: give the waist")
+    out["notes"] = notes
+    return out
