@@ -15,7 +15,7 @@ from tdse.errors import InputError
 
 # modules that define subcommands; each has register(subparsers)
 _COMMAND_MODULES = ["tdse.cli.atom_cmds", "tdse.cli.pulse_cmd", "tdse.cli.run_cmd", "tdse.cli.campaign_cmds",
-                    "tdse.cli.estimate_cmd"]
+                    "tdse.cli.estimate_cmd", "tdse.cli.plot_cmd", "tdse.cli.check_cmd"]
 
 SAFETY_CAUTION = (
     "CAUTION: lasers at these intensities are class-4 hazards: direct, reflected and scattered beams "
@@ -98,7 +98,7 @@ def main(argv=None) -> int:
         payload = args.handler(args)
         if getattr(args, "json", False) and payload is not None:
             emit_json(payload)
-        return 0
+        return getattr(args, "exit_code", 0)         # a handler may report e.g. a failed check with 1
     except InputError as exc:
         sys.stderr.write(f"tdse: error: {exc}\n")
         return 2
