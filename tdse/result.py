@@ -205,22 +205,25 @@ def read_result(path) -> Result:
     with f:
         if not bool(f.attrs.get("complete", False)):
             raise InputError(f"result file {str(path)!r} is not complete (an unfinished or failed run)")
-        labels = [s.decode() if isinstance(s, bytes) else s for s in f["populations/labels"][()]]
-        values = f["populations/values"][()]
-        result = Result(
-            route=str(f.attrs["route"]),
-            populations={k: float(v) for k, v in zip(labels, values)},
-            ionization=float(f.attrs["ionization"]),
-            norm=float(f.attrs["norm"]),
-            times=f["times"][()],
-            history_populations={k: v[()] for k, v in f["history/populations"].items()},
-            series={k: v[()] for k, v in f["history/series"].items()},
-            spectra={name: {k: v[()] for k, v in g.items()} for name, g in f["spectra"].items()},
-            stats=_json_attr(f, "stats", {}),
-            warnings=_json_attr(f, "warnings", []),
-            config=str(f.attrs.get("config", "")),
-            metadata=_json_attr(f, "metadata", {}),
-        )
+        try:
+            labels = [s.decode() if isinstance(s, bytes) else s for s in f["populations/labels"][()]]
+            values = f["populations/values"][()]
+            result = Result(
+                route=str(f.attrs["route"]),
+                populations={k: float(v) for k, v in zip(labels, values)},
+                ionization=float(f.attrs["ionization"]),
+                norm=float(f.attrs["norm"]),
+                times=f["times"][()],
+                history_populations={k: v[()] for k, v in f["history/populations"].items()},
+                series={k: v[()] for k, v in f["history/series"].items()},
+                spectra={name: {k: v[()] for k, v in g.items()} for name, g in f["spectra"].items()},
+                stats=_json_attr(f, "stats", {}),
+                warnings=_json_attr(f, "warnings", []),
+                config=str(f.attrs.get("config", "")),
+                metadata=_json_attr(f, "metadata", {}),
+            )
+        except (KeyError, ValueError, OSError) as exc:    # marked complete but a part is missing or unreadable
+            raise InputError(f"result file {str(path)!r} is damaged: {exc}") from None
         stored = f.attrs.get("sha256")
     if stored is not None and str(stored) != content_digest(result):
         raise InputError(f"result file {str(path)!r} is damaged: its content does not match its "

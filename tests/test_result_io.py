@@ -52,7 +52,7 @@ def test_garbage_file(tmp_path):
         read_result(path)
 
 
-@pytest.mark.parametrize("damage", ["array byte", "population", "attribute"])
+@pytest.mark.parametrize("damage", ["array byte", "population", "attribute", "missing dataset"])
 def test_damaged_content_is_refused(tmp_path, damage):
     path = write_result(tmp_path / "r.h5", _result())
     if damage == "array byte":                            # one bit flipped on disk, file still opens
@@ -65,6 +65,8 @@ def test_damaged_content_is_refused(tmp_path, damage):
         with h5py.File(path, "a") as f:
             if damage == "population":
                 f["populations/values"][1] = 0.7500000001
+            elif damage == "missing dataset":
+                del f["populations/labels"]
             else:
                 f.attrs["ionization"] = 1e-3
     assert is_complete(path)                              # looks finished ...
