@@ -168,3 +168,25 @@ def test_peak_quantities_in_lab_units():
     assert out["peak_field_au"] == pytest.approx(0.05338, rel=1e-4)        # I = F0^2 * 3.50945e16 W/cm^2 (PHYSICS.md)
     assert out["keldysh"] == pytest.approx(1.067, rel=1e-3)                # 800 nm, 1e14 W/cm^2, H (common practice)
     assert out["barrier_suppression_Wcm2"] == pytest.approx(1.37e14, rel=3e-3)   # 4.00e9 Ip^4[eV]/Z^2 (Augst et al. 1989)
+
+
+def test_static_field_uses_the_rate_over_ramp_and_plateau():
+    # exponent between w(F)(T - R) and w(F) T, w = Landau's rate for H(1s) (Landau & Lifshitz, QM §77)
+    cfg = {"atom": {"Z": 1, "nucleus": "infinite", "initial": "1s"}, "solver": {"route": "grid"},
+           "pulse": [{"envelope": "static", "peak_field": 0.04, "ramp": 50.0, "length": 400.0}]}
+    out = estimate(cfg, waist="10 um")
+    rate = 4 / 0.04 * math.exp(-2 / (3 * 0.04))
+    exponent = -math.log1p(-out["ionization"])
+    assert out["regime"] == "static field" and rate * 350 < exponent < rate * 400
+    assert out["barrier_suppression_field_au"] == pytest.approx(1 / 16, rel=1e-12)   # Ip^2/(4Z) (Augst et al. 1989)
+    assert any("no focus" in note for note in out["notes"])
+
+
+def test_long_two_colour_pulses_stay_quick():
+    # nanosecond ladder excitation (two colours): the field enters through its distribution and the
+    # far-off-resonant colour is skipped, so the estimate takes about a second (it used to hang)
+    from pathlib import Path
+
+    out = estimate(Path(__file__).resolve().parents[1] / "configs" / "levels_ladder_3d.toml",
+                   waist="100 um", density="1e10 cm^-3", length="1 mm")
+    assert out["excitation"]["transition"] == "1s0-2p" and out["ionization"] < 1e-30
