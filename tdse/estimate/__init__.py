@@ -9,8 +9,9 @@ returns a dict of plain floats in the units their keys name:
   intensity I_BS = Iₚ⁴/(16 Z²) (a.u.; Augst et al., PRL 63, 2212 (1989));
 * ``ionization``: the single-atom probability at the peak intensity by the model the regime
   allows (:mod:`tdse.estimate.rates`): one photon above threshold → first-order golden rule,
-  saturated; otherwise → tunnelling (ADK), with a note when γ > 1 (multiphoton regime, where it
-  is not valid); ``saturation_intensity_Wcm2`` where the exponent reaches 1 (P = 1 − 1/e);
+  saturated; below it → the cycle-averaged PPT rate along the envelope (tunnelling for γ < 1,
+  multiphoton for γ > 1); a static field → the ADK rate; ``saturation_intensity_Wcm2`` where the
+  exponent reaches 1 (P = 1 − 1/e);
 * ``excitation``: for the dipole transition from the initial level nearest to resonance with a
   carrier (within 10 spectral widths), the two-level pulse-area estimate;
 * with a focus (``waist`` = 1/e² intensity radius w₀, ``m2``): Rayleigh length and the pulse energy
@@ -100,10 +101,10 @@ def _nearest_transition(atom, pulse, state):
 
 def _static_estimate(atom, pulse, state, ip: float, focus_given: bool) -> dict:
     """A DC field only: ADK tunnelling over the ramp and plateau; no intensity, focus or resonance."""
-    from tdse.estimate.rates import tunnelling_exponent
+    from tdse.estimate.rates import ionization_exponent
     from tdse.units import HARTREE_EV
 
-    exponent = float(tunnelling_exponent(pulse, ip, atom.Z, state.l, state.m))
+    exponent = float(ionization_exponent(pulse, ip, atom.Z, state.l, state.m)(1.0))
     f_bs = ip**2 / (4 * atom.Z)
     field = max(c.peak_field for c in pulse.components)
     notes = ["static field: ADK tunnelling rate over the ramp and the plateau (for H(1s) it exceeds the exact "
@@ -123,7 +124,7 @@ def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None
     from tdse.atom import State
     from tdse.campaign.config import load_config
     from tdse.estimate.focus import focal_count, pulse_energy, rayleigh_length
-    from tdse.estimate.rates import excitation_first_order, tunnelling_exponent
+    from tdse.estimate.rates import excitation_first_order, ionization_exponent
     from tdse.observables.perturbation import first_order_ionization
     from tdse.atom.dipoles import lifetime as upper_lifetime
     from tdse.units import AU_FLUENCE_JCM2, AU_INTENSITY_WCM2, AU_TIME_S, BOHR_M, C_AU, HARTREE_EV, to_au
@@ -170,14 +171,12 @@ def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None
         saturation = i0 / p1 if p1 > 0 else math.inf
     else:
         regime = "tunnelling" if keldysh < 1 else "multiphoton"
-
-        def exponent(s):
-            return tunnelling_exponent(pulse, ip, atom.Z, state.l, state.m, s)
-
-        notes.append(f"ionisation: ADK tunnelling rate over the pulse (Keldysh gamma {keldysh:.3g})")
-        if keldysh >= 1:
-            notes.append("gamma >= 1: multiphoton regime, where the tunnelling rate is not valid (it "
-                         "underestimates); run the grid route (tdse run) for the full answer")
+        exponent = ionization_exponent(pulse, ip, atom.Z, state.l, state.m)
+        notes.append(f"ionisation: PPT rate (Perelomov, Popov & Terent'ev 1966), cycle-averaged along the "
+                     f"envelope (Keldysh gamma {keldysh:.3g}); the grid route (tdse run) gives the full answer")
+        if len(lasers) > 1:
+            notes.append("several pulses: the rate follows the sum of their envelopes at the carrier of the "
+                         "strongest (an upper bound where colours beat)")
         lo, hi = -8.0, 8.0
         if exponent(10**hi) < 1:
             saturation = math.inf
