@@ -134,7 +134,7 @@ def test_tunnelling_regime_and_saturation_intensity():
 
 
 @pytest.mark.parametrize("area", [math.pi / 2, math.pi])
-def test_resonant_excitation_is_the_pulse_area_result_and_agrees_with_the_levels_route(area):
+def test_resonant_excitation_is_the_pulse_area_result_and_agrees_with_the_levels_route(area, tmp_path):
     # P = sin^2(theta/2) on resonance (Allen & Eberly 1975); the levels route without decay must agree
     from tdse.api import run
 
@@ -147,11 +147,11 @@ def test_resonant_excitation_is_the_pulse_area_result_and_agrees_with_the_levels
     assert out["excitation"]["transition"] == "1s0-2p"
     assert out["excitation"]["pulse_area_rad"] == pytest.approx(area, rel=1e-9)
     assert out["excitation"]["probability"] == pytest.approx(math.sin(area / 2) ** 2, abs=1e-9)
-    full = run(cfg, progress=False)
+    full = run(cfg, out=tmp_path, progress=False)
     assert out["excitation"]["probability"] == pytest.approx(full.populations["2p"], abs=1e-5)
 
 
-def test_detuned_weak_excitation_agrees_with_the_levels_route():
+def test_detuned_weak_excitation_agrees_with_the_levels_route(tmp_path):
     # first-order RWA amplitude off resonance; the levels route (qutip) is the reference. The field is
     # weak enough that the light shift Omega^2/(4 delta), which first order leaves out, stays below 1e-3 here
     from tdse.api import run
@@ -160,7 +160,7 @@ def test_detuned_weak_excitation_agrees_with_the_levels_route():
            "pulse": [{"envelope": "gaussian", "photon_energy": 0.375 + 2e-4, "peak_field": 2e-6, "fwhm": 2e4}],
            "solver": {"route": "levels", "states": ["1s", "2p"], "decay": False}}
     out = estimate(cfg)
-    full = run(cfg, progress=False)
+    full = run(cfg, out=tmp_path, progress=False)
     assert 1e-7 < full.populations["2p"] < 1e-4
     assert out["excitation"]["probability"] == pytest.approx(full.populations["2p"], rel=1e-3)
 
@@ -218,7 +218,7 @@ def test_long_two_colour_pulses_stay_quick():
 
 
 @pytest.mark.slow
-def test_ppt_estimate_is_near_the_full_tdse_for_hydrogen_at_800_nm():
+def test_ppt_estimate_is_near_the_full_tdse_for_hydrogen_at_800_nm(tmp_path):
     # 8-cycle 800 nm pulse at 1e14 W/cm^2 (gamma = 1.07, between the regimes): the quick PPT estimate
     # against the grid route's TDSE solution of the same config (measured: 1.53 % vs 1.37 %)
     from pathlib import Path
@@ -226,7 +226,7 @@ def test_ppt_estimate_is_near_the_full_tdse_for_hydrogen_at_800_nm():
     from tdse.api import run
 
     config = Path(__file__).resolve().parents[1] / "configs" / "kestrel_ir_grid.toml"
-    full = run(config, progress=False)
+    full = run(config, out=tmp_path, progress=False)
     quick = estimate(config)
     assert quick["regime"] == "multiphoton"
     assert 1 / 1.5 < quick["ionization"] / full.ionization < 1.5
