@@ -118,16 +118,88 @@ def _static_estimate(atom, pulse, state, ip: float, focus_given: bool) -> dict:
             "ionization": float(-math.expm1(-exponent)), "excitation": None, "notes": notes}
 
 
+def _lab_inputs(waist, length, m2, density, pressure, temperature):
+    """(w₀ in m or None, length in m or None, density in cm⁻³ or None), each checked."""
+    from tdse.units import BOHR_M, to_au
+
+    if not 1.0 <= m2 < 100.0:
+        raise InputError(f"`m2` (beam quality M²) must be within [1, 100), got {m2!r}")
+    values = []
+    for name, given in (("waist", waist), ("length", length)):
+        value = None if given is None else to_au(given, "length", name=name) * BOHR_M
+        if value is not None and not value > 0:
+            raise InputError(f"`{name}` must be > 0, got {given!r}")
+        values.append(value)
+    return values[0], values[1], _gas_density_cm3(density, pressure, temperature)
+
+
+def _saturation_scale(exponent) -> float:
+    """The intensity scale s where exponent(s) = 1 (P = 1 − 1/e), by bisection in log s over
+    [1e-8, 1e8]; inf when the exponent stays below 1."""
+    lo, hi = -8.0, 8.0
+    if exponent(10**hi) < 1:
+        return math.inf
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        lo, hi = (mid, hi) if exponent(10**mid) < 1 else (lo, mid)
+    return 10**hi
+
+
+def _ionization_model(atom, pulse, state, ip: float, keldysh: float, lasers) -> tuple[str, object, list]:
+    """(regime, s ↦ ∫w dt, notes): one photon above threshold → golden rule; otherwise PPT."""
+    from tdse.estimate.rates import ionization_exponent
+    from tdse.observables.perturbation import first_order_ionization
+
+    if max(c.omega for c in lasers) >= ip:
+        p1 = first_order_ionization(atom, pulse, state.label)
+        notes = ["ionisation: one photon above threshold, first-order (golden-rule) probability saturated "
+                 "as 1 - exp(-P1)"]
+        return "one-photon", lambda s: p1 * np.asarray(s, dtype=float), notes
+    notes = [f"ionisation: PPT rate (Perelomov, Popov & Terent'ev 1966), cycle-averaged along the envelope "
+             f"(Keldysh gamma {keldysh:.3g}); the grid route (tdse run) gives the full answer"]
+    if len(lasers) > 1:
+        notes.append("several pulses: the rate follows the sum of their envelopes at the carrier of the "
+                     "strongest (an upper bound where colours beat)")
+    regime = "tunnelling" if keldysh < 1 else "multiphoton"
+    return regime, ionization_exponent(pulse, ip, atom.Z, state.l, state.m), notes
+
+
+def _excitation_model(atom, pulse, state) -> tuple[dict | None, object, list]:
+    """(summary, s ↦ P_exc, notes) for the nearest resonance, or (None, None, notes)."""
+    from tdse.atom.dipoles import lifetime
+    from tdse.estimate.rates import excitation_first_order
+    from tdse.units import AU_TIME_S, HARTREE_EV
+
+    near = _nearest_transition(atom, pulse, state)
+    if near is None:
+        return None, None, [f"excitation: no dipole transition from {state.label} within "
+                            f"{RESONANCE_WIDTHS:g} spectral widths of a carrier"]
+    upper, delta, width = near
+    p1 = excitation_first_order(pulse, atom, state, upper)
+
+    def probability(s):
+        return np.sin(np.sqrt(p1 * np.asarray(s, dtype=float))) ** 2
+
+    tau = lifetime(atom, upper)
+    summary = {"transition": f"{state.label}-{upper.label}", "detuning_eV": delta * HARTREE_EV,
+               "spectral_width_eV": width * HARTREE_EV, "pulse_area_rad": 2 * math.sqrt(p1),
+               "probability": float(probability(1.0)), "upper_lifetime_s": tau * AU_TIME_S}
+    notes = [f"excitation {state.label} -> {upper.label}: two-level pulse-area estimate sin^2(theta/2) with "
+             f"the detuning in first order; no decay (run route levels for it)"]
+    window = max(c.length for c in pulse.components)
+    if tau < window:
+        notes.append(f"{upper.label} lives {tau * AU_TIME_S:.3g} s, less than the pulse window "
+                     f"({window * AU_TIME_S:.3g} s): decay during the pulse lowers the excited fraction")
+    return summary, probability, notes
+
+
 def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None, temperature="293 K",
              length=None) -> dict:
     """Quick single-atom and focal-volume estimates for the run ``config`` (module docstring)."""
     from tdse.atom import State
     from tdse.campaign.config import load_config
     from tdse.estimate.focus import focal_count, pulse_energy, rayleigh_length
-    from tdse.estimate.rates import excitation_first_order, ionization_exponent
-    from tdse.observables.perturbation import first_order_ionization
-    from tdse.atom.dipoles import lifetime as upper_lifetime
-    from tdse.units import AU_FLUENCE_JCM2, AU_INTENSITY_WCM2, AU_TIME_S, BOHR_M, C_AU, HARTREE_EV, to_au
+    from tdse.units import AU_FLUENCE_JCM2, AU_INTENSITY_WCM2, BOHR_M, C_AU, HARTREE_EV
 
     cfg = load_config(config)
     atom, pulse, initial = cfg.build_atom(), cfg.build_pulse(), cfg.initial_states()
@@ -137,14 +209,7 @@ def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None
         raise InputError("`atom.initial`: an estimate needs one initial state, not a superposition")
     state = initial[0][0]
     state = state if state.m is not None else State(state.n, state.l, 0)
-    if not 1.0 <= m2 < 100.0:
-        raise InputError(f"`m2` (beam quality M²) must be within [1, 100), got {m2!r}")
-    w0_m = None if waist is None else to_au(waist, "length", name="waist") * BOHR_M
-    length_m = None if length is None else to_au(length, "length", name="length") * BOHR_M
-    for name, value, given in (("waist", w0_m, waist), ("length", length_m, length)):
-        if value is not None and not value > 0:
-            raise InputError(f"`{name}` must be > 0, got {given!r}")
-    n_cm3 = _gas_density_cm3(density, pressure, temperature)
+    w0_m, length_m, n_cm3 = _lab_inputs(waist, length, m2, density, pressure, temperature)
     ip = atom.Z**2 * atom.reduced_mass / (2.0 * state.n**2)
     lasers = [c for c in pulse.components if c.omega > 0]
     if not lasers:
@@ -153,88 +218,35 @@ def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None
     i0 = strongest.intensity
     if not i0 > 0:
         raise InputError("`pulse`: an estimate needs a pulse of nonzero intensity")
-    up = i0 / (4 * strongest.omega**2)
-    keldysh = math.sqrt(ip / (2 * up))
+    keldysh = math.sqrt(ip / (2 * i0 / (4 * strongest.omega**2)))          # γ = √(Iₚ/(2Uₚ))
     i_bs = ip**4 / (16 * atom.Z**2)
-    notes = []
 
-    # ionisation of one atom, P(s) at s·I0
-    if max(c.omega for c in pulse.components) >= ip:
-        p1 = first_order_ionization(atom, pulse, state.label)
-        regime = "one-photon"
-
-        def exponent(s):
-            return p1 * np.asarray(s, dtype=float)
-
-        notes.append("ionisation: one photon above threshold, first-order (golden-rule) probability "
-                     "saturated as 1 - exp(-P1)")
-        saturation = i0 / p1 if p1 > 0 else math.inf
-    else:
-        regime = "tunnelling" if keldysh < 1 else "multiphoton"
-        exponent = ionization_exponent(pulse, ip, atom.Z, state.l, state.m)
-        notes.append(f"ionisation: PPT rate (Perelomov, Popov & Terent'ev 1966), cycle-averaged along the "
-                     f"envelope (Keldysh gamma {keldysh:.3g}); the grid route (tdse run) gives the full answer")
-        if len(lasers) > 1:
-            notes.append("several pulses: the rate follows the sum of their envelopes at the carrier of the "
-                         "strongest (an upper bound where colours beat)")
-        lo, hi = -8.0, 8.0
-        if exponent(10**hi) < 1:
-            saturation = math.inf
-        else:
-            for _ in range(60):
-                mid = 0.5 * (lo + hi)
-                lo, hi = (mid, hi) if exponent(10**mid) < 1 else (lo, mid)
-            saturation = i0 * 10**hi
+    regime, exponent, notes = _ionization_model(atom, pulse, state, ip, keldysh, lasers)
     if i0 > i_bs:
-        notes.append("peak intensity above barrier suppression: over-the-barrier ionisation, the "
-                     "estimate is an upper bound on the time to saturate")
+        notes.append("peak intensity above barrier suppression: over-the-barrier ionisation, outside the "
+                     "range of the rate formulas (the atoms ionise early in the pulse)")
 
     def ionization(s):
         return -np.expm1(-exponent(s))
 
+    excitation, excited, more = _excitation_model(atom, pulse, state)
+    notes += more
     out = {"state": state.label, "ionization_potential_eV": ip * HARTREE_EV, "regime": regime,
            "peak_intensity_Wcm2": i0 * AU_INTENSITY_WCM2, "peak_field_au": strongest.peak_field,
            "keldysh": keldysh, "barrier_suppression_Wcm2": i_bs * AU_INTENSITY_WCM2,
-           "ionization": float(ionization(1.0)), "saturation_intensity_Wcm2": saturation * AU_INTENSITY_WCM2}
-
-    # excitation of the nearest resonance
-    near = _nearest_transition(atom, pulse, state)
-    excitation = None
-    if near is not None:
-        upper, delta, width = near
-        p1_exc = excitation_first_order(pulse, atom, state, upper)
-
-        def excitation(s):
-            return np.sin(np.sqrt(p1_exc * np.asarray(s, dtype=float))) ** 2
-
-        lifetime = upper_lifetime(atom, upper)
-        out["excitation"] = {"transition": f"{state.label}-{upper.label}", "detuning_eV": delta * HARTREE_EV,
-                             "spectral_width_eV": width * HARTREE_EV, "pulse_area_rad": 2 * math.sqrt(p1_exc),
-                             "probability": float(excitation(1.0)), "upper_lifetime_s": lifetime * AU_TIME_S}
-        notes.append(f"excitation {state.label} -> {upper.label}: two-level pulse-area estimate "
-                     f"sin^2(theta/2) with the detuning in first order; no decay (run route levels for it)")
-        window = max(c.length for c in pulse.components)
-        if lifetime < window:
-            notes.append(f"{upper.label} lives {lifetime * AU_TIME_S:.3g} s, less than the pulse window "
-                         f"({window * AU_TIME_S:.3g} s): decay during the pulse lowers the excited fraction")
-    else:
-        out["excitation"] = None
-        notes.append(f"excitation: no dipole transition from {state.label} within {RESONANCE_WIDTHS:g} "
-                     "spectral widths of a carrier")
-
-    # focus and gas
+           "ionization": float(ionization(1.0)),
+           "saturation_intensity_Wcm2": i0 * _saturation_scale(exponent) * AU_INTENSITY_WCM2,
+           "excitation": excitation}
     if w0_m is not None:
-        wavelength_m = 2 * math.pi * C_AU / strongest.omega * BOHR_M
-        z_r = rayleigh_length(w0_m, wavelength_m, m2)
-        fluence_jm2 = strongest.fluence() * AU_FLUENCE_JCM2 * 1e4
+        z_r = rayleigh_length(w0_m, 2 * math.pi * C_AU / strongest.omega * BOHR_M, m2)
         out.update({"waist_m": w0_m, "m2": m2, "rayleigh_length_m": z_r,
-                    "pulse_energy_J": pulse_energy(fluence_jm2, w0_m)})
+                    "pulse_energy_J": pulse_energy(strongest.fluence() * AU_FLUENCE_JCM2 * 1e4, w0_m)})
         if n_cm3 is not None and length_m is not None:
             n_m3 = n_cm3 * 1e6
             out.update({"density_cm3": n_cm3, "length_m": length_m,
                         "ions_per_shot": focal_count(ionization, n_m3, w0_m, z_r, length_m)})
-            if excitation is not None:
-                out["excited_per_shot"] = focal_count(excitation, n_m3, w0_m, z_r, length_m)
+            if excited is not None:
+                out["excited_per_shot"] = focal_count(excited, n_m3, w0_m, z_r, length_m)
         elif n_cm3 is not None or length_m is not None:
             notes.append("atom counts need both a gas density (or pressure) and an interaction length")
     elif n_cm3 is not None or length_m is not None:
