@@ -42,6 +42,16 @@ def spectral_width(component) -> float:
     return 2 * math.pi / duration + abs(component.chirp) * component.length / 2
 
 
+def _adk_constants(ip: float, Z: float, l: int, m: int) -> tuple[float, float, float]:
+    """(n*, C²_{n*l*}·f(l, m)·Iₚ, F₀) of the module docstring, with l* = n* − 1."""
+    n_star = Z / math.sqrt(2.0 * ip)
+    l_star = n_star - 1.0
+    c2 = 2.0 ** (2 * n_star) / (n_star * math.gamma(n_star + l_star + 1) * math.gamma(n_star - l_star))
+    m = abs(m)
+    f_lm = (2 * l + 1) * math.factorial(l + m) / (2**m * math.factorial(m) * math.factorial(l - m))
+    return n_star, c2 * f_lm * ip, (2.0 * ip) ** 1.5
+
+
 def adk_rate(field, ip: float, Z: float, l: int = 0, m: int = 0) -> np.ndarray:
     """Static tunnelling rate w(F) (a.u.) of the module docstring; 0 where F = 0.
 
@@ -49,15 +59,11 @@ def adk_rate(field, ip: float, Z: float, l: int = 0, m: int = 0) -> np.ndarray:
     True
     """
     F = np.abs(np.asarray(field, dtype=float))
-    n_star = Z / math.sqrt(2.0 * ip)
-    l_star = n_star - 1.0
-    c2 = 2.0 ** (2 * n_star) / (n_star * math.gamma(n_star + l_star + 1) * math.gamma(n_star - l_star))
+    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m)
     m = abs(m)
-    f_lm = (2 * l + 1) * math.factorial(l + m) / (2**m * math.factorial(m) * math.factorial(l - m))
-    f0 = (2.0 * ip) ** 1.5
     out = np.zeros_like(F)
     on = F > 0
-    out[on] = c2 * f_lm * ip * (2 * f0 / F[on]) ** (2 * n_star - m - 1) * np.exp(-2 * f0 / (3 * F[on]))
+    out[on] = prefactor * (2 * f0 / F[on]) ** (2 * n_star - m - 1) * np.exp(-2 * f0 / (3 * F[on]))
     return out
 
 
@@ -103,17 +109,13 @@ def ppt_factor(omega: float, gamma: float, ip: float, m: int = 0) -> float:
 def ppt_rate(field, omega: float, ip: float, Z: float, l: int = 0, m: int = 0) -> np.ndarray:
     """Cycle-averaged PPT rate (a.u.) at envelope field F and carrier ω (module docstring); 0 at F = 0."""
     F = np.abs(np.asarray(field, dtype=float))
-    n_star = Z / math.sqrt(2.0 * ip)
-    l_star = n_star - 1.0
-    c2 = 2.0 ** (2 * n_star) / (n_star * math.gamma(n_star + l_star + 1) * math.gamma(n_star - l_star))
+    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m)
     m = abs(m)
-    f_lm = (2 * l + 1) * math.factorial(l + m) / (2**m * math.factorial(m) * math.factorial(l - m))
-    f0 = (2.0 * ip) ** 1.5
     out = np.zeros_like(F)
     for i in np.flatnonzero(F > 0):
         gamma = omega * math.sqrt(2 * ip) / F.flat[i]
         g = 1.5 / gamma * ((1 + 1 / (2 * gamma**2)) * math.asinh(gamma) - math.sqrt(1 + gamma**2) / (2 * gamma))
-        out.flat[i] = (c2 * f_lm * ip * math.sqrt(6 / math.pi) * (2 * f0 / F.flat[i]) ** (2 * n_star - m - 1.5)
+        out.flat[i] = (prefactor * math.sqrt(6 / math.pi) * (2 * f0 / F.flat[i]) ** (2 * n_star - m - 1.5)
                        * (1 + gamma**2) ** (m / 2 + 0.75 - n_star) * ppt_factor(omega, gamma, ip, m)
                        * math.exp(-2 * f0 / (3 * F.flat[i]) * g))
     return out
