@@ -147,6 +147,9 @@ def test_resonant_excitation_is_the_pulse_area_result_and_agrees_with_the_levels
     assert out["excitation"]["transition"] == "1s0-2p"
     assert out["excitation"]["pulse_area_rad"] == pytest.approx(area, rel=1e-9)
     assert out["excitation"]["probability"] == pytest.approx(math.sin(area / 2) ** 2, abs=1e-9)
+    # theta grows as the field, sqrt(I): the pi pulse needs (pi/theta)^2 times this intensity (Allen & Eberly 1975)
+    pi_intensity = out["excitation"]["pi_pulse_intensity_Wcm2"]
+    assert pi_intensity == pytest.approx(out["peak_intensity_Wcm2"] * (math.pi / area) ** 2, rel=1e-9)
     full = run(cfg, out=tmp_path, progress=False)
     assert out["excitation"]["probability"] == pytest.approx(full.populations["2p"], abs=1e-5)
 

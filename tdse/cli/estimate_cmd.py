@@ -49,6 +49,8 @@ def table(out: dict) -> str:
         rows += [(f"excitation {exc['transition']}: detuning [eV]", f"{exc['detuning_eV']:.4g}"),
                  ("  pulse area [rad]", f"{exc['pulse_area_rad']:.4g}"),
                  ("  excitation probability at the peak", f"{exc['probability']:.4g}")]
+        if exc.get("pi_pulse_intensity_Wcm2") is not None:
+            rows.append(("  intensity of a pi pulse [W/cm^2]", f"{exc['pi_pulse_intensity_Wcm2']:.4g}"))
     width = max(len(label) for label, _ in rows)
     lines += [f"  {label:<{width}}  {value}" for label, value in rows]
     lines += [f"note: {note}" for note in out["notes"]]

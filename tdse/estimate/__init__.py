@@ -38,6 +38,7 @@ from tdse.errors import InputError
 from tdse.estimate.rates import RESONANCE_WIDTHS, spectral_width
 
 N_UPPER_MAX = 12            # upper levels searched for the nearest resonance
+SATURATION_SEARCH = 1e8     # saturation intensities are searched up to this many times the peak
 
 
 def _si(value, unit: str, name: str, example: str) -> float:
@@ -135,8 +136,8 @@ def _lab_inputs(waist, length, m2, density, pressure, temperature):
 
 def _saturation_scale(exponent) -> float:
     """The intensity scale s where exponent(s) = 1 (P = 1 − 1/e), by bisection in log s over
-    [1e-8, 1e8]; inf when the exponent stays below 1."""
-    lo, hi = -8.0, 8.0
+    [1e-8, SATURATION_SEARCH]; inf when the exponent stays below 1 there."""
+    lo, hi = -8.0, math.log10(SATURATION_SEARCH)
     if exponent(10**hi) < 1:
         return math.inf
     for _ in range(60):
@@ -164,11 +165,11 @@ def _ionization_model(atom, pulse, state, ip: float, keldysh: float, lasers) -> 
     return regime, ionization_exponent(pulse, ip, atom.Z, state.l, state.m), notes
 
 
-def _excitation_model(atom, pulse, state) -> tuple[dict | None, object, list]:
+def _excitation_model(atom, pulse, state, i0: float) -> tuple[dict | None, object, list]:
     """(summary, s ↦ P_exc, notes) for the nearest resonance, or (None, None, notes)."""
     from tdse.atom.dipoles import lifetime
     from tdse.estimate.rates import excitation_first_order
-    from tdse.units import AU_TIME_S, HARTREE_EV
+    from tdse.units import AU_INTENSITY_WCM2, AU_TIME_S, HARTREE_EV
 
     near = _nearest_transition(atom, pulse, state)
     if near is None:
@@ -181,9 +182,11 @@ def _excitation_model(atom, pulse, state) -> tuple[dict | None, object, list]:
         return np.sin(np.sqrt(p1 * np.asarray(s, dtype=float))) ** 2
 
     tau = lifetime(atom, upper)
+    area = 2 * math.sqrt(p1)                               # θ ∝ √I: θ = π at I0 (π/θ)²
     summary = {"transition": f"{state.label}-{upper.label}", "detuning_eV": delta * HARTREE_EV,
-               "spectral_width_eV": width * HARTREE_EV, "pulse_area_rad": 2 * math.sqrt(p1),
-               "probability": float(probability(1.0)), "upper_lifetime_s": tau * AU_TIME_S}
+               "spectral_width_eV": width * HARTREE_EV, "pulse_area_rad": area,
+               "probability": float(probability(1.0)), "upper_lifetime_s": tau * AU_TIME_S,
+               "pi_pulse_intensity_Wcm2": i0 * (math.pi / area) ** 2 * AU_INTENSITY_WCM2 if area > 0 else None}
     notes = [f"excitation {state.label} -> {upper.label}: two-level pulse-area estimate sin^2(theta/2) with "
              f"the detuning in first order; no decay (run route levels for it)"]
     window = max(c.length for c in pulse.components)
@@ -229,13 +232,17 @@ def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None
     def ionization(s):
         return -np.expm1(-exponent(s))
 
-    excitation, excited, more = _excitation_model(atom, pulse, state)
+    excitation, excited, more = _excitation_model(atom, pulse, state, i0)
     notes += more
+    saturation = _saturation_scale(exponent)
+    if math.isinf(saturation):
+        notes.append(f"ionisation does not saturate below {i0 * SATURATION_SEARCH * AU_INTENSITY_WCM2:.3g} W/cm^2 "
+                     "(the range searched)")
     out = {"state": state.label, "ionization_potential_eV": ip * HARTREE_EV, "regime": regime,
            "peak_intensity_Wcm2": i0 * AU_INTENSITY_WCM2, "peak_field_au": strongest.peak_field,
            "keldysh": keldysh, "barrier_suppression_Wcm2": i_bs * AU_INTENSITY_WCM2,
            "ionization": float(ionization(1.0)),
-           "saturation_intensity_Wcm2": i0 * _saturation_scale(exponent) * AU_INTENSITY_WCM2,
+           "saturation_intensity_Wcm2": None if math.isinf(saturation) else i0 * saturation * AU_INTENSITY_WCM2,
            "excitation": excitation}
     if w0_m is not None:
         z_r = rayleigh_length(w0_m, 2 * math.pi * C_AU / strongest.omega * BOHR_M, m2)
