@@ -42,17 +42,21 @@ def add_atom_options(parser: argparse.ArgumentParser) -> None:
                              '(default: "H" for Z=1, else the most abundant isotope)')
 
 
+def _map_floats(obj, fn):
+    """``obj`` as plain JSON-able Python (dict keys as str, sequences and numpy values as lists and
+    Python numbers) with ``fn`` applied to every float."""
+    if isinstance(obj, dict):
+        return {str(k): _map_floats(v, fn) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_map_floats(v, fn) for v in obj]
+    if hasattr(obj, "tolist"):
+        return _map_floats(obj.tolist(), fn)
+    return fn(obj) if isinstance(obj, float) else obj
+
+
 def _clean(obj):
     """Plain floats for JSON; NaN/inf -> null."""
-    if isinstance(obj, dict):
-        return {str(k): _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if hasattr(obj, "tolist"):
-        return _clean(obj.tolist())
-    if isinstance(obj, float) and not math.isfinite(obj):
-        return None
-    return obj
+    return _map_floats(obj, lambda x: x if math.isfinite(x) else None)
 
 
 def significant(obj, digits: int = 12):
@@ -62,13 +66,7 @@ def significant(obj, digits: int = 12):
     >>> significant({"I": [100.00000000000001, 2]})
     {'I': [100.0, 2]}
     """
-    if isinstance(obj, dict):
-        return {k: significant(v, digits) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [significant(v, digits) for v in obj]
-    if isinstance(obj, float) and math.isfinite(obj):
-        return float(f"{obj:.{digits}g}")
-    return obj
+    return _map_floats(obj, lambda x: float(f"{x:.{digits}g}") if math.isfinite(x) else x)
 
 
 def emit_json(payload: dict) -> None:
