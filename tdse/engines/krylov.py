@@ -219,7 +219,7 @@ class Coupling:
         self.products = 0
 
     def __matmul__(self, v: np.ndarray) -> np.ndarray:
-        """B v (used by tests and observables; the propagation calls :meth:`expm`)."""
+        """B v (used by the tests and the benchmark; the propagation calls :meth:`expm`)."""
         v = np.asarray(v, dtype=complex)
         xr, xi = np.ascontiguousarray(v.real), np.ascontiguousarray(v.imag)
         yr, yi = np.empty(self.size), np.empty(self.size)
