@@ -138,11 +138,10 @@ def _is_level(label: str) -> bool:
         return False
 
 
-def _level_histories(result) -> dict:
-    """History populations of the levels (labels without m); all labels if the result stores no
-    level label at all."""
-    levels = {k: v for k, v in result.history_populations.items() if _is_level(k)}
-    return levels or dict(result.history_populations)
+def _levels_only(populations: dict) -> dict:
+    """The entries of the levels (labels without m); all entries if there is no level label."""
+    levels = {k: v for k, v in populations.items() if _is_level(k)}
+    return levels or dict(populations)
 
 
 def _has_history(result) -> bool:
@@ -202,7 +201,7 @@ def _draw_histories(ax, result) -> None:
     from tdse.units import AU_TIME_S
 
     t_fs = np.asarray(result.times, dtype=float) * AU_TIME_S * 1e15
-    curves = dict(_level_histories(result))
+    curves = _levels_only(result.history_populations)
     if "ionization" in result.series:
         curves["ionization"] = result.series["ionization"]
     style = {"marker": "o", "ms": 3} if t_fs.size <= 20 else {}
@@ -220,7 +219,7 @@ def _draw_histories(ax, result) -> None:
 
 
 def _draw_final(ax, result) -> None:
-    levels = {k: v for k, v in result.populations.items() if _is_level(k)} or dict(result.populations)
+    levels = _levels_only(result.populations)
     labels = list(levels)
     ax.bar(range(len(labels)), [levels[k] for k in labels])
     ax.set_xticks(range(len(labels)), labels)

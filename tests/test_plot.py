@@ -102,11 +102,11 @@ def test_empty_history_draws_the_final_populations(tmp_path):
 
 
 def test_level_labels_only_in_the_history_panel():
-    from tdse.plotting import _level_histories
+    from tdse.plotting import _levels_only
 
-    assert list(_level_histories(_hand_made())) == ["1s", "2p"]
+    assert list(_levels_only(_hand_made().history_populations)) == ["1s", "2p"]
     only_m = _hand_made(history_populations={"2p-1": np.zeros(5), "2p0": np.ones(5)})
-    assert list(_level_histories(only_m)) == ["2p-1", "2p0"]     # no level label: draw what there is
+    assert list(_levels_only(only_m.history_populations)) == ["2p-1", "2p0"]   # no level label: draw what there is
 
 
 def test_nothing_to_draw_is_one_line(tmp_path, capsys):
