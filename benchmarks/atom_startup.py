@@ -1,6 +1,6 @@
-"""Start-up time of the light atom commands (``tdse lines``, ``state``, ``transition``).
+"""Start-up time of the light atom commands (``driven-atom lines``, ``state``, ``transition``).
 
-Each command runs as a fresh ``python -m tdse ... --json`` process a few times; the script prints
+Each command runs as a fresh ``python -m driven_atom ... --json`` process a few times; the script prints
 the median wall time and its ratio to two baselines measured in the same run: a bare interpreter
 (``python -c pass``) and ``python -c "import numpy"``. Ratios, not absolute times, are the
 result: the machine may be shared.
@@ -19,9 +19,9 @@ COMMANDS = {
     "python -c pass": [sys.executable, "-c", "pass"],
     "python -c 'import numpy'": [sys.executable, "-c", "import numpy"],
     "python -c 'import scipy.constants'": [sys.executable, "-c", "import scipy.constants"],
-    "tdse lines --json": [sys.executable, "-m", "tdse", "lines", "--json"],
-    "tdse state 3d --json": [sys.executable, "-m", "tdse", "state", "3d", "--json"],
-    "tdse transition 2p 1s --json": [sys.executable, "-m", "tdse", "transition", "2p", "1s", "--json"],
+    "driven-atom lines --json": [sys.executable, "-m", "driven_atom", "lines", "--json"],
+    "driven-atom state 3d --json": [sys.executable, "-m", "driven_atom", "state", "3d", "--json"],
+    "driven-atom transition 2p 1s --json": [sys.executable, "-m", "driven_atom", "transition", "2p", "1s", "--json"],
 }
 
 

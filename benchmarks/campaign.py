@@ -36,9 +36,9 @@ def config(n_jobs: int) -> dict:
 
 def direct(cfg: dict) -> float:
     """Seconds for all jobs through the engine in this process (config parsing excluded)."""
-    from tdse.campaign.config import load_config
-    from tdse.campaign.scan import expand
-    from tdse.engines import route_module
+    from driven_atom.campaign.config import load_config
+    from driven_atom.campaign.scan import expand
+    from driven_atom.engines import route_module
 
     prepared = []
     for job in expand(cfg).unique_jobs():
@@ -55,22 +55,22 @@ def direct(cfg: dict) -> float:
 
 def _warm(executor, workers: int, root: Path) -> float:
     """Run a few throw-away jobs so every worker has imported and compiled everything."""
-    import tdse
+    import driven_atom
 
     started = time.perf_counter()
     warm = config(2 * workers)
     warm["pulse"][0]["cycles"] = 100
-    tdse.scan(warm, root / f"warm-{time.monotonic_ns()}", executor=executor, progress=False)
+    driven_atom.scan(warm, root / f"warm-{time.monotonic_ns()}", executor=executor, progress=False)
     return time.perf_counter() - started
 
 
 def campaign(cfg: dict, executor, root: Path) -> tuple[float, float]:
     """(wall seconds of the campaign, sum of the engine's own seconds recorded in the job files)."""
-    import tdse
-    from tdse.campaign.store import campaign_status
+    import driven_atom
+    from driven_atom.campaign.store import campaign_status
 
     started = time.perf_counter()
-    folder = tdse.scan(cfg, root / f"run-{time.monotonic_ns()}", executor=executor, progress=False)
+    folder = driven_atom.scan(cfg, root / f"run-{time.monotonic_ns()}", executor=executor, progress=False)
     wall = time.perf_counter() - started
     return wall, campaign_status(folder)["wall_s_total"]
 
@@ -82,7 +82,7 @@ def main() -> None:
     args = parser.parse_args()
     from distributed import Client, LocalCluster
 
-    from tdse.campaign.executors import local_pool
+    from driven_atom.campaign.executors import local_pool
 
     cfg = config(args.jobs)
     t_direct = direct(cfg)

@@ -25,7 +25,7 @@ def reference_populations(atom, pulse, settings, initial_index: int):
     from scipy.integrate import solve_ivp
     from scipy.interpolate import make_interp_spline
 
-    from tdse.engines.levels import build_model, coupling
+    from driven_atom.engines.levels import build_model, coupling
 
     model = build_model(atom, settings.sublevels(), decay=settings.decay)
     terms, (ts, vals) = coupling(atom, pulse, model, settings)
@@ -67,11 +67,11 @@ def main(argv=None):
 
     import qutip  # noqa: F401  (imported before timing: the route imports it lazily)
 
-    from tdse.atom import Atom, State
-    from tdse.atom.levels import energy
-    from tdse.campaign.config import OutputConfig
-    from tdse.engines.levels import Settings, propagate
-    from tdse.pulse import Pulse
+    from driven_atom.atom import Atom, State
+    from driven_atom.atom.levels import energy
+    from driven_atom.campaign.config import OutputConfig
+    from driven_atom.engines.levels import Settings, propagate
+    from driven_atom.pulse import Pulse
 
     atom = Atom.from_name("H")
     w21 = energy(atom, 2) - energy(atom, 1)

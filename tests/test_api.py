@@ -5,7 +5,7 @@ import sys
 import numpy as np
 import pytest
 
-import tdse
+import driven_atom
 
 PUBLIC = ["Atom", "Pulse", "load_config", "run", "scan", "open_result", "open_campaign", "estimate",
           "lines", "transition", "state", "xsec"]
@@ -17,32 +17,32 @@ CONFIG = {"atom": {"Z": 1, "nucleus": "infinite", "initial": "1s"},
 
 
 def test_public_names_are_pinned():
-    assert set(PUBLIC) <= set(tdse.__all__)
+    assert set(PUBLIC) <= set(driven_atom.__all__)
 
 
 def test_run_and_open_result_round_trip(tmp_path):
-    cfg = tdse.load_config(CONFIG)
-    result = tdse.run(cfg, out=tmp_path, progress=False)
+    cfg = driven_atom.load_config(CONFIG)
+    result = driven_atom.run(cfg, out=tmp_path, progress=False)
     # θ = d F0 T/2 = π/2 with d = 2^7 √2/3^5: P = sin²(θ/2) = 1/2 (Allen & Eberly 1975)
     assert result.populations["2p0"] == pytest.approx(0.5, abs=1e-5)
-    back = tdse.open_result(result.metadata["file"])
+    back = driven_atom.open_result(result.metadata["file"])
     assert back.route == "levels" and back.populations == result.populations
     assert back.ionization == result.ionization and back.norm == result.norm
     np.testing.assert_array_equal(back.times, result.times)
     assert list(back.history_populations) == list(result.history_populations)
     np.testing.assert_array_equal(back.history_populations["2p0"], result.history_populations["2p0"])
-    assert tdse.load_config(CONFIG).physics_hash() in back.metadata["file"]
+    assert driven_atom.load_config(CONFIG).physics_hash() in back.metadata["file"]
     assert "[solver]" in back.config
 
 
 def test_load_config_from_a_path(tmp_path):
     path = tmp_path / "c.toml"
-    path.write_text(tdse.load_config(CONFIG).to_toml())
-    assert tdse.load_config(path).physics_hash() == tdse.load_config(CONFIG).physics_hash()
+    path.write_text(driven_atom.load_config(CONFIG).to_toml())
+    assert driven_atom.load_config(path).physics_hash() == driven_atom.load_config(CONFIG).physics_hash()
 
 
 def test_levels_route_and_run_command_import_light():
-    code = ("import sys, tdse, tdse.engines.levels, tdse.cli.run_cmd, tdse.observables.populations; "
+    code = ("import sys, driven_atom, driven_atom.engines.levels, driven_atom.cli.run_cmd, driven_atom.observables.populations; "
             "print(sorted(m for m in ('qutip', 'numba') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"

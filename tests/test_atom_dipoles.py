@@ -5,11 +5,11 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from tdse.atom import Atom, State
-from tdse.atom import dipoles
-from tdse.atom.radial import radial_function
-from tdse.errors import InputError
-from tdse.units import AU_TIME_S
+from driven_atom.atom import Atom, State
+from driven_atom.atom import dipoles
+from driven_atom.atom.radial import radial_function
+from driven_atom.errors import InputError
+from driven_atom.units import AU_TIME_S
 
 H = Atom.from_name("H")
 

@@ -3,10 +3,10 @@ import math
 
 import pytest
 
-from tdse.atom import Atom
-from tdse.atom import levels
-from tdse.errors import InputError
-from tdse.units import HARTREE_EV, RYDBERG_INF_M, energy_to_wavenumber_cm
+from driven_atom.atom import Atom
+from driven_atom.atom import levels
+from driven_atom.errors import InputError
+from driven_atom.units import HARTREE_EV, RYDBERG_INF_M, energy_to_wavenumber_cm
 
 H = Atom.from_name("H")
 

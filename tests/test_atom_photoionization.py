@@ -8,11 +8,11 @@ from scipy.integrate import quad
 from hypothesis import given, settings, strategies as st
 from scipy.special import zeta
 
-from tdse.atom import Atom, State
-from tdse.atom.dipoles import oscillator_strength
-from tdse.atom.photoionization import bound_free_integral, cross_section, cross_section_1s_closed_form
-from tdse.errors import InputError
-from tdse.units import ALPHA, BOHR2_CM2, HARTREE_EV
+from driven_atom.atom import Atom, State
+from driven_atom.atom.dipoles import oscillator_strength
+from driven_atom.atom.photoionization import bound_free_integral, cross_section, cross_section_1s_closed_form
+from driven_atom.errors import InputError
+from driven_atom.units import ALPHA, BOHR2_CM2, HARTREE_EV
 
 INF = Atom(1)   # infinite nuclear mass, I = 13.6057 eV
 

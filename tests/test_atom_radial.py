@@ -3,9 +3,9 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
-from tdse.atom import Atom
-from tdse.atom.radial import expectation_r, radial_function
-from tdse.errors import InputError
+from driven_atom.atom import Atom
+from driven_atom.atom.radial import expectation_r, radial_function
+from driven_atom.errors import InputError
 
 
 def _gauss_legendre(f, r_max, panels, order=24):

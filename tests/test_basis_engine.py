@@ -6,15 +6,15 @@ import pytest
 from scipy.integrate import solve_ivp
 from scipy.linalg import expm
 
-from tdse.atom import Atom, State
-from tdse.atom.dipoles import dipole_matrix_element
-from tdse.basis.eigenbasis import build_basis
-from tdse.campaign.config import OutputConfig
-from tdse.engines import route_module, settings_for
-from tdse.engines.eigenbasis import MagnusPropagator, Settings, propagate
-from tdse.engines.krylov import Coupling, KrylovFailure
-from tdse.errors import InputError
-from tdse.pulse import Pulse
+from driven_atom.atom import Atom, State
+from driven_atom.atom.dipoles import dipole_matrix_element
+from driven_atom.basis.eigenbasis import build_basis
+from driven_atom.campaign.config import OutputConfig
+from driven_atom.engines import route_module, settings_for
+from driven_atom.engines.eigenbasis import MagnusPropagator, Settings, propagate
+from driven_atom.engines.krylov import Coupling, KrylovFailure
+from driven_atom.errors import InputError
+from driven_atom.pulse import Pulse
 
 H = Atom(1)
 GROUND = [(State(1, 0), 1.0)]
@@ -184,7 +184,7 @@ def test_convergence_warning_when_top_partial_wave_is_populated():
 
 
 def test_run_through_api_writes_file_and_reuses_basis(tmp_path):
-    from tdse.api import open_result, run
+    from driven_atom.api import open_result, run
 
     config = {"atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
               "pulse": [{"photon_energy": "20 eV", "intensity": "1e12 W/cm^2", "cycles": 6}],
@@ -203,8 +203,8 @@ def test_run_through_api_writes_file_and_reuses_basis(tmp_path):
 
 
 def test_resume_from_checkpoint_equals_uninterrupted_run(tmp_path, monkeypatch):
-    from tdse.engines import eigenbasis
-    from tdse.result import Checkpoint
+    from driven_atom.engines import eigenbasis
+    from driven_atom.result import Checkpoint
 
     pulse = Pulse({"photon_energy": 0.4, "peak_field": 0.01, "cycles": 3})
     settings = Settings(r_max=30.0, dr=0.2, l_max=2, e_max=1.0, cache_dir=None, checkpoint_every=0)

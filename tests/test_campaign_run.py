@@ -22,14 +22,14 @@ import tomli_w
 import xarray as xr
 from pydantic import BaseModel, ConfigDict
 
-import tdse
-from tdse.campaign import store
-from tdse.campaign.summary import collect, open_campaign
-from tdse.cli import main
-from tdse.engines import ROUTES
-from tdse.errors import InputError
-from tdse.result import Result, is_complete
-from tdse.units import AU_INTENSITY_WCM2
+import driven_atom
+from driven_atom.campaign import store
+from driven_atom.campaign.summary import collect, open_campaign
+from driven_atom.cli import main
+from driven_atom.engines import ROUTES
+from driven_atom.errors import InputError
+from driven_atom.result import Result, is_complete
+from driven_atom.units import AU_INTENSITY_WCM2
 
 REPO = Path(__file__).resolve().parents[1]
 
@@ -89,7 +89,7 @@ def _standin_config(**scan):
 
 def _threads(folder, cfg, **kw):
     with ThreadPoolExecutor(2) as pool:
-        return tdse.scan(cfg, folder, executor=pool, progress=False, **kw)
+        return driven_atom.scan(cfg, folder, executor=pool, progress=False, **kw)
 
 
 def test_failing_job_is_recorded_and_the_rest_finish(tmp_path, standin, capsys):
@@ -123,7 +123,7 @@ def test_a_crashed_job_resumes_from_its_checkpoint(tmp_path, standin):
     assert job["status"] == "failed" and "step 2" in job["error"]
     standin.crash_at = None
     _threads(folder, cfg, retry_failed=True)
-    result = tdse.open_result(store.job_path(folder, job["id"]))
+    result = driven_atom.open_result(store.job_path(folder, job["id"]))
     assert result.stats["resumed_from"] == 2 and result.stats["steps_here"] == 2
 
 
@@ -177,7 +177,7 @@ def test_collect_table_opens_with_xarray(tmp_path, standin, capsys):
 
 
 def test_collect_before_any_job_finished(tmp_path):
-    from tdse.campaign.scan import expand
+    from driven_atom.campaign.scan import expand
 
     cfg = {"atom": {"Z": 1}, "solver": {"route": "levels", "states": ["1s", "2p"]},
            "pulse": [{"wavelength": "121.567 nm", "intensity": "1e8 W/cm^2", "cycles": 10}],
@@ -211,7 +211,7 @@ def test_zipped_axes_share_one_dimension_in_the_table(tmp_path, standin):
 def test_a_lost_worker_fails_its_job_and_a_broken_pool_stops(tmp_path, standin, monkeypatch):
     from concurrent.futures import BrokenExecutor
 
-    from tdse.campaign import runner
+    from driven_atom.campaign import runner
 
     def lost(job_id, config, folder):
         raise RuntimeError("worker vanished")
@@ -233,7 +233,7 @@ def test_a_lost_worker_fails_its_job_and_a_broken_pool_stops(tmp_path, standin, 
 @pytest.mark.parametrize("table, key", [({"system": "lsf"}, "cluster.system"), ({"nodes": 3}, "cluster.nodes"),
                                         ({"workers": 0}, "cluster.workers")])
 def test_bad_cluster_tables_name_the_key(table, key):
-    from tdse.campaign.executors import cluster_options
+    from driven_atom.campaign.executors import cluster_options
 
     with pytest.raises(InputError, match=key.replace(".", r"\.")):
         cluster_options(table)
@@ -270,7 +270,7 @@ def _assert_same_arrays(a, b):
 def reference(tmp_path_factory):
     """An uninterrupted campaign on the local process pool (2 workers)."""
     folder = tmp_path_factory.mktemp("campaign") / "reference"
-    tdse.scan(_levels_config(), folder, workers=2, progress=False)
+    driven_atom.scan(_levels_config(), folder, workers=2, progress=False)
     return open_campaign(folder)
 
 
@@ -283,9 +283,9 @@ def test_reference_campaign_is_complete(reference):
 
 
 def _scan_then_sigkill(cfg_path, folder, ready):
-    """Start `tdse scan` in a subprocess, wait until ``ready()``, then SIGKILL it and its workers."""
+    """Start `driven-atom scan` in a subprocess, wait until ``ready()``, then SIGKILL it and its workers."""
     env = {**os.environ, "OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"}
-    proc = subprocess.Popen([sys.executable, "-m", "tdse", "scan", str(cfg_path), "--out", str(folder),
+    proc = subprocess.Popen([sys.executable, "-m", "driven_atom", "scan", str(cfg_path), "--out", str(folder),
                              "--workers", "1", "--no-progress"], cwd=REPO, env=env,
                             stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, start_new_session=True)
     deadline = time.monotonic() + 180
@@ -308,7 +308,7 @@ def test_sigkill_midway_then_resume(tmp_path, reference):
                        lambda: any(is_complete(p) for p in (folder / "jobs").glob("*.h5")))
     survivors = {p.name: p.stat().st_ino for p in (folder / "jobs").glob("*.h5") if is_complete(p)}
     assert 1 <= len(survivors) < 6
-    tdse.scan(cfg_path, folder, workers=1, progress=False)
+    driven_atom.scan(cfg_path, folder, workers=1, progress=False)
     status = store.campaign_status(folder)
     assert (status["done"], status["failed"], status["pending"]) == (6, 0, 0)
     # finished jobs were not run again; no half-written file is left
@@ -333,8 +333,8 @@ def test_cluster_table_makes_a_valid_slurm_job_script():
     pytest.importorskip("dask_jobqueue")
     import dask_jobqueue
 
-    from tdse.campaign.config import load_config
-    from tdse.campaign.executors import cluster_options
+    from driven_atom.campaign.config import load_config
+    from driven_atom.campaign.executors import cluster_options
 
     system, workers, kwargs = cluster_options(load_config(REPO / "configs" / "cluster_example.toml").cluster)
     assert (system, workers) == ("slurm", 32)
@@ -359,11 +359,11 @@ def test_killed_grid_job_resumes_from_its_checkpoint(tmp_path):
         return bool(files) and store.job_state(folder, files[0].stem).status == store.CHECKPOINTED
 
     _scan_then_sigkill(cfg_path, folder, checkpointed)
-    tdse.scan(cfg_path, folder, workers=1, progress=False)
+    driven_atom.scan(cfg_path, folder, workers=1, progress=False)
     (job_file,) = (folder / "jobs").glob("*.h5")
-    resumed = tdse.open_result(job_file)
+    resumed = driven_atom.open_result(job_file)
     assert resumed.stats["resumed"] is True
-    fresh = tdse.run({k: v for k, v in cfg.items() if k != "scan"}, out=tmp_path / "fresh.h5", progress=False)
+    fresh = driven_atom.run({k: v for k, v in cfg.items() if k != "scan"}, out=tmp_path / "fresh.h5", progress=False)
     assert fresh.stats["resumed"] is False
     assert resumed.ionization == fresh.ionization and resumed.populations == fresh.populations   # bitwise
     for name, values in fresh.series.items():

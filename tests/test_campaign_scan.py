@@ -8,10 +8,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from tdse.campaign.config import load_config
-from tdse.campaign.scan import expand
-from tdse.errors import InputError
-from tdse.units import AU_INTENSITY_WCM2, to_au
+from driven_atom.campaign.config import load_config
+from driven_atom.campaign.scan import expand
+from driven_atom.errors import InputError
+from driven_atom.units import AU_INTENSITY_WCM2, to_au
 
 
 def _base(**scan):
@@ -98,7 +98,7 @@ def test_ids_are_stable_across_processes():
     scan = {"pulse.0.intensity": {"from": "1e13 W/cm^2", "to": "1e14 W/cm^2", "num": 3, "spacing": "log"},
             "pulse.0.cep": [0.0, 1.0]}
     here = [job.id for job in expand(_base(**scan)).jobs]
-    code = ("import json, sys; from tdse.campaign.scan import expand; "
+    code = ("import json, sys; from driven_atom.campaign.scan import expand; "
             "print(json.dumps([j.id for j in expand(json.loads(sys.argv[1])).jobs]))")
     out = subprocess.run([sys.executable, "-c", code, json.dumps(_base(**scan))], capture_output=True,
                          text=True, check=True, env={"PYTHONHASHSEED": "123", "PATH": ""})

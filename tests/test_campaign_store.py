@@ -11,10 +11,10 @@ import h5py
 import numpy as np
 import pytest
 
-from tdse.campaign import store
-from tdse.campaign.scan import expand
-from tdse.errors import InputError
-from tdse.result import Checkpoint, Result, write_result
+from driven_atom.campaign import store
+from driven_atom.campaign.scan import expand
+from driven_atom.errors import InputError
+from driven_atom.result import Checkpoint, Result, write_result
 
 JOB = "0123456789abcdef"
 
@@ -132,7 +132,7 @@ def test_lock_excludes_a_second_scan_and_dies_with_its_holder(tmp_path):
             store.CampaignLock(tmp_path).acquire()
     assert not store.CampaignLock(tmp_path).busy()
     holder = subprocess.Popen(
-        [sys.executable, "-c", "import sys, time; from tdse.campaign.store import CampaignLock; "
+        [sys.executable, "-c", "import sys, time; from driven_atom.campaign.store import CampaignLock; "
          f"lock = CampaignLock({str(tmp_path)!r}).acquire(); print('held', flush=True); time.sleep(60)"],
         stdout=subprocess.PIPE, text=True)
     try:

@@ -1,9 +1,9 @@
-"""`tdse check`: the built-in validation runs, passes on this install, and reports a failure
-(the reference values and their sources live in tdse/validation.py, beside each check)."""
+"""`driven-atom check`: the built-in validation runs, passes on this install, and reports a failure
+(the reference values and their sources live in driven_atom/validation.py, beside each check)."""
 import json
 
-from tdse import validation
-from tdse.cli import main
+from driven_atom import validation
+from driven_atom.cli import main
 
 
 def test_every_check_passes_and_names_its_source(capsys):

@@ -5,7 +5,7 @@ import sys
 
 import pytest
 
-from tdse.cli import main
+from driven_atom.cli import main
 
 
 def run_json(capsys, *argv):
@@ -113,7 +113,7 @@ def test_bad_input_exits_2_with_one_line(capsys, argv, word):
 
 
 def test_subprocess_bad_nucleus_exit_code_and_one_stderr_line():
-    proc = subprocess.run([sys.executable, "-m", "tdse", "state", "1s", "--nucleus", "unobtainium", "--json"],
+    proc = subprocess.run([sys.executable, "-m", "driven_atom", "state", "1s", "--nucleus", "unobtainium", "--json"],
                           capture_output=True, text=True, timeout=120)
     assert proc.returncode == 2
     assert proc.stdout == ""
@@ -121,7 +121,7 @@ def test_subprocess_bad_nucleus_exit_code_and_one_stderr_line():
 
 
 def test_subprocess_json_and_no_heavy_imports():
-    code = ("import sys, json; from tdse.cli import main; main(['transition', '2p', '1s', '--json']);"
+    code = ("import sys, json; from driven_atom.cli import main; main(['transition', '2p', '1s', '--json']);"
             "heavy = sorted({m.split('.')[0] for m in sys.modules} & {'numba', 'qutip', 'pint', 'h5py',"
             " 'matplotlib', 'sympy', 'mpmath'}); sys.stderr.write(json.dumps(heavy))")
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)

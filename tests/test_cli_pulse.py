@@ -1,10 +1,10 @@
-"""`tdse pulse CONFIG [--plot FILE] [--json]`: table, JSON, caution, plot, errors with exit 2."""
+"""`driven-atom pulse CONFIG [--plot FILE] [--json]`: table, JSON, caution, plot, errors with exit 2."""
 import json
 from pathlib import Path
 
 import pytest
 
-from tdse.cli import SAFETY_CAUTION, main
+from driven_atom.cli import SAFETY_CAUTION, main
 
 CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 JSON_KEYS = {"peak_field_au", "intensity_Wcm2", "photon_energy_eV", "wavelength_nm", "fwhm_fs", "length_fs",
@@ -109,11 +109,11 @@ def test_missing_config_file_exits_2(capsys):
 
 
 def test_pulse_command_stays_light():
-    # `tdse pulse` must not pull in numba or qutip (project rule: light commands import lazily)
+    # `driven-atom pulse` must not pull in numba or qutip (project rule: light commands import lazily)
     import subprocess
     import sys
 
-    code = ("import sys; from tdse.cli import main; main(['pulse', sys.argv[1], '--json']); "
+    code = ("import sys; from driven_atom.cli import main; main(['pulse', sys.argv[1], '--json']); "
             "print('numba' in sys.modules or 'qutip' in sys.modules, file=sys.stderr)")
     done = subprocess.run([sys.executable, "-c", code, str(CONFIGS / "demo.toml")], capture_output=True, text=True,
                           timeout=120)

@@ -1,12 +1,12 @@
-"""`tdse run`: JSON contract, summary text, result files, errors (storage and interface checks)."""
+"""`driven-atom run`: JSON contract, summary text, result files, errors (storage and interface checks)."""
 import json
 import math
 from pathlib import Path
 
 import pytest
 
-from tdse.cli import SAFETY_CAUTION, main
-from tdse.result import read_result
+from driven_atom.cli import SAFETY_CAUTION, main
+from driven_atom.result import read_result
 
 ROOT = Path(__file__).resolve().parents[1]
 JSON_KEYS = {"route", "populations", "ionization", "norm", "result_file", "wall_s", "history"}
@@ -84,9 +84,9 @@ def test_bad_configs_exit_2_with_one_line(tmp_path, capsys, edit, word):
 
 
 def test_unavailable_route_is_a_clear_message(tmp_path, capsys, monkeypatch):
-    from tdse import engines
+    from driven_atom import engines
 
-    monkeypatch.setitem(engines.ROUTES, "basis", "tdse.engines._not_written_yet")
+    monkeypatch.setitem(engines.ROUTES, "basis", "driven_atom.engines._not_written_yet")
     cfg = _config(tmp_path, RABI_TOML.replace('route = "levels"\nstates = ["1s", "2p"]\ndecay = false',
                                               'route = "basis"'))
     assert main(["run", str(cfg), "--out", str(tmp_path)]) == 2

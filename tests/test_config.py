@@ -5,9 +5,9 @@ from pathlib import Path
 
 import pytest
 
-from tdse.campaign.config import RunConfig, load_config
-from tdse.errors import InputError
-from tdse.units import AU_TIME_S
+from driven_atom.campaign.config import RunConfig, load_config
+from driven_atom.errors import InputError
+from driven_atom.units import AU_TIME_S
 
 CONFIGS = sorted((Path(__file__).resolve().parent.parent / "configs").glob("*.toml"))
 BASE = {"atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
@@ -50,7 +50,7 @@ def test_shipped_configs_load_and_round_trip(path):
 def test_demo_is_a_levels_run_of_lyman_alpha():
     cfg = load_config(CONFIGS[[p.name for p in CONFIGS].index("demo.toml")])
     assert cfg.solver == {"route": "levels", "states": ["1s", "2p"], "rwa": True, "decay": True}
-    from tdse.atom.levels import energy
+    from driven_atom.atom.levels import energy
 
     atom = cfg.build_atom()
     omega = cfg.build_pulse().components[0].omega

@@ -7,13 +7,13 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from tdse.atom import Atom, State, parse_state
-from tdse.atom.dipoles import dipole_matrix_element, oscillator_strength
-from tdse.atom.photoionization import cross_section
-from tdse.basis.eigenbasis import (box_cross_section, build_basis, cached_basis, dynamic_polarizability,
+from driven_atom.atom import Atom, State, parse_state
+from driven_atom.atom.dipoles import dipole_matrix_element, oscillator_strength
+from driven_atom.atom.photoionization import cross_section
+from driven_atom.basis.eigenbasis import (box_cross_section, build_basis, cached_basis, dynamic_polarizability,
                                    load_basis, save_basis, static_polarizability)
-from tdse.errors import InputError
-from tdse.units import C_AU, HARTREE_EV
+from driven_atom.errors import InputError
+from driven_atom.units import C_AU, HARTREE_EV
 
 H = Atom(1)
 OMEGA_1064 = 45.56335252907954 / 1064.0      # hartree: E = hc/lambda, 1 hartree <-> 45.5634 nm (CODATA)

@@ -7,13 +7,13 @@ import numpy as np
 import pytest
 from scipy.special import gamma
 
-from tdse.cli import main
-from tdse.estimate import estimate
-from tdse.estimate.focus import focal_count, iso_intensity_volume, rayleigh_length
-from tdse.estimate.rates import _w_m, adk_rate, ionization_exponent, ppt_rate
-from tdse.observables.perturbation import first_order_ionization
-from tdse.campaign.config import load_config
-from tdse.pulse import Pulse, quadrature
+from driven_atom.cli import main
+from driven_atom.estimate import estimate
+from driven_atom.estimate.focus import focal_count, iso_intensity_volume, rayleigh_length
+from driven_atom.estimate.rates import _w_m, adk_rate, ionization_exponent, ppt_rate
+from driven_atom.observables.perturbation import first_order_ionization
+from driven_atom.campaign.config import load_config
+from driven_atom.pulse import Pulse, quadrature
 
 IR = {"atom": {"Z": 1, "initial": "1s"}, "solver": {"route": "grid"},
       "pulse": [{"wavelength": "800 nm", "intensity": "1e14 W/cm^2", "cycles": 10}]}
@@ -136,7 +136,7 @@ def test_tunnelling_regime_and_saturation_intensity():
 @pytest.mark.parametrize("area", [math.pi / 2, math.pi])
 def test_resonant_excitation_is_the_pulse_area_result_and_agrees_with_the_levels_route(area, tmp_path):
     # P = sin^2(theta/2) on resonance (Allen & Eberly 1975); the levels route without decay must agree
-    from tdse.api import run
+    from driven_atom.api import run
 
     d = 2**7 * math.sqrt(2) / 3**5                     # <1s|z|2p0>, infinite nuclear mass (Bethe & Salpeter 1957)
     F0 = 1e-3
@@ -157,7 +157,7 @@ def test_resonant_excitation_is_the_pulse_area_result_and_agrees_with_the_levels
 def test_detuned_weak_excitation_agrees_with_the_levels_route(tmp_path):
     # first-order RWA amplitude off resonance; the levels route (qutip) is the reference. The field is
     # weak enough that the light shift Omega^2/(4 delta), which first order leaves out, stays below 1e-3 here
-    from tdse.api import run
+    from driven_atom.api import run
 
     cfg = {"atom": {"Z": 1, "nucleus": "infinite", "initial": "1s"},
            "pulse": [{"envelope": "gaussian", "photon_energy": 0.375 + 2e-4, "peak_field": 2e-6, "fwhm": 2e4}],
@@ -226,7 +226,7 @@ def test_ppt_estimate_is_near_the_full_tdse_for_hydrogen_at_800_nm(tmp_path):
     # against the grid route's TDSE solution of the same config (measured: 1.53 % vs 1.37 %)
     from pathlib import Path
 
-    from tdse.api import run
+    from driven_atom.api import run
 
     config = Path(__file__).resolve().parents[1] / "configs" / "kestrel_ir_grid.toml"
     full = run(config, out=tmp_path, progress=False)

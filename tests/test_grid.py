@@ -6,12 +6,12 @@ import math
 import numpy as np
 import pytest
 
-from tdse.atom import Atom, State
-from tdse.basis.radial_grid import eigenstates, uniform_grid
-from tdse.campaign.config import OutputConfig, load_config
-from tdse.engines import grid
-from tdse.errors import InputError
-from tdse.pulse import Pulse
+from driven_atom.atom import Atom, State
+from driven_atom.basis.radial_grid import eigenstates, uniform_grid
+from driven_atom.campaign.config import OutputConfig, load_config
+from driven_atom.engines import grid
+from driven_atom.errors import InputError
+from driven_atom.pulse import Pulse
 
 
 def run(pulse, solver, atom=Atom(1), initial=None, every=None):
@@ -164,7 +164,7 @@ def test_threads_path_agrees_with_fused_kernel():
      "1s", "absorber_width"),
 ])
 def test_bad_runs_raise_input_error(pulse, solver, initial, message):
-    from tdse.atom import parse_state
+    from driven_atom.atom import parse_state
 
     with pytest.raises(InputError, match=message):
         run(Pulse(pulse), solver, initial=[(parse_state(initial), 1.0 + 0j)])

@@ -12,8 +12,8 @@ import numpy as np
 import pytest
 import tomli_w
 
-from tdse.api import run
-from tdse.result import Checkpoint, read_result
+from driven_atom.api import run
+from driven_atom.result import Checkpoint, read_result
 
 CONFIG = {
     "atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
@@ -42,9 +42,9 @@ def test_sigkill_then_resume_gives_identical_arrays(tmp_path):
     cfg_path.write_text(tomli_w.dumps(CONFIG))
     killed = tmp_path / "killed.h5"
     env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
-    proc = subprocess.Popen([sys.executable, "-m", "tdse", "run", str(cfg_path), "--out", str(killed),
+    proc = subprocess.Popen([sys.executable, "-m", "driven_atom", "run", str(cfg_path), "--out", str(killed),
                              "--no-progress"], env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
-    from tdse.campaign.config import load_config
+    from driven_atom.campaign.config import load_config
 
     cfg = load_config(cfg_path)
     probe = Checkpoint(killed, physics_hash=cfg.physics_hash())
@@ -84,13 +84,13 @@ def test_checkpoint_of_other_physics_is_ignored(tmp_path):
 
 @pytest.mark.parametrize("value", [0, "ten"])
 def test_bad_checkpoint_interval(value):
-    from tdse.campaign.config import load_config
-    from tdse.errors import InputError
+    from driven_atom.campaign.config import load_config
+    from driven_atom.errors import InputError
 
     cfg = load_config(dict(CONFIG, solver=dict(CONFIG["solver"], checkpoint_every=value)))
     with pytest.raises(InputError, match="checkpoint_every"):
         settings = cfg.solver_settings()
-        from tdse.engines.grid import propagate
+        from driven_atom.engines.grid import propagate
 
         propagate(cfg.build_atom(), cfg.build_pulse(), settings, initial=cfg.initial_states(),
                   output=cfg.output)

@@ -8,11 +8,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from tdse.atom import Atom, State
-from tdse.campaign.config import OutputConfig, load_config
-from tdse.engines import grid
-from tdse.pulse import Pulse
-from tdse.units import C_AU
+from driven_atom.atom import Atom, State
+from driven_atom.campaign.config import OutputConfig, load_config
+from driven_atom.engines import grid
+from driven_atom.pulse import Pulse
+from driven_atom.units import C_AU
 
 REPO = Path(__file__).resolve().parents[1]
 
@@ -58,7 +58,7 @@ def test_weak_pulse_yield_is_first_order_perturbation_theory(weak_run):
     assert 1e-4 < p_first < 1e-3
     assert abs(weak_run.ionization / p_first - 1) < 0.01
     try:
-        from tdse.observables.perturbation import first_order_ionization
+        from driven_atom.observables.perturbation import first_order_ionization
     except ImportError:
         return   # the shared implementation has not landed; the Stobbe check above stands
     p_shared = first_order_ionization(Atom(1), p, state="1s")
@@ -75,7 +75,7 @@ def test_weak_pulse_norm_and_populations(weak_run):
 @pytest.mark.slow
 def test_weak_pulse_agrees_with_basis_route(weak_run):
     try:
-        from tdse.engines import eigenbasis
+        from driven_atom.engines import eigenbasis
     except ImportError:
         pytest.skip("basis route not available yet")
     cfg = load_config({"atom": {"Z": 1}, "pulse": [WEAK], "solver": {"route": "basis"}})

@@ -4,14 +4,14 @@ import math
 import numpy as np
 import pytest
 
-from tdse.atom import Atom, State
-from tdse.campaign.config import OutputConfig
-from tdse.engines import settings_for
-from tdse.engines.levels import Settings, build_model, propagate, sample_coefficients, spherical_coefficients
-from tdse.errors import InputError
-from tdse.observables.populations import level_populations
-from tdse.pulse import Pulse
-from tdse.units import AU_INTENSITY_WCM2, AU_TIME_S, BOHR2_CM2, HARTREE_J
+from driven_atom.atom import Atom, State
+from driven_atom.campaign.config import OutputConfig
+from driven_atom.engines import settings_for
+from driven_atom.engines.levels import Settings, build_model, propagate, sample_coefficients, spherical_coefficients
+from driven_atom.errors import InputError
+from driven_atom.observables.populations import level_populations
+from driven_atom.pulse import Pulse
+from driven_atom.units import AU_INTENSITY_WCM2, AU_TIME_S, BOHR2_CM2, HARTREE_J
 
 W_1S_2P = 0.375    # hartree, infinite nuclear mass (analytic)
 
@@ -136,7 +136,7 @@ def test_rwa_and_full_coupling_agree_for_every_polarisation(polarization):
 
 def test_ionization_rate_in_lab_units():
     # rate = σ I/(ħω) with I = F0² · 3.50945e16 W/cm² (linear, cycle-averaged; PHYSICS.md)
-    from tdse.atom.photoionization import cross_section
+    from driven_atom.atom.photoionization import cross_section
 
     F0, w, length, ramp = 0.02, 0.375, 4000.0, 800.0
     items = [{"envelope": "flat", "photon_energy": w, "peak_field": F0, "length": length, "ramp": ramp}]
@@ -180,7 +180,7 @@ def test_master_equation_matches_a_hand_written_lindblad_in_scipy():
     from scipy.integrate import solve_ivp
     from scipy.interpolate import make_interp_spline
 
-    from tdse.engines.levels import build_model, coupling
+    from driven_atom.engines.levels import build_model, coupling
 
     atom = Atom.from_name("H")
     items = [{"envelope": "sin2", "photon_energy": 0.3748, "peak_field": 5e-3, "length": 3000.0,

@@ -5,11 +5,11 @@ import numpy as np
 import pytest
 from scipy.optimize import minimize_scalar
 
-from tdse.atom import Atom, State
-from tdse.campaign.config import OutputConfig
-from tdse.engines.levels import Settings, propagate
-from tdse.pulse import Pulse
-from tdse.units import AU_TIME_S
+from driven_atom.atom import Atom, State
+from driven_atom.campaign.config import OutputConfig
+from driven_atom.engines.levels import Settings, propagate
+from driven_atom.pulse import Pulse
+from driven_atom.units import AU_TIME_S
 
 D_1S_2P0 = 2**7 * math.sqrt(2) / 3**5      # <1s|z|2p0>, infinite nuclear mass (Bethe & Salpeter 1957)
 W_1S_2P = 0.375                             # 3/8 hartree, infinite nuclear mass (analytic)
@@ -27,7 +27,7 @@ def run(pulse_items, states, initial=GROUND, atom=None, every=None, **solver):
 
 
 def test_rabi_period_from_exact_dipole():
-    from tdse.atom.dipoles import dipole_matrix_element
+    from driven_atom.atom.dipoles import dipole_matrix_element
 
     d = dipole_matrix_element(Atom(1), State(1, 0, 0), State(2, 1, 0), 0)
     assert d == pytest.approx(D_1S_2P0, rel=1e-12)
@@ -85,8 +85,8 @@ def test_elliptical_light_pulse_area_and_circular_split(eta):
 
 def _damped(detuning, rabi_over_gamma, length_gamma, dephasing=0.0, every_gamma=0.25):
     atom = Atom.from_name("H")
-    from tdse.atom.dipoles import dipole_matrix_element, einstein_A
-    from tdse.atom.levels import energy
+    from driven_atom.atom.dipoles import dipole_matrix_element, einstein_A
+    from driven_atom.atom.levels import energy
 
     gamma = einstein_A(atom, State(2, 1), State(1, 0))
     d = abs(dipole_matrix_element(atom, State(1, 0, 0), State(2, 1, 0), 0))
@@ -195,7 +195,7 @@ def test_bloch_siegert_shift():
 
 def test_sigma_plus_reaches_only_2p_plus_1_and_trace_is_kept():
     atom = Atom.from_name("H")
-    from tdse.atom.levels import energy
+    from driven_atom.atom.levels import energy
 
     w0 = energy(atom, 2) - energy(atom, 1)
     res = run([{"envelope": "sin2", "photon_energy": w0, "peak_field": 2e-3, "length": 2e4,

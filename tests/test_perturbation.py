@@ -4,13 +4,13 @@ from functools import lru_cache
 
 import pytest
 
-from tdse.atom import Atom, State
-from tdse.atom.photoionization import cross_section
-from tdse.campaign.config import OutputConfig
-from tdse.engines.eigenbasis import Settings, propagate
-from tdse.observables.perturbation import first_order_ionization
-from tdse.pulse import Pulse
-from tdse.units import C_AU
+from driven_atom.atom import Atom, State
+from driven_atom.atom.photoionization import cross_section
+from driven_atom.campaign.config import OutputConfig
+from driven_atom.engines.eigenbasis import Settings, propagate
+from driven_atom.observables.perturbation import first_order_ionization
+from driven_atom.pulse import Pulse
+from driven_atom.units import C_AU
 
 H = Atom(1)
 PHOTON = 0.8          # hartree, above the 0.5 threshold

@@ -1,4 +1,4 @@
-"""`tdse plot RESULT [--out FILE] [--json]` and `tdse.plotting.result_figure`: figures of stored
+"""`driven-atom plot RESULT [--out FILE] [--json]` and `driven_atom.plotting.result_figure`: figures of stored
 result files, their panel lists, and one-line errors with exit code 2.
 
 A storage/figure feature: these tests hold no physics reference values; they check files, formats,
@@ -9,11 +9,11 @@ import json
 import numpy as np
 import pytest
 
-import tdse
-from tdse.cli import main
-from tdse.errors import InputError
-from tdse.plotting import _carrier_omega, result_figure, result_panels
-from tdse.result import Result, write_result
+import driven_atom
+from driven_atom.cli import main
+from driven_atom.errors import InputError
+from driven_atom.plotting import _carrier_omega, result_figure, result_panels
+from driven_atom.result import Result, write_result
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 CONFIG = {"atom": {"Z": 1, "nucleus": "infinite", "initial": "1s"},
@@ -24,7 +24,7 @@ CONFIG = {"atom": {"Z": 1, "nucleus": "infinite", "initial": "1s"},
 
 @pytest.fixture(scope="module")
 def levels_file(tmp_path_factory):
-    result = tdse.run(CONFIG, out=tmp_path_factory.mktemp("levels"), progress=False)
+    result = driven_atom.run(CONFIG, out=tmp_path_factory.mktemp("levels"), progress=False)
     return result.metadata["file"]
 
 
@@ -43,7 +43,7 @@ def _hand_made(**kw):
 def _one_error_line(capsys, argv, *words):
     assert main(argv) == 2
     err = capsys.readouterr().err
-    assert err.count("\n") == 1 and err.startswith("tdse: error:") and "Traceback" not in err
+    assert err.count("\n") == 1 and err.startswith("driven-atom: error:") and "Traceback" not in err
     for word in words:
         assert word in err
     return err
@@ -86,7 +86,7 @@ def test_photoelectron_spectrum_adds_a_panel(tmp_path, capsys):
 
 def test_harmonic_spectrum_adds_a_panel_in_orders_of_the_carrier(tmp_path):
     harmonic = {"omega": np.linspace(0.0, 3.0, 200), "power": np.exp(-np.linspace(0.0, 3.0, 200))}
-    result = _hand_made(spectra={"harmonic": harmonic}, config=tdse.load_config(CONFIG).to_toml())
+    result = _hand_made(spectra={"harmonic": harmonic}, config=driven_atom.load_config(CONFIG).to_toml())
     assert result_panels(result) == ["populations", "harmonic"]
     assert _carrier_omega(result) == pytest.approx(CONFIG["pulse"][0]["photon_energy"])
     assert _carrier_omega(_hand_made()) is None            # no config: the axis falls back to eV
@@ -102,7 +102,7 @@ def test_empty_history_draws_the_final_populations(tmp_path):
 
 
 def test_level_labels_only_in_the_history_panel():
-    from tdse.plotting import _levels_only
+    from driven_atom.plotting import _levels_only
 
     assert list(_levels_only(_hand_made().history_populations)) == ["1s", "2p"]
     only_m = _hand_made(history_populations={"2p-1": np.zeros(5), "2p0": np.ones(5)})

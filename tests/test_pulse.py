@@ -7,9 +7,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import integrate, optimize
 
-from tdse.atom import Atom
-from tdse.pulse import LaserPulse, Pulse, derived_quantities, gaussian_shape
-from tdse.units import AU_INTENSITY_WCM2, AU_TIME_S, HARTREE_EV, wavelength_nm_to_photon_energy
+from driven_atom.atom import Atom
+from driven_atom.pulse import LaserPulse, Pulse, derived_quantities, gaussian_shape
+from driven_atom.units import AU_INTENSITY_WCM2, AU_TIME_S, HARTREE_EV, wavelength_nm_to_photon_energy
 
 FS = 1e-15 / AU_TIME_S          # one femtosecond in atomic units of time
 
@@ -86,7 +86,7 @@ def test_elliptical_light_intensity_limits_and_sense(eta):
     ({"polarization": "elliptical", "ellipticity": float("nan")}, "ellipticity"),
 ])
 def test_bad_ellipticity_is_named(keys, message):
-    from tdse.errors import InputError
+    from driven_atom.errors import InputError
 
     with pytest.raises(InputError, match=message):
         Pulse({"wavelength": "800 nm", "peak_field": 0.01, "cycles": 4, **keys})

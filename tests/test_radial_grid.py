@@ -5,10 +5,10 @@ import numpy as np
 import pytest
 from scipy.special import eval_genlaguerre, factorial, loggamma
 
-from tdse.atom import Atom
-from tdse.basis.radial_grid import (density_of_states, eigenstates, numerov_operators,
+from driven_atom.atom import Atom
+from driven_atom.basis.radial_grid import (density_of_states, eigenstates, numerov_operators,
                                     stretched_grid, stretched_hamiltonian, uniform_grid)
-from tdse.errors import InputError
+from driven_atom.errors import InputError
 
 H_INF = Atom(1)
 

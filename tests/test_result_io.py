@@ -3,8 +3,8 @@ import h5py
 import numpy as np
 import pytest
 
-from tdse.errors import InputError
-from tdse.result import Checkpoint, Result, is_complete, read_result, write_result
+from driven_atom.errors import InputError
+from driven_atom.result import Checkpoint, Result, is_complete, read_result, write_result
 
 
 def _result():

@@ -3,8 +3,8 @@ import math
 
 import pytest
 
-from tdse import units
-from tdse.errors import InputError
+from driven_atom import units
+from driven_atom.errors import InputError
 
 
 def test_atomic_unit_of_intensity():
@@ -80,7 +80,7 @@ def test_literal_constants_match_scipy_codata():
 def test_nuclear_mass_ratios_match_scipy_codata():
     import scipy.constants as sc
 
-    from tdse.atom.species import NUCLEI
+    from driven_atom.atom.species import NUCLEI
 
     pc = sc.physical_constants
     for name, key in [("H", "proton"), ("D", "deuteron"), ("T", "triton"), ("He3", "helion"),

@@ -1,0 +1,5 @@
+import sys
+
+from driven_atom.cli import main
+
+sys.exit(main())

@@ -1,0 +1,202 @@
+"""Where campaign jobs run: a local process pool (default) or a Dask cluster.
+
+* :func:`local_pool` — ``concurrent.futures.ProcessPoolExecutor`` with the ``spawn`` start
+  method and one thread per worker (``OMP/OPENBLAS/MKL/NUMBA_NUM_THREADS = 1`` set before numpy
+  loads in the worker). On Linux a worker is killed when the scan process dies, so a killed scan
+  leaves no orphan still writing job files.
+* :func:`dask_client` — a ``distributed.Client``: to a running scheduler (``--scheduler
+  ADDRESS``), to a new ``LocalCluster`` (``--dask-local N``, one thread per worker), or to a
+  dask-jobqueue SLURM/PBS cluster described by the config's ``[cluster]`` table::
+
+      [cluster]
+      system = "slurm"          # slurm | pbs
+      workers = 16              # worker processes in total (one job thread each)
+      cores = 4                 # cores (= worker processes) per batch job
+      memory = "8 GB"           # per batch job
+      walltime = "04:00:00"
+      queue = "short"           # optional; also account, prologue (shell lines), options (table
+                                # passed unchanged to the dask-jobqueue cluster class)
+
+The campaign code only needs ``submit`` and "as completed": :class:`Runner` adapts both kinds.
+Dask and dask-jobqueue are imported only when used.
+
+>>> sorted(THREAD_VARIABLES)[:2]
+['MKL_NUM_THREADS', 'NUMBA_NUM_THREADS']
+"""
+from __future__ import annotations
+
+import concurrent.futures as cf
+import contextlib
+import os
+import sys
+
+from driven_atom.errors import InputError
+
+THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")
+_CLUSTER_KEYS = {"system", "workers", "cores", "memory", "walltime", "queue", "account", "prologue", "options"}
+
+
+def _one_thread() -> None:
+    """Worker initializer: one compute thread, and die with the parent (Linux prctl)."""
+    for name in THREAD_VARIABLES:
+        os.environ[name] = "1"
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+            import signal
+
+            libc = ctypes.CDLL("libc.so.6", use_errno=True)
+            libc.prctl(1, signal.SIGKILL)    # PR_SET_PDEATHSIG
+        except (OSError, AttributeError):
+            pass
+
+
+def check_count(value, name: str) -> int:
+    """A worker count: an integer >= 1 (InputError naming ``name`` otherwise).
+
+    >>> check_count(2, "--workers")
+    2
+    """
+    if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+        raise InputError(f"`{name}` must be an integer >= 1, got {value!r}")
+    return value
+
+
+def local_pool(workers: int) -> cf.ProcessPoolExecutor:
+    """A process pool of ``workers`` single-threaded ``spawn`` workers."""
+    import multiprocessing
+
+    check_count(workers, "--workers")
+    return cf.ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"),
+                                  initializer=_one_thread)
+
+
+def default_workers() -> int:
+    """Cores this process may use."""
+    try:
+        return len(os.sched_getaffinity(0))
+    except AttributeError:
+        return os.cpu_count() or 1
+
+
+def _is_dask_client(obj) -> bool:
+    if "distributed" not in sys.modules:
+        return False
+    from distributed import Client
+
+    return isinstance(obj, Client)
+
+
+class Runner:
+    """``submit(fn, *args)`` and ``as_completed(futures)`` over a futures executor or a Dask client."""
+
+    def __init__(self, executor):
+        if not (isinstance(executor, cf.Executor) or _is_dask_client(executor)):
+            raise InputError("`executor` must be a concurrent.futures.Executor or a distributed.Client, "
+                             f"got {type(executor).__name__}")
+        self.executor = executor
+        self.is_dask = _is_dask_client(executor)
+
+    def submit(self, fn, *args, key: str | None = None):
+        if self.is_dask:
+            return self.executor.submit(fn, *args, key=key, pure=False)
+        return self.executor.submit(fn, *args)
+
+    def as_completed(self, futures):
+        if self.is_dask:
+            from distributed import as_completed
+
+            return as_completed(futures)
+        return cf.as_completed(futures)
+
+
+def cluster_options(table: dict) -> tuple[str, int, dict]:
+    """``[cluster]`` -> (system, number of worker processes, dask-jobqueue keyword arguments).
+
+    >>> cluster_options({"system": "slurm", "workers": 8, "cores": 4, "memory": "8 GB",
+    ...                  "walltime": "01:00:00"})[2]["processes"]
+    4
+    """
+    unknown = set(table) - _CLUSTER_KEYS
+    if unknown:
+        raise InputError(f"unknown key `cluster.{sorted(unknown)[0]}` (allowed: {', '.join(sorted(_CLUSTER_KEYS))})")
+    system = table.get("system", "slurm")
+    if system not in ("slurm", "pbs"):
+        raise InputError(f"`cluster.system` must be \"slurm\" or \"pbs\", got {system!r}")
+    workers, cores = table.get("workers", 1), table.get("cores", 1)
+    for key, value in (("workers", workers), ("cores", cores)):
+        check_count(value, f"cluster.{key}")
+    prologue = [f"export {name}=1" for name in THREAD_VARIABLES] + list(table.get("prologue", []))
+    kwargs = {"cores": cores, "processes": cores, "memory": table.get("memory", f"{2 * cores} GB"),
+              "walltime": table.get("walltime", "01:00:00"), "job_script_prologue": prologue}
+    for key in ("queue", "account"):
+        if key in table:
+            kwargs[key] = table[key]
+    kwargs.update(table.get("options", {}))
+    return system, workers, kwargs
+
+
+@contextlib.contextmanager
+def dask_client(*, scheduler: str | None = None, local_workers: int | None = None, cluster: dict | None = None):
+    """A ``distributed.Client`` for one of: a scheduler address, a LocalCluster, a jobqueue cluster."""
+    import dask
+    from distributed import Client, LocalCluster
+
+    if scheduler is not None:
+        try:
+            client = Client(scheduler, timeout="20s")
+        except (OSError, TimeoutError) as exc:
+            raise InputError(f"`--scheduler` {scheduler!r}: cannot connect ({exc})") from None
+        with client:
+            yield client
+        return
+    if local_workers is not None:
+        check_count(local_workers, "--dask-local")
+        environ = {name: "1" for name in THREAD_VARIABLES}
+        saved = {name: os.environ.get(name) for name in THREAD_VARIABLES}
+        try:
+            with dask.config.set({"distributed.nanny.pre-spawn-environ": environ}):
+                with LocalCluster(n_workers=local_workers, threads_per_worker=1, processes=True,
+                                  dashboard_address=None) as lc, Client(lc) as client:
+                    yield client
+        finally:   # the nanny writes pre-spawn-environ into this process's environment too
+            for name, value in saved.items():
+                if value is None:
+                    os.environ.pop(name, None)
+                else:
+                    os.environ[name] = value
+        return
+    if cluster is not None:
+        system, workers, kwargs = cluster_options(cluster)
+        try:
+            import dask_jobqueue
+        except ImportError:
+            raise InputError("[cluster] needs dask-jobqueue: pip install 'driven-atom[cluster]'") from None
+        cls = {"slurm": dask_jobqueue.SLURMCluster, "pbs": dask_jobqueue.PBSCluster}[system]
+        with cls(**kwargs) as jq:
+            jq.scale(workers)
+            with Client(jq) as client:
+                yield client
+        return
+    raise InputError("dask_client needs one of `--scheduler`, `--dask-local` or a [cluster] table")
+
+
+@contextlib.contextmanager
+def open_runner(executor=None, *, workers: int | None = None, cluster: dict | None = None, n_jobs: int = 1):
+    """The :class:`Runner` for ``scan``: the caller's executor, a [cluster], or a local pool.
+
+    A caller's executor or client is used as is and left open; pools and clusters made here are
+    shut down on exit.
+    """
+    if executor is not None:
+        yield Runner(executor)
+    elif cluster is not None and workers is None:
+        with dask_client(cluster=cluster) as client:
+            yield Runner(client)
+    else:
+        n = workers if workers is not None else max(1, min(default_workers(), n_jobs))
+        pool = local_pool(n)
+        try:
+            yield Runner(pool)
+        finally:
+            pool.shutdown(wait=True, cancel_futures=True)

@@ -1,0 +1,153 @@
+"""Run a campaign: expand the scan, skip finished jobs, run the rest, never lose a finished one.
+
+``scan(config, out)`` takes the folder's lock, writes ``campaign.toml`` and runs every job that is
+not done (failed ones only with ``retry_failed``); a damaged job file is moved aside and re-run.
+Each job is :func:`driven_atom.api.run` on ``jobs/<id>.h5``: the file is written atomically, and a job
+whose file holds a checkpoint resumes from it. A job that raises is recorded as failed (error and
+traceback in its file) and the others go on. Re-running the same command finishes what is left;
+editing the scan (say, adding intensities) and re-running reuses every job whose physics is
+unchanged.
+
+>>> check_folder("runs/kestrel-hollow-scan").name
+'kestrel-hollow-scan'
+"""
+from __future__ import annotations
+
+import hashlib
+import sys
+import time
+from pathlib import Path
+
+from driven_atom.campaign import store
+from driven_atom.errors import InputError
+
+
+def run_job(job_id: str, config: dict, folder: str) -> dict:
+    """Run one job into ``folder/jobs/<job_id>.h5`` (in a worker); never raises for job errors."""
+    from driven_atom.api import run
+    from driven_atom.campaign.config import load_config
+
+    path = store.job_path(folder, job_id)
+    store.mark_running(path)
+    started = time.perf_counter()
+    try:
+        run(load_config(config), out=path, progress=False)
+        return {"id": job_id, "status": store.DONE, "wall_s": time.perf_counter() - started}
+    except Exception as exc:  # noqa: BLE001 - every job error is recorded, the campaign goes on
+        store.write_failed(path, job_id=job_id, config=_toml(config), error=exc)
+        return {"id": job_id, "status": store.FAILED, "error": f"{type(exc).__name__}: {exc}".splitlines()[0]}
+    finally:
+        store.clear_running(path)
+
+
+def _toml(config: dict) -> str:
+    import tomli_w
+
+    return tomli_w.dumps(config)
+
+
+def scan(config, out, *, executor=None, workers: int | None = None, retry_failed: bool = False,
+         progress: bool = True) -> Path:
+    """Run (or resume) the campaign of ``config`` in folder ``out``; returns the folder.
+
+    ``config``: a path, dict or RunConfig with a ``[scan]`` table, or a campaign folder (its stored
+    config runs again).
+
+    ``executor``: ``None`` (a local process pool of ``workers`` processes, default one per core;
+    or the ``[cluster]`` table's dask-jobqueue cluster when the config has one and ``workers`` is
+    not given), a ``concurrent.futures.Executor`` or a ``distributed.Client`` (used as is).
+    Raises :class:`InputError` when another scan holds the folder.
+    """
+    from driven_atom.campaign.executors import check_count
+    from driven_atom.campaign.scan import expand
+
+    if workers is not None:
+        check_count(workers, "--workers")
+    cfg = campaign_config(config)
+    folder = check_folder(out)
+    plan = expand(cfg)
+    cfg.solver_settings()          # a typo in [solver] stops here, not in every job
+    jobs = plan.unique_jobs()
+    with store.CampaignLock(folder) as lock:
+        if not lock.supported:
+            import warnings
+
+            warnings.warn(f"file locking is not supported in {folder}; run one `driven-atom scan` at a time there")
+        store.write_plan(folder, plan)
+        (folder / store.JOBS_DIR).mkdir(exist_ok=True)
+        store.clear_stale_files(folder)
+        todo, done, failed = [], 0, 0
+        for job in jobs:
+            state = store.job_state(folder, job.id)
+            if state.status == store.CORRUPT:
+                aside = store.quarantine(folder, job.id)
+                _note(f"job {job.id}: damaged file ({state.error}); moved to {aside.name}, running it again")
+            if state.status == store.DONE:
+                done += 1
+            elif state.status == store.FAILED and not retry_failed:
+                failed += 1
+            else:
+                todo.append(job)
+        _run_all(todo, folder, executor=executor, workers=workers, cluster=cfg.cluster,
+                 progress=progress, total=len(jobs), initial=done, failed=failed)
+    return folder
+
+
+def _note(text: str) -> None:
+    sys.stderr.write(f"driven-atom scan: {text}\n")
+
+
+def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initial, failed) -> None:
+    from tqdm.auto import tqdm
+
+    from driven_atom.campaign.executors import open_runner
+
+    if not todo:
+        return
+    bar = tqdm(total=total, initial=initial, unit="job", desc="scan", disable=not progress, dynamic_ncols=True)
+    try:
+        with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo)) as runner:
+            where = str(Path(folder).resolve())          # workers on other nodes have another cwd
+            tag = hashlib.sha256(where.encode()).hexdigest()[:8]   # Dask keys: one per job and folder
+            futures = {runner.submit(run_job, job.id, job.config, where, key=f"driven-atom-{job.id}-{tag}"): job
+                       for job in todo}
+            for future in runner.as_completed(list(futures)):
+                outcome = _outcome(future, futures[future], folder)
+                if outcome["status"] == store.FAILED:
+                    failed += 1
+                    bar.write(f"driven-atom scan: job {outcome['id']} failed: {outcome['error']}", file=sys.stderr)
+                bar.set_postfix(failed=failed, refresh=False)
+                bar.update(1)
+    finally:
+        bar.close()
+
+
+def _outcome(future, job, folder) -> dict:
+    """The job's outcome; a job whose worker was lost (Dask gave up on it) is recorded as failed."""
+    from concurrent.futures import BrokenExecutor
+
+    try:
+        return future.result()
+    except BrokenExecutor:
+        raise RuntimeError("a worker process of the local pool died (out of memory, or killed); "
+                           "finished jobs are kept: run the same command again") from None
+    except Exception as exc:  # noqa: BLE001 - e.g. distributed.KilledWorker
+        store.write_failed(store.job_path(folder, job.id), job_id=job.id, config=_toml(job.config), error=exc)
+        return {"id": job.id, "status": store.FAILED, "error": f"worker lost: {type(exc).__name__}: {exc}"}
+
+
+def campaign_config(source):
+    """The RunConfig of a config path/dict/RunConfig, or of a campaign folder's campaign.toml."""
+    from driven_atom.campaign.config import load_config
+
+    if isinstance(source, (str, Path)) and Path(source).is_dir():
+        return load_config(store.read_plan(source)["config"])
+    return load_config(source)
+
+
+def check_folder(out) -> Path:
+    """A ``--out`` folder: not an existing file."""
+    folder = Path(out)
+    if folder.exists() and not folder.is_dir():
+        raise InputError(f"`--out` {str(folder)!r} is a file; give a folder for the campaign")
+    return folder

@@ -1,0 +1,367 @@
+"""The campaign folder: plan, job files, lock, and the state of each job.
+
+Layout of a campaign folder ``DIR``::
+
+    DIR/campaign.toml        the expanded plan: [campaign] (dims, shape, provenance), [axes.*],
+                             [config] (the scan config as given), [[job]] (id, index)
+    DIR/jobs/<id>.h5         one result file per job (driven_atom.result format), written temp + rename
+    DIR/jobs/<id>.running    while a worker runs the job: JSON {pid, host, started}
+    DIR/jobs/<id>.h5.tmp     a job file being written (left over only by a killed writer)
+    DIR/jobs/<id>.h5.corrupt a job file found unreadable, kept aside for inspection (job re-run)
+    DIR/scan.lock            held (flock) by the one `driven-atom scan` working on the folder
+    DIR/summary.h5           the collected table (netCDF via h5netcdf), DIR/summary.csv on request
+
+A job file is in one of these states: ``done`` (complete, readable, physics hash = job id),
+``failed`` (complete = False, attrs status = "failed", error, traceback; a checkpoint group is
+kept so a retry resumes), ``checkpointed`` (an unfinished run's checkpoint), ``corrupt``
+(unreadable or foreign) or ``pending`` (no file).
+
+The lock is an advisory ``flock`` on ``scan.lock``: the kernel drops it when its process dies
+(even by SIGKILL), so a killed scan never leaves a stale lock. A second ``driven-atom scan`` on a busy
+folder stops with an error naming the holder's pid and host (exit code 2). On a file system
+without ``flock`` support the scan proceeds unlocked, with a warning.
+
+>>> job_path("runs/demo", "0123abcd").as_posix()
+'runs/demo/jobs/0123abcd.h5'
+"""
+from __future__ import annotations
+
+import errno
+import json
+import os
+import socket
+import time
+import traceback as tb_module
+from dataclasses import dataclass
+from pathlib import Path
+
+from driven_atom.errors import InputError
+
+PLAN_FILE = "campaign.toml"
+JOBS_DIR = "jobs"
+LOCK_FILE = "scan.lock"
+SUMMARY_FILE = "summary.h5"
+CSV_FILE = "summary.csv"
+
+DONE, FAILED, CHECKPOINTED, CORRUPT, PENDING, RUNNING = (
+    "done", "failed", "checkpointed", "corrupt", "pending", "running")
+
+
+def job_path(folder, job_id: str) -> Path:
+    """Where the result of job ``job_id`` lives."""
+    return Path(folder) / JOBS_DIR / f"{job_id}.h5"
+
+
+def _marker_path(path: Path) -> Path:
+    return path.with_suffix(".running")
+
+
+def write_text_atomic(path, text: str, *, sync: bool = True) -> Path:
+    """Write ``text`` to ``path`` through a temp file and ``os.replace`` (``sync``: fsync first)."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(path.name + ".tmp")
+    with open(tmp, "w") as fh:
+        fh.write(text)
+        if sync:
+            fh.flush()
+            os.fsync(fh.fileno())
+    os.replace(tmp, path)
+    return path
+
+
+# -- plan ---------------------------------------------------------------------------------------
+def write_plan(folder, plan) -> Path:
+    """Write ``campaign.toml`` for ``plan`` (a :class:`driven_atom.campaign.scan.Plan`)."""
+    import tomli_w
+
+    from driven_atom.campaign.scan import axis_table
+    from driven_atom.result import provenance
+
+    data = {
+        "campaign": {"dims": list(plan.dims), "shape": list(plan.shape), "n_jobs": len(plan.unique_jobs()),
+                     **provenance()},
+        "axes": axis_table(plan),
+        "config": plan.base,
+        "job": [{"id": job.id, "index": list(job.index)} for job in plan.jobs],
+    }
+    return write_text_atomic(Path(folder) / PLAN_FILE, tomli_w.dumps(data))
+
+
+def read_plan(folder) -> dict:
+    """Read ``campaign.toml`` of a campaign folder (InputError when it is not one)."""
+    import tomllib
+
+    path = Path(folder) / PLAN_FILE
+    if not path.is_file():
+        raise InputError(f"`DIR` {str(folder)!r} is not a campaign folder (no {PLAN_FILE}); "
+                         f"start one with `driven-atom scan CONFIG --out DIR`")
+    try:
+        return tomllib.loads(path.read_text())
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"{str(path)!r} is damaged ({exc}); re-run `driven-atom scan` to rewrite it") from None
+
+
+def plan_job_ids(plan_data: dict) -> list[str]:
+    """Distinct job ids of a plan read from campaign.toml, in plan order."""
+    return list(dict.fromkeys(job["id"] for job in plan_data.get("job", [])))
+
+
+# -- job states ---------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class JobState:
+    """What a job's file says: status, wall time (done jobs) and error text (failed/corrupt)."""
+
+    status: str
+    wall_s: float | None = None
+    error: str = ""
+
+
+def job_state(folder, job_id: str) -> JobState:
+    """Inspect ``jobs/<job_id>.h5``; a done file is read in full, so damage is found."""
+    return load_job(folder, job_id)[0]
+
+
+def load_job(folder, job_id: str):
+    """(:class:`JobState`, the :class:`driven_atom.result.Result` of a done job or ``None``)."""
+    import h5py
+
+    from driven_atom.result import read_result
+
+    path = job_path(folder, job_id)
+    if not path.exists():
+        return JobState(PENDING), None
+    try:
+        with h5py.File(path, "r") as f:
+            complete = bool(f.attrs.get("complete", False))
+            owner = str(f.attrs.get("physics_hash", ""))
+            status = str(f.attrs.get("status", ""))
+            error = str(f.attrs.get("error", ""))
+            has_checkpoint = "checkpoint" in f
+    except Exception as exc:  # noqa: BLE001 - any failure to open means a damaged file
+        return JobState(CORRUPT, error=f"unreadable: {exc}"), None
+    if owner != job_id:
+        return JobState(CORRUPT, error=f"holds physics hash {owner!r}, expected {job_id!r}"), None
+    if complete:
+        try:
+            result = read_result(path)
+        except Exception as exc:  # noqa: BLE001
+            return JobState(CORRUPT, error=f"unreadable: {exc}"), None
+        return JobState(DONE, wall_s=result.stats.get("wall_s")), result
+    if status == FAILED:
+        return JobState(FAILED, error=error), None
+    if has_checkpoint:
+        return JobState(CHECKPOINTED), None
+    return JobState(CORRUPT, error="incomplete file without checkpoint"), None
+
+
+def quarantine(folder, job_id: str) -> Path:
+    """Move a damaged job file aside (``<id>.h5.corrupt``) so the job runs again."""
+    path = job_path(folder, job_id)
+    aside = path.with_name(path.name + ".corrupt")
+    os.replace(path, aside)
+    return aside
+
+
+def write_failed(path, *, job_id: str, config: str, error: BaseException) -> Path:
+    """Record a failed job atomically: complete = False, status, error, traceback.
+
+    A checkpoint in the old file is carried over, so ``--retry-failed`` resumes from it.
+    """
+    import h5py
+
+    from driven_atom.result import provenance
+
+    path = Path(path)
+    tmp = path.with_name(path.name + ".tmp")
+    text = "".join(tb_module.format_exception(type(error), error, error.__traceback__))
+    with h5py.File(tmp, "w") as f:
+        try:
+            with h5py.File(path, "r") as old:
+                if "checkpoint" in old and str(old.attrs.get("physics_hash", "")) == job_id:
+                    old.copy(old["checkpoint"], f, "checkpoint")
+        except (OSError, ValueError, KeyError):
+            pass
+        for key, value in provenance().items():
+            f.attrs[key] = value
+        f.attrs["physics_hash"] = job_id
+        f.attrs["config"] = config
+        f.attrs["status"] = FAILED
+        f.attrs["error"] = f"{type(error).__name__}: {error}".splitlines()[0]
+        f.attrs["traceback"] = text
+        f.attrs["complete"] = False
+    os.replace(tmp, path)
+    return path
+
+
+# -- running markers ----------------------------------------------------------------------------
+def _process_start(pid: int) -> str | None:
+    """Start time of a process (Linux /proc), to tell a live pid from a reused one."""
+    try:
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().rsplit(")", 1)[1].split()[19]
+    except (OSError, IndexError):
+        return None
+
+
+def _identity() -> dict:
+    pid = os.getpid()
+    return {"pid": pid, "host": socket.gethostname(), "start": _process_start(pid),
+            "started": time.strftime("%Y-%m-%dT%H:%M:%S%z")}
+
+
+def _alive(info: dict) -> bool:
+    """Is the process described by ``info`` alive? (Other hosts: assumed alive.)"""
+    if info.get("host") != socket.gethostname():
+        return True
+    pid = int(info.get("pid", -1))
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    except (OSError, ValueError):
+        return False
+    start = info.get("start")
+    return start is None or _process_start(pid) in (None, start)
+
+
+def mark_running(path) -> Path:
+    """Write ``<id>.running`` for the job at ``path`` (who runs it, since when)."""
+    return write_text_atomic(_marker_path(Path(path)), json.dumps(_identity()), sync=False)
+
+
+def clear_running(path) -> None:
+    try:
+        os.unlink(_marker_path(Path(path)))
+    except FileNotFoundError:
+        pass
+
+
+def running_info(folder, job_id: str) -> dict | None:
+    """The marker of a job whose worker is alive, else ``None``."""
+    marker = _marker_path(job_path(folder, job_id))
+    try:
+        info = json.loads(marker.read_text())
+    except (OSError, ValueError):
+        return None
+    return info if _alive(info) else None
+
+
+def clear_stale_files(folder) -> None:
+    """Remove running markers of dead processes and the temp files of writes they left
+    unfinished (call while holding the lock)."""
+    jobs = Path(folder) / JOBS_DIR
+    for marker in jobs.glob("*.running"):
+        try:
+            info = json.loads(marker.read_text())
+        except (OSError, ValueError):
+            info = {}
+        if not info or not _alive(info):
+            marker.unlink(missing_ok=True)
+    for tmp in jobs.glob("*.tmp"):
+        job_id = tmp.name.split(".", 1)[0]
+        if not _marker_path(jobs / f"{job_id}.h5").exists():
+            tmp.unlink(missing_ok=True)
+
+
+# -- lock ---------------------------------------------------------------------------------------
+class CampaignLock:
+    """Exclusive ``flock`` on ``DIR/scan.lock`` for one ``driven-atom scan`` (context manager).
+
+    >>> import tempfile
+    >>> with tempfile.TemporaryDirectory() as d, CampaignLock(d) as lock:
+    ...     CampaignLock(d).busy()
+    True
+    """
+
+    def __init__(self, folder):
+        self.path = Path(folder) / LOCK_FILE
+        self._fh = None
+        self.supported = True
+
+    def _try(self, mode: str = "a+") -> bool:
+        import fcntl
+
+        fh = open(self.path, mode)
+        try:
+            fcntl.flock(fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except OSError as exc:
+            fh.close()
+            if exc.errno in (errno.EWOULDBLOCK, errno.EAGAIN, errno.EACCES):
+                return False
+            self.supported = False
+            return True
+        self._fh = fh
+        return True
+
+    def holder(self) -> dict:
+        try:
+            return json.loads(self.path.read_text() or "{}")
+        except (OSError, ValueError):
+            return {}
+
+    def acquire(self) -> "CampaignLock":
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        if not self._try():
+            info = self.holder()
+            who = f"pid {info.get('pid', '?')} on {info.get('host', '?')} since {info.get('started', '?')}"
+            raise InputError(f"campaign folder {str(self.path.parent)!r} is in use by another `driven-atom scan` "
+                             f"({who}); wait for it to finish or stop it, then run again")
+        if self._fh is not None:
+            self._fh.seek(0)
+            self._fh.truncate()
+            self._fh.write(json.dumps(_identity()))
+            self._fh.flush()
+        return self
+
+    def release(self) -> None:
+        if self._fh is not None:
+            self._fh.seek(0)
+            self._fh.truncate()
+            self._fh.close()   # closing drops the flock
+            self._fh = None
+
+    def busy(self) -> bool:
+        """True when another process holds the lock (a probe: takes and drops it at once)."""
+        try:
+            free = self._try("r")      # read-only: status works in folders it may not write
+        except OSError:                # no lock file (never scanned) or unreadable: no holder seen
+            return False
+        if self._fh is not None:
+            self._fh.close()
+            self._fh = None
+        return not free
+
+    def __enter__(self):
+        return self.acquire()
+
+    def __exit__(self, *exc):
+        self.release()
+
+
+# -- campaign status ----------------------------------------------------------------------------
+def campaign_status(folder) -> dict:
+    """Counts of done / running / failed / pending jobs and one row per job.
+
+    ``pending`` counts every job neither done, failed nor running (``checkpointed`` and
+    ``corrupt`` jobs among them, also counted separately), so done + running + failed + pending
+    = total.
+    """
+    plan = read_plan(folder)
+    active = CampaignLock(folder).busy()
+    jobs = []
+    counts = {DONE: 0, RUNNING: 0, FAILED: 0, PENDING: 0, CHECKPOINTED: 0, CORRUPT: 0}
+    for job_id in plan_job_ids(plan):
+        state = job_state(folder, job_id)
+        status = state.status
+        if status in (PENDING, CHECKPOINTED, CORRUPT) and active and running_info(folder, job_id):
+            status = RUNNING
+        if status in (CHECKPOINTED, CORRUPT):
+            counts[status] += 1
+        counts[status if status in (DONE, RUNNING, FAILED) else PENDING] += 1
+        jobs.append({"id": job_id, "status": status, "wall_s": state.wall_s, "error": state.error})
+    walls = [j["wall_s"] for j in jobs if j["wall_s"] is not None]
+    return {"folder": str(folder), "total": len(jobs), **counts, "scan_active": active,
+            "wall_s_total": float(sum(walls)), "jobs": jobs}

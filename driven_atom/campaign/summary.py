@@ -1,0 +1,196 @@
+"""The campaign table: every job's result on the scan grid, as one xarray Dataset.
+
+``collect(folder)`` reads ``campaign.toml`` and the job files and writes ``summary.h5`` (netCDF-4
+through h5netcdf, temp file + rename), optionally ``summary.csv`` (one row per grid point).
+The Dataset has one dimension per scan axis (a zipped group is one dimension carrying all its
+axes as coordinates); every axis coordinate has a ``units`` attribute. Variables:
+
+* ``ionization``, ``norm`` (scan dims), ``population`` (scan dims + ``state``);
+* ``job_id`` and ``status`` (scan dims), so every number can be traced to its file;
+* spectra: for ``spectra[NAME] = {AXIS: ..., Y: ...}`` (AXIS one of energy, omega, frequency,
+  order, k) the variable ``NAME_Y`` on (scan dims, ``NAME_AXIS``) when all jobs share one AXIS
+  array, else on (scan dims, ``NAME_index``) with ``NAME_AXIS`` stored beside it (NaN padded).
+  Per-step time series kept with the spectra (an array named ``time``, e.g. the grid route's
+  ``dipole_response``) stay in the job files: they would make the table as large as all jobs.
+
+Grid points whose job is not done hold NaN (``status`` says why); attributes carry provenance
+(versions, host, created), the campaign config text and the job counts.
+
+>>> SPECTRUM_AXES[:2]
+('energy', 'omega')
+"""
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+from pathlib import Path
+
+import numpy as np
+
+from driven_atom.campaign import store
+
+SPECTRUM_AXES = ("energy", "omega", "frequency", "order", "k")
+
+
+def _coordinates(plan: dict) -> dict:
+    coords = {}
+    for path, axis in plan.get("axes", {}).items():
+        values = np.asarray(axis["coords"])
+        coords[path] = ((axis["dim"],), values, {"units": axis["units"], "key_path": path})
+    return coords
+
+
+def _spectra_variables(results: dict, index_of: dict, dims: tuple, shape: tuple) -> dict:
+    """Spectrum arrays of all done jobs -> data variables with the spectrum axis as extra dim."""
+    names = list(dict.fromkeys(name for r in results.values() for name, arrays in r.spectra.items()
+                               if "time" not in arrays))
+    out = {}
+    for name in names:
+        members = {jid: r.spectra[name] for jid, r in results.items() if name in r.spectra}
+        keys = list(dict.fromkeys(k for arrays in members.values() for k in arrays))
+        axis_key = next((k for k in SPECTRUM_AXES if k in keys), None)
+        first = next(iter(members.values()))
+        shared = axis_key is not None and all(
+            axis_key in a and np.array_equal(a[axis_key], first[axis_key]) for a in members.values())
+        extra = f"{name}_{axis_key}" if shared else f"{name}_index"
+        length = len(first[axis_key]) if shared else max(len(np.ravel(v)) for a in members.values() for v in a.values())
+        for key in keys:
+            if shared and key == axis_key:
+                continue
+            dtype = np.result_type(float, *(np.asarray(a[key]).dtype for a in members.values() if key in a))
+            data = np.full(shape + (length,), np.nan, dtype=dtype)
+            for jid, arrays in members.items():
+                if key in arrays:
+                    values = np.ravel(np.asarray(arrays[key]))
+                    for idx in index_of[jid]:
+                        data[idx + (slice(0, len(values)),)] = values
+            out[f"{name}_{key}"] = (dims + (extra,), data, {"units": "au"})
+        if shared:
+            out[extra] = ((extra,), np.asarray(first[axis_key], dtype=float), {"units": "au"})
+    return out
+
+
+def build_dataset(folder):
+    """The summary Dataset of a campaign folder (nothing written)."""
+    import xarray as xr
+
+    from driven_atom.result import provenance
+
+    plan = store.read_plan(folder)
+    dims = tuple(plan["campaign"]["dims"])
+    shape = tuple(plan["campaign"]["shape"])
+    index_of = {}
+    for job in plan.get("job", []):
+        index_of.setdefault(job["id"], []).append(tuple(job["index"]))
+    results, status = {}, {}
+    for job_id in index_of:
+        state, result = store.load_job(folder, job_id)
+        status[job_id] = state.status
+        if result is not None:
+            results[job_id] = result
+
+    labels = list(dict.fromkeys(label for r in results.values() for label in r.populations))
+    ionization, norm = np.full(shape, np.nan), np.full(shape, np.nan)
+    population = np.full(shape + (len(labels),), np.nan)
+    job_ids = np.empty(shape, dtype=object)
+    statuses = np.empty(shape, dtype=object)
+    for job_id, indices in index_of.items():
+        result = results.get(job_id)
+        for idx in indices:
+            job_ids[idx], statuses[idx] = job_id, status[job_id]
+            if result is not None:
+                ionization[idx], norm[idx] = result.ionization, result.norm
+                population[idx] = [result.populations.get(label, np.nan) for label in labels]
+
+    data_vars = {
+        "ionization": (dims, ionization, {"units": "1", "long_name": "ionisation probability"}),
+        "norm": (dims, norm, {"units": "1", "long_name": "final norm"}),
+        "population": (dims + ("state",), population, {"units": "1", "long_name": "final population"}),
+        "job_id": (dims, job_ids.astype(str)),
+        "status": (dims, statuses.astype(str)),
+    }
+    data_vars.update(_spectra_variables(results, index_of, dims, shape))
+    coords = _coordinates(plan)
+    coords["state"] = (("state",), np.array(labels, dtype=str))
+    counts = {s: sum(1 for v in status.values() if v == s)
+              for s in (store.DONE, store.FAILED, store.CHECKPOINTED, store.CORRUPT, store.PENDING)}
+    import tomli_w
+
+    attrs = {**provenance(), "config": tomli_w.dumps(plan.get("config", {})), "n_jobs": len(index_of),
+             "jobs_done": counts[store.DONE], "jobs_failed": counts[store.FAILED],
+             "jobs_missing": len(index_of) - counts[store.DONE], "counts": json.dumps(counts),
+             "complete": int(counts[store.DONE] == len(index_of))}
+    return xr.Dataset(data_vars, coords=coords, attrs=attrs)
+
+
+def _write_csv(ds, path: Path) -> Path:
+    """One row per grid point: axis values (unit in the header), job id, status, numbers."""
+    dims = [d for d in ds["ionization"].dims]
+    axis_names = [name for name in ds.coords if name != "state" and set(ds[name].dims) <= set(dims)]
+    header = [f"{n} [{ds[n].attrs['units']}]" if ds[n].attrs.get("units") else n for n in axis_names]
+    header += ["job_id", "status", "ionization", "norm"] + [f"P({s})" for s in ds["state"].values.tolist()]
+    buffer = io.StringIO()
+    writer = csv.writer(buffer)
+    writer.writerow(header)
+    for idx in np.ndindex(*ds["ionization"].shape):
+        point = dict(zip(dims, idx))
+        row = [ds[n].isel({d: point[d] for d in ds[n].dims}).item() for n in axis_names]
+        row += [str(ds["job_id"].values[idx]), str(ds["status"].values[idx]),
+                _num(ds["ionization"].values[idx]), _num(ds["norm"].values[idx])]
+        row += [_num(v) for v in ds["population"].values[idx]]
+        writer.writerow(row)
+    return store.write_text_atomic(path, buffer.getvalue())
+
+
+def _num(value) -> str:
+    value = float(value)
+    return "" if math.isnan(value) else repr(value)
+
+
+def collect(folder, csv: bool = False) -> Path:
+    """Write ``summary.h5`` (and ``summary.csv`` when asked) for a campaign folder; returns its path.
+
+    >>> import tempfile
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     collect(d)  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    driven_atom.errors.InputError: `DIR` ... is not a campaign folder (no campaign.toml); start one with `driven-atom scan CONFIG --out DIR`
+    """
+    folder = Path(folder)
+    ds = build_dataset(folder)
+    path = folder / store.SUMMARY_FILE
+    tmp = path.with_name(f"{path.name}.{os.getpid()}.tmp")      # two collects never share a temp file
+    ds.to_netcdf(tmp, engine="h5netcdf")
+    os.replace(tmp, path)
+    if csv:
+        _write_csv(ds, folder / store.CSV_FILE)
+    return path
+
+
+def _stale(folder: Path, summary: Path) -> bool:
+    if not summary.exists():
+        return True
+    made = summary.stat().st_mtime_ns
+    inputs = [folder / store.PLAN_FILE, *(folder / store.JOBS_DIR).glob("*.h5")]
+    return any(p.stat().st_mtime_ns > made for p in inputs if p.exists())
+
+
+def open_campaign(path):
+    """The summary Dataset of a campaign (a folder, collected first if needed, or a summary file).
+
+    The data are loaded into memory and the file closed, so the campaign can go on writing.
+    """
+    import xarray as xr
+
+    path = Path(path)
+    if path.is_dir():
+        summary = path / store.SUMMARY_FILE
+        if _stale(path, summary):
+            collect(path)
+        path = summary
+    with xr.open_dataset(path, engine="h5netcdf") as ds:
+        return ds.load()

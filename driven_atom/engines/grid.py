@@ -1,0 +1,620 @@
+"""The grid route: split-operator propagation of partial waves on the shared radial grid.
+
+ψ(r, θ, t) = Σ_l u_l(r, t)/r · Y_l0(θ) on r_i = i·dr (:mod:`driven_atom.basis.radial_grid`, the same
+Numerov-corrected H_l as the basis route: one discretisation), length gauge, linear polarisation
+along z (m = 0). One step of length dt with the field E at mid-step (Strang, second order):
+
+    U = A·B·C·B·A,  C: Crank–Nicolson for every H_l over dt;  A, B: exact 2×2 rotations
+    exp(−i (dt/2) E r c_l σ_x) on the pairs (l, l+1) with l even (A) and odd (B),
+    c_l = (l+1)/√((2l+1)(2l+3)) (PHYSICS.md, "Grid route").
+
+Both pieces are exactly unitary, so norm is lost only in the absorber at the edge: after each step
+the wave function is multiplied by the mask cos^(p·dt/Δt_ref)(π/2·(r − r_a)/w) on the outer width w,
+Δt_ref = 0.05 a.u.: the classic cos^(1/8) per step (p = 1/8; Krause, Schafer & Kulander, PRA 45,
+4998 (1992)) at dt = Δt_ref, scaled so that the absorption per unit time does not depend on dt
+(the mask is then the propagator of the imaginary potential −i·p·ln(1/cos(…))/Δt_ref).
+
+Observables (all in atomic units):
+
+* populations: |⟨φ_nl|u_l⟩|² with φ_nl the grid's own field-free eigenvectors (E < 0), labelled
+  "1s", "1s0", ... for n ≤ ``n_max`` (m = 0, so the level and its m = 0 sublevel agree);
+* ``ionization`` = 1 − Σ over *all* bound (E < 0) grid eigenstates of every l ≤ l_max: the norm
+  removed by the absorber counts as ionised, and so does unbound norm still on the grid;
+* series (at the history times): ``norm``, ``ionization``, ``dipole_z`` = ⟨z⟩ and
+  ``acceleration_z`` (Ehrenfest, :func:`driven_atom.observables.harmonics.ehrenfest_acceleration`);
+  ⟨z⟩ and the acceleration are also kept at every step (spectra["dipole_response"]) and give
+  spectra["harmonic"] = {"omega", "power"};
+* optionally (``photoelectron = true``) spectra["photoelectron"] = {"energy", "dP_dE"} of the final
+  state by the window operator (:func:`window_spectrum`).
+
+Defaults derived from the pulse (documented on :class:`Settings` and returned by
+:func:`grid_parameters`): quiver radius α₀ = F/(μω²), Uₚ = F²/(4μω²), highest expected electron
+energy E_max = max(10 Uₚ, 3ω, I_p) and its momentum k_max = √(2μE_max).
+
+Checkpoints: at deterministic step boundaries (history samples and multiples of 256 steps) the state,
+step index and sampled histories go into the run's file whenever ``checkpoint_every`` (steps or
+wall time) has passed; where checkpoints fall never changes the arithmetic, so a resumed run
+ends with arrays bit for bit equal to an uninterrupted one.
+"""
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+from typing import Literal, Union
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field, field_validator
+
+from driven_atom.errors import InputError
+
+Quantity = Union[float, str]
+L_FACTOR = 1.6                # default l_max: this many times the returning angular momentum
+MASK_DT_REF = 0.05          # a.u. time: the mask exponent p is per this much time
+CHUNK_MAX = 256             # longest kernel call in steps (granularity of checkpoints and progress)
+SMALL_GRID = 600            # below this many points the bound states come from the dense solver
+
+
+class Settings(BaseModel):
+    """``[solver]`` keys of the grid route. Unset grid keys are derived from the pulse (see
+    :func:`grid_parameters`); quantities are strings with units or plain atomic units.
+
+    >>> Settings(route="grid", dr="0.1 au", l_max=6).absorber
+    'mask'
+    """
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    route: Literal["grid"] = Field("grid", description="propagation route")
+    r_max: Quantity | None = Field(None, description="radial box size (bohr); default: room for the "
+                                   "initial state (40 n²/(Zμ)), 3 quiver radii + 20 bohr and, for a static field F, "
+                                   "the tunnel exit I_p/F twice + 40 bohr; plus the absorber")
+    dr: Quantity | None = Field(None, description="grid spacing (bohr); default min(0.1/Z, 0.5/k_max), "
+                                "which puts the grid 1s energy within 1e-5 of −Z²μ/2")
+    l_max: int | None = Field(None, ge=1, le=2000, description="highest partial wave; default "
+                              "max(8, l₀ + 6, ⌈1.6·α₀·√(6.34 μ Uₚ)⌉): the angular momentum of a "
+                              "returning electron (3.17 Uₚ) at the quiver radius")
+    dt: Quantity | None = Field(None, description="largest time step (a.u. time); default "
+                                "min(0.05, 0.1/E_max, T/400); the step used divides the pulse window evenly")
+    absorber: Literal["mask", "none"] = Field("mask", description="edge absorber: cos^p mask or none")
+    absorber_width: Quantity | None = Field(None, description="width of the mask at the outer edge (bohr); "
+                                            "default max(20 bohr, 20 % of the inner region) (at most half a given r_max)")
+    mask_power: float = Field(0.125, gt=0, le=2, description="exponent p of the cos^p mask per "
+                              "0.05 au of time (each step applies cos^(p·dt/0.05): dt-independent absorption)")
+    gauge: str = Field("length", description="interaction gauge; only \"length\" is implemented")
+    n_max: int = Field(4, ge=1, le=30, description="label populations of bound states with n <= n_max")
+    checkpoint_every: int | str = Field("60 s", description="checkpoint interval: an integer number of "
+                                        "steps, or wall-clock time with units (\"60 s\", \"10 min\")")
+    photoelectron: bool = Field(False, description="photoelectron spectrum of the final state by the "
+                                "window operator (Schafer & Kulander 1990); meaningful when the "
+                                "electrons are still inside the box (absorbed ones are missing)")
+    photoelectron_e_max: Quantity | None = Field(None, description="highest photoelectron energy "
+                                                 "(hartree); default E_max of the grid defaults")
+    photoelectron_points: int = Field(200, ge=2, le=100_000, description="number of energies; the "
+                                      "window half-width is half their spacing")
+    threads: int = Field(1, ge=1, le=256, description="threads for the step (1: the fused single-core "
+                         "kernel; more: the unfused parallel kernel, which pays little: the step is "
+                         "bandwidth-bound, run jobs side by side instead)")
+
+    @field_validator("gauge")
+    @classmethod
+    def _length_only(cls, value):
+        if value != "length":
+            raise ValueError(f"`solver.gauge` = {value!r} is not implemented by the grid route; "
+                             f"use \"length\"")
+        return value
+
+    @field_validator("checkpoint_every")
+    @classmethod
+    def _positive_interval(cls, value):
+        if isinstance(value, int) and value < 1:
+            raise ValueError(f"`solver.checkpoint_every` must be >= 1 step or a time like \"60 s\", "
+                             f"got {value!r}")
+        return value
+
+
+@dataclass(frozen=True)
+class GridParameters:
+    """Resolved numbers of one run (atomic units)."""
+
+    r_max: float
+    dr: float
+    l_max: int
+    dt: float
+    n_steps: int
+    absorber_width: float
+    quiver_radius: float
+    e_max: float
+
+
+def _pulse_scales(atom, pulse) -> tuple[float, float, float, float]:
+    """(α₀, Uₚ, ω_max, F_static): quiver radius and ponderomotive energy of the summed carriers
+    (amplitudes add, lowest frequency) and the static field, for the defaults."""
+    mu = atom.reduced_mass
+    osc = [c for c in pulse.components if c.omega > 0]
+    static = sum(c.peak_field for c in pulse.components if c.omega == 0)
+    if not osc:
+        return 0.0, 0.0, 0.0, static
+    f = sum(c.peak_field for c in osc)
+    w = min(c.omega for c in osc)
+    return f / (mu * w**2), f**2 / (4 * mu * w**2), max(c.omega for c in osc), static
+
+
+def grid_parameters(atom, pulse, settings: Settings, n_initial: int = 1,
+                    l_initial: int = 0) -> GridParameters:
+    """Grid, partial waves and step of a run: the user's values, else defaults from the pulse.
+
+    >>> from driven_atom.atom import Atom
+    >>> from driven_atom.pulse import Pulse
+    >>> p = Pulse({"wavelength": "800 nm", "intensity": "1e14 W/cm^2", "cycles": 4})
+    >>> g = grid_parameters(Atom(1), p, Settings())
+    >>> round(g.quiver_radius, 1), g.dr, g.l_max
+    (16.5, 0.1, 32)
+    """
+    from driven_atom.units import to_au
+
+    mu, Z = atom.reduced_mass, atom.Z
+    alpha0, up, w_max, f_static = _pulse_scales(atom, pulse)
+    ip = Z**2 * mu / (2 * n_initial**2)
+    e_max = max(10 * up, 3 * w_max, ip)
+    k_max = math.sqrt(2 * mu * e_max)
+    dr = to_au(settings.dr, "length", name="solver.dr") if settings.dr is not None \
+        else min(0.1 / Z, 0.5 / k_max)
+    if not dr > 0:
+        raise InputError(f"`solver.dr` must be > 0 bohr, got {settings.dr!r}")
+    if settings.r_max is not None:
+        r_max = to_au(settings.r_max, "length", name="solver.r_max")
+        width = (to_au(settings.absorber_width, "length", name="solver.absorber_width")
+                 if settings.absorber_width is not None else min(max(20.0, 0.2 * r_max), 0.5 * r_max))
+    else:
+        inner = max(40.0 * n_initial**2 / (Z * mu), 3 * alpha0 + 20.0)
+        if f_static > 0:
+            inner = max(inner, 2 * ip / f_static + 40.0)    # beyond the tunnel exit I_p/F
+        width = (to_au(settings.absorber_width, "length", name="solver.absorber_width")
+                 if settings.absorber_width is not None else max(20.0, 0.2 * inner))
+        r_max = inner + width
+    if settings.absorber == "none":
+        width = 0.0
+    if not 0 <= width < r_max:
+        raise InputError(f"`solver.absorber_width` must be >= 0 and below r_max = {r_max:g} bohr, "
+                         f"got {width:g}")
+    if settings.l_max is not None:
+        l_max = settings.l_max
+    else:
+        l_max = max(8, l_initial + 6, math.ceil(L_FACTOR * alpha0 * math.sqrt(6.34 * mu * up)))
+    window = pulse.t_end - pulse.t_start
+    if settings.dt is not None:
+        dt_max = to_au(settings.dt, "time", name="solver.dt")
+        if not dt_max > 0:
+            raise InputError(f"`solver.dt` must be > 0, got {settings.dt!r}")
+    else:
+        dt_max = min(0.05, 0.1 / e_max, (2 * math.pi / w_max) / 400 if w_max > 0 else math.inf)
+    n_steps = max(1, math.ceil(window / dt_max - 1e-9))
+    return GridParameters(r_max=r_max, dr=dr, l_max=l_max, dt=window / n_steps, n_steps=n_steps,
+                          absorber_width=width, quiver_radius=alpha0, e_max=e_max)
+
+
+def mask_profile(r, r_max, width, power=0.125) -> np.ndarray:
+    """cos^p(π/2·(r − r_a)/w) for r > r_a = r_max − w, else 1 (edge absorber).
+
+    >>> mask_profile(np.array([1.0, 9.0]), 10.0, 2.0).round(4).tolist()
+    [1.0, 0.9576]
+    """
+    r = np.asarray(r, dtype=float)
+    if width <= 0:
+        return np.ones_like(r)
+    x = np.clip((r - (r_max - width)) / width, 0.0, 1.0)
+    return np.cos(0.5 * np.pi * x) ** power
+
+
+def bound_states(grid, l: int, atom) -> tuple[np.ndarray, np.ndarray]:
+    """Field-free bound states (E < 0) of partial wave ``l`` on ``grid``: energies ascending and
+    columns with Σᵢ|uᵢ|² = 1, the first lobe positive.
+
+    Small grids use :func:`driven_atom.basis.radial_grid.eigenstates`; larger ones the same operator
+    through shift-invert Lanczos (ARPACK), (H − σ)⁻¹ = (K − σM)⁻¹M with K = −Δ/2μ + M·V a banded
+    solve, a fixed start vector so the result is reproducible.
+
+    >>> from driven_atom.atom import Atom
+    >>> from driven_atom.basis.radial_grid import uniform_grid
+    >>> E, U = bound_states(uniform_grid(80.0, 0.1), 1, Atom(1))
+    >>> round(float(E[0]), 5), U.shape[1] == E.size
+    (-0.125, True)
+    """
+    from scipy.linalg import solve_banded
+    from scipy.sparse.linalg import LinearOperator, eigsh
+
+    from driven_atom.basis.radial_grid import eigenstates, numerov_operators, reproducible_blas
+
+    n = grid.n_points
+    if n <= SMALL_GRID:
+        return eigenstates(grid, l, atom, e_max=0.0)
+    ops = numerov_operators(grid, l, atom)
+    sigma = -atom.Z**2 * atom.reduced_mass / (2 * (l + 1) ** 2) * 1.05 - 1e-3
+    v = ops.potential - sigma
+    ab = np.zeros((3, n))
+    ab[0, 1:] = -ops.d_off / (2 * ops.mu) + ops.m_off * v[1:]
+    ab[1] = -ops.d_diag / (2 * ops.mu) + ops.m_diag * v
+    ab[2, :-1] = -ops.d_off / (2 * ops.mu) + ops.m_off * v[:-1]
+
+    def m_times(x):
+        y = ops.m_diag * x
+        y[1:] += ops.m_off * x[:-1]
+        y[:-1] += ops.m_off * x[1:]
+        return y
+
+    op_inv = LinearOperator((n, n), matvec=lambda x: solve_banded((1, 1), ab, m_times(np.ravel(x))),
+                            dtype=float)
+    a = LinearOperator((n, n), matvec=lambda x: ops.apply(np.ravel(x)), dtype=float)
+    n_fit = int(math.sqrt(atom.Z * atom.reduced_mass * grid.r_max / 2)) + 1
+    k = min(n - 2, max(1, n_fit - l) + 4)
+    while True:
+        with reproducible_blas():
+            energies, vectors = eigsh(a, k=k, sigma=sigma, OPinv=op_inv, which="LM", v0=np.ones(n),
+                                      tol=0)
+        order = np.argsort(energies)
+        energies, vectors = energies[order], vectors[:, order]
+        if energies[-1] >= 0 or k >= n - 2:
+            break
+        k = min(n - 2, 2 * k)
+    keep = energies < 0
+    energies, vectors = energies[keep], vectors[:, keep]
+    vectors /= np.linalg.norm(vectors, axis=0)
+    mag = np.abs(vectors)
+    if vectors.shape[1]:
+        first = np.argmax(mag > 1e-3 * mag.max(axis=0), axis=0)
+        signs = np.sign(vectors[first, np.arange(vectors.shape[1])])
+        vectors = vectors * np.where(signs == 0, 1.0, signs)
+    return energies, vectors
+
+
+def window_spectrum(grid, atom, psi, energies, gamma) -> np.ndarray:
+    """Angle-integrated photoelectron spectrum dP/dE of ψ[i, l] by the window operator
+    W = γ⁴/((H − E)⁴ + γ⁴) (Schafer & Kulander, PRA 42, 5794 (1990), n = 2):
+
+        P(E) = Σ_l ‖γ² (H_l − E − γe^{iπ/4})⁻¹ (H_l − E − γe^{3iπ/4})⁻¹ u_l‖²,
+        dP/dE ≈ P(E)·√2/(πγ)     (∫ γ⁴/(x⁴ + γ⁴) dx = πγ/√2),
+
+    each resolvent one banded solve, (H − z)⁻¹ = (K − zM)⁻¹M with K = −Δ/2μ + M·V (the grid's
+    own Numerov operators).
+
+    >>> from driven_atom.atom import Atom
+    >>> from driven_atom.basis.radial_grid import uniform_grid
+    >>> g = uniform_grid(60.0, 0.1)
+    >>> E, U = bound_states(g, 0, Atom(1))
+    >>> psi = U[:, :1].astype(complex)             # the 1s state: W = 1 at E_1s, 1/2 at E_1s + γ
+    >>> s = window_spectrum(g, Atom(1), psi, E[0] + np.array([0.0, 0.01]), 0.01)
+    >>> (s * np.pi * 0.01 / np.sqrt(2)).round(6).tolist()
+    [1.0, 0.5]
+    """
+    from scipy.linalg import solve_banded
+
+    from driven_atom.basis.radial_grid import numerov_operators
+
+    energies = np.asarray(energies, dtype=float)
+    out = np.zeros(energies.size)
+    roots = gamma * np.exp(1j * np.pi * np.array([0.25, 0.75]))
+    for l in range(psi.shape[1]):
+        u = psi[:, l]
+        if not np.any(u):
+            continue
+        ops = numerov_operators(grid, l, atom)
+        m_u = ops.m_diag * u
+        m_u[1:] += ops.m_off * u[:-1]
+        m_u[:-1] += ops.m_off * u[1:]
+        kin_d, kin_o = -ops.d_diag / (2 * ops.mu), -ops.d_off / (2 * ops.mu)
+        ab = np.zeros((3, u.size), complex)
+        for k, e in enumerate(energies):
+            x = m_u
+            for q, z in enumerate(e + roots):
+                v = ops.potential - z
+                ab[0, 1:] = kin_o + ops.m_off * v[1:]
+                ab[1] = kin_d + ops.m_diag * v
+                ab[2, :-1] = kin_o + ops.m_off * v[:-1]
+                y = solve_banded((1, 1), ab, x, check_finite=False)
+                if q == 0:
+                    x = ops.m_diag * y
+                    x[1:] += ops.m_off * y[:-1]
+                    x[:-1] += ops.m_off * y[1:]
+            out[k] += gamma**4 * float(np.sum(abs(y) ** 2))
+    return out * math.sqrt(2) / (math.pi * gamma)
+
+
+def coupling_coefficients(l_max: int) -> np.ndarray:
+    """c_l = ⟨l 0|cosθ|l+1 0⟩ = (l+1)/√((2l+1)(2l+3)) for l = 0..l_max (PHYSICS.md).
+
+    >>> coupling_coefficients(1).round(6).tolist()
+    [0.57735, 0.516398]
+    """
+    l = np.arange(l_max + 1, dtype=float)
+    return (l + 1) / np.sqrt((2 * l + 1) * (2 * l + 3))
+
+
+class _Stepper:
+    """The propagation state and its arrays, prepared once: operators, Thomas factors, mask,
+    scratch. It holds the state in the kernels' layout (real and imaginary parts, columns even l
+    then odd l); :meth:`state` and :meth:`set_state` convert exactly (no arithmetic)."""
+
+    def __init__(self, grid, atom, n_l: int, dt: float, mask, threads: int):
+        from driven_atom.basis.radial_grid import numerov_operators
+        from driven_atom.engines import kernels
+
+        self.kernels = kernels
+        n = grid.n_points
+        ops = [numerov_operators(grid, l, atom) for l in range(n_l)]
+        ref = ops[-1]                                # rows >= 1 are the same for every l
+        for o in ops:
+            if not (np.array_equal(o.m_diag[1:], ref.m_diag[1:]) and np.array_equal(o.d_diag[1:], ref.d_diag[1:])
+                    and np.array_equal(o.m_off, ref.m_off) and np.array_equal(o.d_off, ref.d_off)):
+                raise RuntimeError("radial_grid operators differ between l beyond the first row")
+        self.order = np.r_[np.arange(0, n_l, 2), np.arange(1, n_l, 2)]   # column j holds l = order[j]
+        self.column_of = np.argsort(self.order)
+        r = grid.r
+        mu = atom.reduced_mass
+        cent = np.array([l * (l + 1) / (2 * mu) for l in range(n_l)])
+        self.a = dict(m_diag=ref.m_diag.copy(), m_off=ref.m_off.copy(), d_diag=ref.d_diag.copy(),
+                      d_off=ref.d_off.copy(),
+                      m_first=np.array([o.m_diag[0] for o in ops])[self.order].copy(),
+                      d_first=np.array([o.d_diag[0] for o in ops])[self.order].copy(),
+                      cent=cent[self.order].copy(), coul=-atom.Z / r, invr2=1.0 / r**2)
+        self.tau = 0.5 * dt
+        self.inv2mu = 0.5 / mu
+        self.dr = grid.dr
+        c = coupling_coefficients(n_l - 1)
+        ne = (n_l + 1) // 2
+        self.ca = c[0:2 * (n_l // 2):2].copy()          # pairs (2p, 2p+1)
+        self.cb = c[1:2 * (ne - 1):2].copy()            # pairs (2p+1, 2p+2)
+        self.mask = np.ascontiguousarray(mask, dtype=float)
+        below = np.nonzero(self.mask < 1.0)[0]
+        self.i_abs = int(below[0]) if below.size else n
+        shape = (n, n_l)
+        self.wr, self.wi, self.cr, self.ci = (np.zeros(shape) for _ in range(4))
+        self.refactor()
+        self.pr, self.pi = np.zeros(shape), np.zeros(shape)
+        self.threads = threads
+        p = max(1, self.ca.size, self.cb.size)
+        self.stp = np.zeros((8, p))
+        if threads == 1:
+            self.carry = np.zeros((6, n_l))
+            self.rot = np.zeros((8, p))
+        else:
+            self.cblock = -(-n_l // threads)          # one block of partial waves per thread
+            self.rblock = 64
+            nrb = -(-n // self.rblock)
+            self.carry = np.zeros((-(-n_l // self.cblock), 6, self.cblock))
+            self.rot = np.zeros((nrb, 8, p))
+
+    def refactor(self):
+        """(Re)compute the Thomas factors from the arrays in ``self.a`` and ``self.tau``."""
+        a = self.a
+        self.kernels.cn_factorize(a["m_diag"], a["m_off"], a["d_diag"], a["d_off"], a["m_first"],
+                                  a["d_first"], a["cent"], a["coul"], a["invr2"], self.tau,
+                                  self.inv2mu, self.wr, self.wi, self.cr, self.ci)
+
+    def set_state(self, psi):
+        """Load ψ[i, l] (complex, natural l order)."""
+        self.pr[:] = psi.real[:, self.order]
+        self.pi[:] = psi.imag[:, self.order]
+
+    def state(self) -> np.ndarray:
+        """ψ[i, l] (complex, natural l order), a new array."""
+        psi = np.empty(self.pr.shape, complex)
+        psi.real[:, self.order] = self.pr
+        psi.imag[:, self.order] = self.pi
+        return psi
+
+    def column(self, l: int) -> np.ndarray:
+        """u_l(r_i) as a complex vector."""
+        j = self.column_of[l]
+        return self.pr[:, j] + 1j * self.pi[:, j]
+
+    def run(self, fields, out):
+        """Advance the state by len(fields) steps; ``out`` (k, 3) gets norm, ⟨z⟩, ⟨cosθ/r²⟩."""
+        a = self.a
+        fields = np.ascontiguousarray(fields, dtype=float)
+        args = (self.wr, self.wi, self.cr, self.ci, a["m_diag"], a["m_off"], a["d_diag"], a["d_off"],
+                a["m_first"], a["d_first"], a["cent"], a["coul"], a["invr2"], self.tau, self.inv2mu,
+                self.dr, self.ca, self.cb, fields, self.mask, self.i_abs, self.carry, self.rot, self.stp)
+        if self.threads == 1:
+            self.kernels.propagate_chunk(self.pr, self.pi, *args, out)
+        else:
+            import numba
+
+            numba.set_num_threads(min(self.threads, numba.config.NUMBA_NUM_THREADS))
+            partial = np.zeros((fields.size, self.rot.shape[0], 3))
+            self.kernels.propagate_chunk_parallel(self.pr, self.pi, *args, partial, self.cblock,
+                                                  self.rblock)
+            self.kernels.reduce_partial(partial, out)
+
+
+def _chunk_ends(n_steps: int, every: int, ckpt_steps: int | None) -> list[int]:
+    """Deterministic step indices where a kernel call ends (samples, checkpoints, CHUNK_MAX)."""
+    ends = set(range(every, n_steps + 1, every)) | set(range(CHUNK_MAX, n_steps + 1, CHUNK_MAX))
+    if ckpt_steps:
+        ends |= set(range(ckpt_steps, n_steps + 1, ckpt_steps))
+    ends.add(n_steps)
+    return sorted(ends)
+
+
+def _initial_psi(initial, bound, n, n_l) -> np.ndarray:
+    psi = np.zeros((n, n_l), complex)
+    for state, amp in initial:
+        if state.m not in (None, 0):
+            raise InputError(f"`atom.initial` {state.label!r}: the grid route is for linear "
+                             f"polarisation along z and needs m = 0 states")
+        if state.l >= n_l:
+            raise InputError(f"`atom.initial` {state.label!r} needs l_max >= {state.l}")
+        energies, vectors = bound[state.l]
+        j = state.n - state.l - 1
+        if j >= energies.size:
+            raise InputError(f"`atom.initial` {state.label!r} is not bound on this grid; "
+                             f"raise `solver.r_max`")
+        psi[:, state.l] += amp * vectors[:, j]
+    return psi
+
+
+def propagate(atom, pulse, settings: Settings, *, initial, output, progress=False, checkpoint=None):
+    """Propagate ``initial`` [(State, amplitude)] through ``pulse`` on the radial grid.
+
+    Returns a :class:`driven_atom.result.Result` (route "grid"); see the module docstring for what it
+    holds. ``checkpoint`` (a :class:`driven_atom.result.Checkpoint`) is loaded at the start and saved
+    every ``settings.checkpoint_every``. BLAS runs single-threaded throughout, so a run resumed
+    under other thread settings stores the same bits as an uninterrupted one.
+    """
+    from driven_atom.basis.radial_grid import reproducible_blas
+
+    with reproducible_blas():
+        return _propagate(atom, pulse, settings, initial=initial, output=output, progress=progress,
+                          checkpoint=checkpoint)
+
+
+def _propagate(atom, pulse, settings, *, initial, output, progress, checkpoint):
+    from driven_atom.basis.radial_grid import uniform_grid
+    from driven_atom.observables.harmonics import ehrenfest_acceleration, harmonic_spectrum
+    from driven_atom.observables.populations import level_populations
+    from driven_atom.atom.states import State, parse_state
+    from driven_atom.result import Result
+    from driven_atom.units import AU_TIME_S, to_au
+
+    started = time.perf_counter()
+    if not pulse.is_linear_z:
+        raise InputError("`pulse.polarization` must be \"z\" for every pulse on the grid route "
+                         "(linear polarisation, m = 0)")
+    n0 = max(s.n for s, _ in initial)
+    l0 = max(s.l for s, _ in initial)
+    par = grid_parameters(atom, pulse, settings, n_initial=n0, l_initial=l0)
+    grid = uniform_grid(par.r_max, par.dr)
+    n, n_l = grid.n_points, par.l_max + 1
+    r = grid.r
+    mask = mask_profile(r, grid.r_max, par.absorber_width, settings.mask_power * par.dt / MASK_DT_REF)
+
+    bound = [bound_states(grid, l, atom) for l in range(n_l)]
+    n_l_bound = max((l + 1 for l in range(n_l) if bound[l][0].size), default=0)
+    labelled = [(l, j) for l in range(n_l) for j in range(bound[l][0].size)
+                if j + l + 1 <= settings.n_max]
+    psi = _initial_psi(initial, bound, n, n_l)
+    norm0 = float(np.sum(abs(psi) ** 2))
+    psi /= math.sqrt(norm0)
+
+    dt, n_steps = par.dt, par.n_steps
+    t0 = pulse.t_start
+    every_t = output.every_au if output.every is not None else max(dt, (pulse.t_end - t0) / 500)
+    every = max(1, min(n_steps, round(every_t / dt)))
+    ckpt_steps = settings.checkpoint_every if isinstance(settings.checkpoint_every, int) else None
+    ckpt_wall = (None if ckpt_steps else
+                 to_au(settings.checkpoint_every, "time", name="solver.checkpoint_every") * AU_TIME_S)
+    ends = _chunk_ends(n_steps, every, ckpt_steps)
+    sample_steps = np.arange(0, n_steps + 1, every)
+    if sample_steps[-1] != n_steps:
+        sample_steps = np.append(sample_steps, n_steps)
+    times = t0 + dt * sample_steps
+    step_times = t0 + dt * np.arange(1, n_steps + 1)
+    fields_mid = pulse.field_z(t0 + dt * (np.arange(n_steps) + 0.5))
+
+    per_step = np.zeros((n_steps, 3))
+    hist_pop = np.zeros((sample_steps.size, len(labelled)))
+    hist_bound = np.zeros(sample_steps.size)
+    hist_obs = np.zeros((sample_steps.size, 3))
+    step, sample = 0, 0
+    meta_expect = {"n_points": n, "n_l": n_l, "n_steps": n_steps, "every": every}
+    resumed = False
+    if checkpoint is not None:
+        loaded = checkpoint.load()
+        if loaded is not None:
+            arrays, meta = loaded
+            if all(meta.get(k) == v for k, v in meta_expect.items()) and arrays["psi"].shape == psi.shape:
+                psi = np.ascontiguousarray(arrays["psi"])
+                per_step, hist_pop = arrays["per_step"], arrays["hist_pop"]
+                hist_bound, hist_obs = arrays["hist_bound"], arrays["hist_obs"]
+                step, sample = int(meta["step"]), int(meta["sample"])
+                resumed = True
+
+    stepper = _Stepper(grid, atom, n_l, dt, mask, settings.threads)
+    stepper.set_state(psi)
+
+    def measure(k):
+        total = 0.0
+        for l in range(n_l_bound):
+            amps = bound[l][1].T @ stepper.column(l)
+            total += float(np.sum(abs(amps) ** 2))
+            for idx, (ll, j) in enumerate(labelled):
+                if ll == l:
+                    hist_pop[k, idx] = abs(amps[j]) ** 2
+        hist_bound[k] = total
+
+    if not resumed:
+        measure(0)
+        hist_obs[0] = _observables(psi, r, coupling_coefficients(par.l_max))
+        sample = 1
+    bar = _progress_bar(n_steps, step, progress)
+    last_save = time.perf_counter()
+    for end in ends:
+        if end <= step:
+            continue
+        stepper.run(fields_mid[step:end], per_step[step:end])
+        if bar is not None:
+            bar.update(end - step)
+        step = end
+        if sample < sample_steps.size and step == sample_steps[sample]:
+            measure(sample)
+            hist_obs[sample] = per_step[step - 1]
+            sample += 1
+        due = (ckpt_steps is not None and step % ckpt_steps == 0) or \
+              (ckpt_wall is not None and time.perf_counter() - last_save >= ckpt_wall)
+        if checkpoint is not None and due and step < n_steps:
+            checkpoint.save({"psi": stepper.state(), "per_step": per_step, "hist_pop": hist_pop,
+                             "hist_bound": hist_bound, "hist_obs": hist_obs},
+                            dict(meta_expect, step=step, sample=sample))
+            last_save = time.perf_counter()
+    if bar is not None:
+        bar.close()
+
+    mu = atom.reduced_mass
+    acc_steps = ehrenfest_acceleration(per_step[:, 2], pulse.field_z(step_times), per_step[:, 0],
+                                       atom.Z, mu)
+    acc_samples = ehrenfest_acceleration(hist_obs[:, 2], pulse.field_z(times), hist_obs[:, 0], atom.Z, mu)
+    omega, power = harmonic_spectrum(step_times, acc_steps)
+    final_pop = {State(l + j + 1, l, 0): float(hist_pop[-1, idx]) for idx, (l, j) in enumerate(labelled)}
+    history = {State(l + j + 1, l, 0): hist_pop[:, idx] for idx, (l, j) in enumerate(labelled)}
+    history = {k: v for k, v in level_populations(history).items() if parse_state(k).m is None}
+    norm = float(hist_obs[-1, 0])
+    spectra = {"harmonic": {"omega": omega, "power": power},
+               "dipole_response": {"time": step_times, "dipole_z": per_step[:, 1],
+                                   "acceleration_z": acc_steps}}
+    if settings.photoelectron:
+        e_top = (to_au(settings.photoelectron_e_max, "energy", name="solver.photoelectron_e_max")
+                 if settings.photoelectron_e_max is not None else par.e_max)
+        energies = np.linspace(0.0, e_top, settings.photoelectron_points + 1)[1:]
+        spectra["photoelectron"] = {
+            "energy": energies,
+            "dP_dE": window_spectrum(grid, atom, stepper.state(), energies, 0.5 * energies[0])}
+    warnings = []
+    if par.absorber_width == 0 and 1 - hist_bound[-1] > 1e-3:
+        warnings.append("no absorber: ionised norm reflects from r_max")
+    stats = {"steps": n_steps, "dt": dt, "r_max": grid.r_max, "dr": grid.dr, "l_max": par.l_max,
+             "n_points": n, "absorber": settings.absorber, "absorber_width": par.absorber_width,
+             "quiver_radius": par.quiver_radius, "e_max": par.e_max, "absorbed": 1.0 - norm,
+             "threads": settings.threads, "resumed": resumed,
+             "bound_states": int(sum(b[0].size for b in bound)),
+             "ground_energy": float(bound[0][0][0]) if bound[0][0].size else float("nan"),
+             "wall_s": time.perf_counter() - started}
+    return Result(route="grid", populations=level_populations(final_pop),
+                  ionization=float(1.0 - hist_bound[-1]), norm=norm, times=times,
+                  history_populations=history,
+                  series={"norm": hist_obs[:, 0], "ionization": 1.0 - hist_bound,
+                          "dipole_z": hist_obs[:, 1], "acceleration_z": acc_samples},
+                  spectra=spectra, stats=stats, warnings=warnings)
+
+
+def _observables(psi, r, c) -> np.ndarray:
+    """(norm, ⟨z⟩, ⟨cosθ/r²⟩) of ψ[r, l] (the kernels' per-step quantities, for the first sample)."""
+    ang = 2 * np.sum(c[None, :-1] * (psi[:, :-1].conj() * psi[:, 1:]).real, axis=1)
+    return np.array([np.sum(abs(psi) ** 2), np.sum(r * ang), np.sum(ang / r**2)])
+
+
+def _progress_bar(total, done, enabled):
+    if not enabled:
+        return None
+    from tqdm import tqdm
+
+    return tqdm(total=total, initial=done, unit="step", desc="grid", leave=False, mininterval=0.5)

@@ -1,0 +1,593 @@
+"""Few-level route: master-equation dynamics of chosen hydrogenic sublevels (qutip 5).
+
+The model holds the m-sublevels |n l m> named in ``[solver] states`` ("2p" expands to 2p-1, 2p0,
+2p1; "2p0" is that sublevel only) with the exact energies E_n = -Z²μ/(2n²) and the dipole matrix
+elements <i|r_q|j> of :mod:`driven_atom.atom.dipoles`. The field couples them in the length gauge,
+H_int = E(t)·r = Σ_q e_q(E) r_q with e_{±1} = (∓E_x + iE_y)/√2, e_0 = E_z (any polarisation).
+
+* ``rwa = false``: the full coupling E(t)·r with E(t) from :mod:`driven_atom.pulse`, in the lab frame.
+* ``rwa = true`` (rotating-wave approximation, interaction picture): with the complex envelope
+  ℰ(t) of each pulse (E = Re[ℰ e^{-iωt}]) only the absorbing half ½ℰ·r e^{-iωt} is kept on the
+  transitions whose frequency ω_ul is the nearest to that pulse's carrier ω, giving
+  H_ul(t) = ½ <u|ℰ(t)·r|l> e^{i(ω_ul - ω)t} (Allen & Eberly, *Optical Resonance and Two-Level
+  Atoms*, 1975, ch. 2). The pairing of pulses and transitions is reported; a carrier detuned by
+  more than 10 % of its transition, or a Rabi frequency above 10 % of it, is warned about.
+
+Dissipation (Lindblad form, Gorini–Kossakowski–Sudarshan 1976; Lindblad 1976):
+
+* ``decay``: one operator √A |l><u| per m→m′ channel with the Einstein A of
+  :func:`driven_atom.atom.dipoles.einstein_A`; the rest of each level's total rate 1/τ (decay to levels
+  not in the model) goes to a sink population ``"elsewhere"``. Each channel decays on its own, so
+  coherence is not transferred between sublevels by spontaneous emission.
+* ``dephasing`` γ: operators √γ P_E (projector on all sublevels of one energy); every coherence
+  between sublevels of different energy decays at the rate γ (a rate: "1 GHz" means 1e9 s⁻¹).
+* ``ionization_loss``: each sublevel j is emptied into the sink ``"ionized"`` at the rate
+  σ_nl(ω) I(t)/ω of each pulse, with the m-averaged cross section of
+  :func:`driven_atom.atom.photoionization.cross_section` at the carrier ω and the cycle-averaged
+  intensity I(t) = c|ℰ(t)|²/(8π) (a.u.). The sink populations and the model add up to 1 (``norm``).
+
+Time-dependent coefficients are sampled once on an adaptively refined grid (cubic splines, the
+interpolation qutip uses, checked at every interval midpoint against ``sampling_tol``), then qutip's
+``MESolver`` (or ``SESolver`` when nothing dissipates) propagates over the pulse window. After the
+pulse, field-free, populations follow the rate equations dp/dt = R p in closed form,
+p(t) = exp(R t) p(0) (scipy.linalg.expm). Levels runs are short: they are not checkpointed.
+
+>>> Settings(route="levels", states=["1s", "2p"]).sublevels()
+[State(n=1, l=0, m=0), State(n=2, l=1, m=-1), State(n=2, l=1, m=0), State(n=2, l=1, m=1)]
+"""
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+from typing import Literal, Union
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+
+from driven_atom.atom.dipoles import spherical_coefficients
+from driven_atom.atom.states import State, parse_state
+from driven_atom.errors import InputError
+from driven_atom.units import C_AU, to_au
+
+Quantity = Union[float, str]
+ELSEWHERE = "elsewhere"
+IONIZED = "ionized"
+RWA_DETUNING_LIMIT = 0.1     # |ω - ω_ul|/ω_ul above which the RWA is reported invalid
+MAX_COEFFICIENT_VALUES = 20_000_000   # samples x terms kept in memory for the coefficients
+MAX_HISTORY = 1_000_000
+
+
+def _time(value, name):
+    t = to_au(value, "time", name=name)
+    if t < 0:
+        raise ValueError(f"`{name}` must be >= 0, got {value!r}")
+    return value
+
+
+class Settings(BaseModel):
+    """``[solver]`` keys of the levels route (quantities: strings with units or plain a.u.)."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    route: Literal["levels"] = Field("levels", description="the few-level master-equation route")
+    states: list[str] = Field(..., min_length=1, description=(
+        'levels or sublevels in the model: "2p" brings all its m-sublevels, "2p0" only that one'))
+    rwa: bool = Field(True, description=(
+        "rotating-wave approximation: each pulse drives only the transitions nearest its carrier"))
+    decay: bool = Field(True, description="spontaneous decay with the Einstein A of each m->m' channel")
+    dephasing: Quantity = Field(0.0, description=(
+        'pure dephasing rate of coherences between different energies ("1 GHz" = 1e9 s^-1)'))
+    ionization_loss: bool = Field(False, description=(
+        "photoionisation loss of every level at the instantaneous intensity, into `ionization`"))
+    after: Quantity | None = Field(None, description=(
+        "field-free time after the pulse (closed form); default 0"))
+    t_end: Quantity | None = Field(None, description=(
+        "absolute end time (the pulse window starts at its first foot); instead of `after`"))
+    atol: float = Field(1e-12, gt=0, description="absolute tolerance of the ODE solver (qutip atol)")
+    rtol: float = Field(1e-10, gt=0, description="relative tolerance of the ODE solver (qutip rtol)")
+    nsteps: int = Field(1_000_000, gt=0, description="maximum internal ODE steps between samples")
+    method: Literal["adams", "bdf", "lsoda", "dop853", "vern7", "vern9"] = Field(
+        "adams", description="qutip integration method")
+    max_step: Quantity | None = Field(None, description=(
+        "largest ODE step (default: a tenth of the shortest pulse)"))
+    sampling_tol: float = Field(1e-7, gt=0, lt=1e-2, description=(
+        "accuracy of the cubic-spline samples of the field coefficients, relative to their peak"))
+
+    @field_validator("states")
+    @classmethod
+    def _states(cls, value):
+        seen: dict[State, str] = {}
+        for label in value:
+            for s in parse_state(label, name="solver.states").sublevels():
+                if s in seen:
+                    raise ValueError(f"`solver.states`: {label!r} repeats sublevel {s.label} "
+                                     f"(from {seen[s]!r})")
+                seen[s] = label
+        return value
+
+    @field_validator("dephasing")
+    @classmethod
+    def _dephasing(cls, value):
+        if to_au(value, "rate", name="solver.dephasing") < 0:
+            raise ValueError(f"`solver.dephasing` must be >= 0, got {value!r}")
+        return value
+
+    @field_validator("after", "max_step")
+    @classmethod
+    def _durations(cls, value, info):
+        return None if value is None else _time(value, f"solver.{info.field_name}")
+
+    @field_validator("t_end")
+    @classmethod
+    def _t_end(cls, value):
+        if value is not None:
+            to_au(value, "time", name="solver.t_end")
+        return value
+
+    @model_validator(mode="after")
+    def _one_end(self):
+        if self.after is not None and self.t_end is not None:
+            raise ValueError("`solver.after` and `solver.t_end` exclude each other; give one")
+        return self
+
+    def sublevels(self) -> list[State]:
+        """The model's sublevels in the order of ``states``, each level's m ascending."""
+        return [s for label in self.states for s in parse_state(label).sublevels()]
+
+    def dephasing_rate(self) -> float:
+        """γ in 1/(a.u. time)."""
+        return to_au(self.dephasing, "rate", name="solver.dephasing")
+
+
+# --- the static model ------------------------------------------------------------------------
+@dataclass(frozen=True)
+class LevelModel:
+    """The field-free part of the model, atomic units.
+
+    ``dipoles[k, i, j] = <i|r_q|j>`` with q = k - 1; ``channels`` lists (from, to, rate) of every
+    decay channel, ``to`` indexing ``labels`` (sinks after the sublevels).
+    """
+
+    states: tuple[State, ...]
+    energies: np.ndarray
+    dipoles: np.ndarray
+    channels: tuple[tuple[int, int, float], ...]
+    sinks: tuple[str, ...]
+
+    @property
+    def labels(self) -> list[str]:
+        return [s.label for s in self.states] + list(self.sinks)
+
+    @property
+    def size(self) -> int:
+        return len(self.states) + len(self.sinks)
+
+    def cartesian(self) -> np.ndarray:
+        """Hermitian matrices of x, y, z (shape 3, N, N) in the sublevel basis."""
+        return np.einsum("ak,kij->aij", spherical_coefficients(np.eye(3)), self.dipoles)
+
+    def rate_matrix(self) -> np.ndarray:
+        """R with dp/dt = R p for the populations of all labels (field-free)."""
+        R = np.zeros((self.size, self.size))
+        for i, j, rate in self.channels:
+            R[j, i] += rate
+            R[i, i] -= rate
+        return R
+
+
+def build_model(atom, states, *, decay: bool = True, ionization_sink: bool = False) -> LevelModel:
+    """Energies, dipoles and decay channels of the sublevels ``states`` (each with m given).
+
+    The part of a level's total rate 1/τ not carried by channels inside the model goes to the
+    sink "elsewhere" (only present when that part is > 1e-9 of the total).
+
+    >>> from driven_atom.atom import Atom
+    >>> m = build_model(Atom(1), [State(1, 0, 0), State(2, 1, 0), State(3, 0, 0)])
+    >>> m.labels, round(float(abs(m.dipoles[1, 1, 0])), 6)   # <2p0|z|1s> = 2^7 √2/3^5
+    (['1s0', '2p0', '3s0', 'elsewhere'], 0.744936)
+    """
+    from driven_atom.atom.dipoles import dipole_matrix_element, einstein_A, lifetime
+    from driven_atom.atom.levels import energy
+
+    states = tuple(states)
+    N = len(states)
+    energies = np.array([energy(atom, s.n) for s in states], dtype=float)
+    dip = np.zeros((3, N, N), dtype=complex)
+    for i, si in enumerate(states):
+        for j, sj in enumerate(states):
+            q = si.m - sj.m
+            if abs(si.l - sj.l) == 1 and abs(q) <= 1:
+                dip[q + 1, i, j] = dipole_matrix_element(atom, si, sj, q)
+    channels, outside = [], []
+    if decay:
+        for u, su in enumerate(states):
+            total = 1.0 / lifetime(atom, su)
+            inside = 0.0
+            for l, sl in enumerate(states):
+                if energies[l] < energies[u] and abs(su.l - sl.l) == 1 and abs(su.m - sl.m) <= 1:
+                    rate = float(einstein_A(atom, su, sl))
+                    if rate > 0:
+                        channels.append((u, l, rate))
+                        inside += rate
+            if total - inside > 1e-9 * total:
+                outside.append((u, total - inside))
+    sinks = ((ELSEWHERE,) if outside else ()) + ((IONIZED,) if ionization_sink else ())
+    channels += [(u, N, rate) for u, rate in outside]
+    return LevelModel(states, energies, dip, tuple(channels), sinks)
+
+
+# --- time-dependent terms ----------------------------------------------------------------------
+@dataclass
+class FieldTerms:
+    """Operators (N x N, sinks included) times coefficients sampled by ``values(t)``."""
+
+    hamiltonian: list          # (matrix, index of coefficient row, conjugate the row?)
+    dissipators: list          # (list of collapse matrices, index of coefficient row: |ℰ_k|²)
+    values: object             # t -> array (n_rows, len(t)) complex
+    n_rows: int
+    max_frequency: float       # fastest oscillation of the coefficients (a.u.)
+    notes: list
+    warnings: list
+
+
+def _pad(model: LevelModel, matrix: np.ndarray) -> np.ndarray:
+    out = np.zeros((model.size, model.size), dtype=complex)
+    n = len(model.states)
+    out[:n, :n] = matrix
+    return out
+
+
+def _transitions(model: LevelModel) -> dict[float, list[tuple[int, int]]]:
+    """Dipole-coupled (upper, lower) pairs grouped by transition frequency ω_ul > 0."""
+    groups: dict[float, list] = {}
+    E = model.energies
+    coupled = np.any(model.dipoles != 0, axis=0)
+    for u, l in zip(*np.nonzero(coupled)):
+        if E[u] > E[l]:
+            key = next((w for w in groups if math.isclose(w, E[u] - E[l], rel_tol=1e-12)), E[u] - E[l])
+            groups.setdefault(key, []).append((int(u), int(l)))
+    return groups
+
+
+def _rwa_terms(model: LevelModel, pulse) -> FieldTerms:
+    groups = _transitions(model)
+    names = {w: "/".join(sorted({f"{model.states[l].level.label}-{model.states[u].level.label}"
+                                 for u, l in pairs})) for w, pairs in groups.items()}
+    hamiltonian, dissipators, rows, notes, warnings = [], [], [], [], []
+    top = 0.0
+    for k, comp in enumerate(pulse.components):
+        if comp.omega == 0:
+            raise InputError(f"pulse[{k}] is a static field: the levels route needs `solver.rwa` = false for it")
+        if not groups:
+            warnings.append(f"pulse[{k}] drives nothing: no two states of the model are dipole-coupled")
+            continue
+        w = min(groups, key=lambda w: abs(w - comp.omega))
+        detuning = w - comp.omega
+        notes.append(f"pulse[{k}] (ω = {comp.omega:.6g} au) drives {names[w]} "
+                     f"(ω_ul = {w:.6g} au, detuning {detuning:+.3g} au)")
+        if abs(detuning) > RWA_DETUNING_LIMIT * w:
+            warnings.append(f"RWA invalid: pulse[{k}] carrier {comp.omega:.4g} au is {abs(detuning) / w:.0%} "
+                            f"off the nearest transition in the model ({names[w]}, {w:.4g} au); use rwa = false")
+        e_q = spherical_coefficients(comp.jones)
+        peak = comp.peak_field * (1 + abs(comp.chirp) * comp.length / (2 * comp.omega))
+        rabi = peak * max(abs(model.dipoles[:, u, l] @ e_q) for u, l in groups[w])
+        if rabi > RWA_DETUNING_LIMIT * w:
+            warnings.append(f"RWA questionable: pulse[{k}] Rabi frequency {rabi:.3g} au is "
+                            f"{rabi / w:.0%} of the transition frequency {w:.4g} au")
+        for qi in range(3):
+            if e_q[qi] == 0:
+                continue
+            A = np.zeros((len(model.states),) * 2, dtype=complex)
+            for u, l in groups[w]:
+                A[u, l] = model.dipoles[qi, u, l]
+            if np.any(A):   # H_ul = f(t) A and its Hermitian conjugate H_lu = f*(t) A†
+                hamiltonian += [(_pad(model, A), len(rows), False), (_pad(model, A.conj().T), len(rows), True)]
+                rows.append((k, qi, detuning))
+        top = max(top, abs(detuning) + abs(comp.chirp) * comp.length / 2)
+
+    def values(t):
+        out = np.empty((len(rows), len(t)), dtype=complex)
+        cache = {}
+        for r, (k, qi, detuning) in enumerate(rows):
+            if k not in cache:
+                cache[k] = spherical_coefficients(pulse.components[k].complex_envelope(t))
+            out[r] = 0.5 * cache[k][:, qi] * np.exp(1j * detuning * t)
+        return out
+
+    return FieldTerms(hamiltonian, dissipators, values, len(rows), top, notes, warnings)
+
+
+def _full_terms(model: LevelModel, pulse) -> FieldTerms:
+    cart = model.cartesian()
+    active = [a for a in range(3) if any(c.jones[a] != 0 for c in pulse.components)]
+    hamiltonian = [(_pad(model, cart[a]), r, False) for r, a in enumerate(active)]
+
+    def values(t):
+        return pulse.electric_field(t)[:, active].T.astype(complex)
+
+    top = max(c.omega + abs(c.chirp) * c.length / 2 for c in pulse.components)
+    return FieldTerms(hamiltonian, [], values, len(active), top, [], [])
+
+
+def _add_ionization(terms: FieldTerms, model: LevelModel, atom, pulse) -> None:
+    """Loss of every sublevel j to "ionized" at σ_j(ω_k) c|ℰ_k|²/(8π ω_k) for each pulse k."""
+    from driven_atom.atom.photoionization import cross_section
+
+    sink = model.labels.index(IONIZED)
+    base_values, base_rows = terms.values, terms.n_rows
+    pulses = []
+    for k, comp in enumerate(pulse.components):
+        if comp.omega == 0:
+            continue
+        per_level = {s.level: float(cross_section(atom, s.n, s.l, comp.omega)) for s in model.states}
+        sigma = [per_level[s.level] for s in model.states]
+        ops = []
+        for j, sj in enumerate(sigma):
+            if sj > 0:
+                L = np.zeros((model.size, model.size), dtype=complex)
+                L[sink, j] = math.sqrt(sj * C_AU / (8 * math.pi * comp.omega))
+                ops.append(L)
+        if ops:
+            terms.dissipators.append((ops, base_rows + len(pulses)))
+            pulses.append(k)
+
+    def values(t):
+        extra = [np.sum(np.abs(pulse.components[k].complex_envelope(t)) ** 2, axis=1) for k in pulses]
+        return np.vstack([base_values(t)] + [np.asarray(extra, dtype=complex).reshape(len(pulses), len(t))])
+
+    terms.values, terms.n_rows = values, base_rows + len(pulses)
+
+
+# --- sampling ----------------------------------------------------------------------------------
+def sample_coefficients(values, t0: float, t1: float, *, n_start: int, tol: float,
+                        breakpoints=(), max_points: int = 10**6):
+    """Times and values on which cubic splines (qutip's interpolation, scipy ``make_interp_spline``,
+    not-a-knot) reproduce ``values(t)`` to ``tol`` times its peak at every interval midpoint, the
+    error of an interval weighted by its length over the starting spacing (what the propagation
+    integrates; so kinks of the envelope at ramp joints need not be resolved pointwise).
+
+    Starts from ``n_start`` uniform points plus ``breakpoints`` and halves failing intervals.
+
+    >>> t, v = sample_coefficients(lambda t: np.exp(1j * t)[None, :], 0.0, 10.0, n_start=8, tol=1e-8)
+    >>> bool(np.allclose(v[0], np.exp(1j * t))) and 20 < len(t) < 400
+    True
+    """
+    from scipy.interpolate import make_interp_spline
+
+    t = np.linspace(t0, t1, max(int(n_start), 4))
+    h0 = t[1] - t[0]
+    for b in breakpoints:    # joints of the envelopes, unless a sample is already (nearly) there
+        if t0 < b < t1 and np.min(np.abs(t - b)) > 1e-3 * h0:
+            t = np.insert(t, np.searchsorted(t, b), b)
+    v = values(t)
+    scale = max(float(np.max(np.abs(v))) if v.size else 0.0, 1e-300)
+    while True:
+        mid = 0.5 * (t[1:] + t[:-1])
+        vm = values(mid)
+        spline = make_interp_spline(t, v, k=3, axis=1)(mid)
+        weight = np.diff(t) / h0    # a refined interval may err more: it lasts shorter
+        error = np.max(np.abs(spline - vm), axis=0) * weight
+        if not np.any(error > tol * scale):
+            return t, v
+        # refine with a margin (errors above tol/16 and two neighbours each side): a lone refined
+        # interval changes the global spline around it, and its neighbours would fail one by one
+        bad = np.convolve(error > tol * scale / 16, np.ones(5), mode="same") > 0
+        if len(t) + int(bad.sum()) > max_points:
+            raise InputError(f"the field coefficients need more than {max_points} samples over "
+                             f"{t1 - t0:.4g} au; use `solver.rwa` = true, a shorter pulse or a larger "
+                             f"`solver.sampling_tol`")
+        order = np.argsort(np.concatenate([t, mid[bad]]), kind="stable")
+        t = np.concatenate([t, mid[bad]])[order]
+        v = np.concatenate([v, vm[:, bad]], axis=1)[:, order]
+
+
+def coupling(atom, pulse, model: LevelModel, settings: Settings):
+    """The field's part of the model: operators with their coefficient rows (``FieldTerms``) and the
+    sampled coefficients ``(times, values)`` over the pulse window, as the solver uses them:
+    H(t) = Σ_r c_r(t) H_r (c_r* for the conjugate halves) and Lindblad terms c_r(t) D_r.
+
+    >>> from driven_atom.atom import Atom
+    >>> from driven_atom.pulse import Pulse
+    >>> model = build_model(Atom(1), [State(1, 0, 0), State(2, 1, 0)], decay=False)
+    >>> pulse = Pulse({"photon_energy": 0.375, "peak_field": 1e-3, "length": 2000.0})
+    >>> terms, (times, values) = coupling(Atom(1), pulse, model, Settings(states=["1s", "2p0"]))
+    >>> len(terms.hamiltonian), terms.notes[0][:32]
+    (2, 'pulse[0] (ω = 0.375 au) drives 1')
+    """
+    components = pulse.components
+    terms = _rwa_terms(model, pulse) if settings.rwa else _full_terms(model, pulse)
+    if settings.ionization_loss:
+        _add_ionization(terms, model, atom, pulse)
+    t0, t1 = pulse.t_start, pulse.t_end
+    window = t1 - t0
+    n_start = max(257, math.ceil(window * terms.max_frequency / (2 * math.pi) * 16),
+                  math.ceil(64 * window / min(c.length for c in components)))
+    if not terms.n_rows:
+        return terms, (np.array([t0, t1]), np.zeros((0, 2), dtype=complex))
+    coefficients = sample_coefficients(terms.values, t0, t1, n_start=n_start, tol=settings.sampling_tol,
+                                       breakpoints=[b for c in components for b in c.breakpoints],
+                                       max_points=MAX_COEFFICIENT_VALUES // terms.n_rows)
+    return terms, coefficients
+
+
+# --- the solver --------------------------------------------------------------------------------
+def _initial_density(model: LevelModel, initial, t0: float, interaction: bool):
+    """Density matrix (and the ket when pure) at t0 from [(State, amplitude)]; a level without m
+    and l > 0 enters as an equal incoherent mixture of its sublevels."""
+    index = {s: i for i, s in enumerate(model.states)}
+    rho = np.zeros((model.size, model.size), dtype=complex)
+    ket = np.zeros(model.size, dtype=complex)
+    pure = True
+    for state, amp in initial:
+        subs = [State(state.n, state.l, 0)] if state.m is None and state.l == 0 else state.sublevels()
+        missing = [s.label for s in subs if s not in index]
+        if missing:
+            raise InputError(f"`atom.initial` {state.label} is not in the model: add "
+                             f"{', '.join(missing)} to `solver.states`")
+        if len(subs) == 1:
+            ket[index[subs[0]]] += amp
+        else:
+            pure = False
+            for s in subs:
+                rho[index[s], index[s]] += abs(amp) ** 2 / len(subs)
+    if interaction:   # |ψ_I(t0)> = exp(i H0 t0) |ψ(t0)>
+        ket[:len(model.states)] *= np.exp(1j * model.energies * t0)
+    rho += np.outer(ket, ket.conj())
+    return rho, (ket if pure else None)
+
+
+def _history_times(t0: float, t1: float, every: float | None) -> np.ndarray:
+    step = (t1 - t0) / 200 if every is None else every
+    if t1 <= t0:
+        return np.array([t0])
+    if not step > 0:
+        raise InputError(f"`output.every` must be > 0, got {every!r}")
+    n = math.floor((t1 - t0) / step * (1 + 1e-12))
+    if n + 2 > MAX_HISTORY:
+        raise InputError(f"`output.every` = {every!r} asks for {n + 1} samples; at most {MAX_HISTORY}")
+    times = t0 + step * np.arange(n + 1)
+    return times if math.isclose(times[-1], t1, rel_tol=0, abs_tol=1e-9 * step) else np.append(times, t1)
+
+
+def _field_free(model: LevelModel, p0: np.ndarray, t0: float, times: np.ndarray) -> np.ndarray:
+    """Populations at ``times`` (>= t0) from p0 at t0: p(t) = exp(R (t - t0)) p0 (rate equations)."""
+    from scipy.linalg import expm
+
+    R = model.rate_matrix()
+    out = np.empty((len(times), len(p0)))
+    p, last = p0.copy(), t0
+    step, propagator = None, None
+    for n, t in enumerate(times):
+        dt = t - last
+        if step is None or not math.isclose(dt, step, rel_tol=1e-12):
+            step, propagator = dt, expm(R * dt)
+        p = propagator @ p
+        out[n], last = p, t
+    return out
+
+
+def _solve(model: LevelModel, terms: FieldTerms, settings: Settings, rho0, ket0, tlist, *,
+           coefficients, max_step: float, interaction: bool, progress: bool):
+    """Propagate from tlist[0] to tlist[-1] with qutip; populations of every label at ``tlist``."""
+    import qutip as qt
+    from scipy.sparse import csr_matrix
+
+    ts, vals = coefficients
+    n, dims = model.size, [[model.size], [model.size]]
+
+    def qobj(matrix):   # sparse (CSR): the Liouvillian of N levels is N² x N²
+        return qt.Qobj(csr_matrix(matrix), dims=dims)
+
+    H0 = np.zeros((n, n), dtype=complex)
+    if not interaction:
+        H0[:len(model.states), :len(model.states)] = np.diag(model.energies)
+    H = qt.QobjEvo([qobj(H0)] + [[qobj(A), qt.coefficient(vals[r].conj() if conj else vals[r], tlist=ts)]
+                                   for A, r, conj in terms.hamiltonian])
+    c_ops = []
+    for i, j, rate in model.channels:
+        L = np.zeros((n, n), dtype=complex)
+        L[j, i] = math.sqrt(rate)
+        c_ops.append(qobj(L))
+    gamma = settings.dephasing_rate()
+    if gamma > 0 and len(np.unique(model.energies)) > 1:
+        for E in np.unique(model.energies):
+            P = np.zeros((n, n), dtype=complex)
+            idx = np.nonzero(model.energies == E)[0]
+            P[idx, idx] = math.sqrt(gamma)
+            c_ops.append(qobj(P))
+    options = {"atol": settings.atol, "rtol": settings.rtol, "nsteps": settings.nsteps,
+               "method": settings.method, "max_step": max_step, "store_states": False,
+               "store_final_state": False, "normalize_output": False,
+               "progress_bar": "tqdm" if progress else "",
+               "progress_kwargs": {"delay": 2.0, "leave": False}}
+    projectors = [qt.basis(n, i).proj() for i in range(n)]
+    if not (c_ops or terms.dissipators) and ket0 is not None:
+        solver = qt.SESolver(H, options=options)
+        result = solver.run(qt.Qobj(ket0.reshape(-1, 1), dims=[[n], [1]]), tlist, e_ops=projectors)
+        kind = "sesolve"
+    else:
+        L = qt.liouvillian(H, c_ops)
+        for ops, r in terms.dissipators:
+            D = sum(qt.lindblad_dissipator(qobj(op)) for op in ops)
+            L = L + qt.QobjEvo([[D, qt.coefficient(vals[r], tlist=ts)]])
+        solver = qt.MESolver(L, options=options)
+        result = solver.run(qobj(rho0), tlist, e_ops=projectors)
+        kind = "mesolve"
+    return np.real(np.array(result.expect)), kind
+
+
+def propagate(atom, pulse, settings: Settings, *, initial, output=None, progress: bool = False,
+              checkpoint=None):
+    """Run the few-level model and return a :class:`driven_atom.result.Result` (see the module text).
+
+    ``pulse`` may be ``None`` (field-free evolution over ``settings.after``); ``checkpoint`` is
+    accepted for the route interface and not used (levels runs are short).
+
+    >>> from driven_atom.atom import Atom
+    >>> res = propagate(Atom.from_name("H"), None, Settings(states=["1s", "2p"], after="1.5962 ns"),
+    ...                 initial=[(State(2, 1, 0), 1.0)])
+    >>> round(res.populations["2p"], 4), round(res.populations["1s"], 4)   # one lifetime: 1/e
+    (0.3679, 0.6321)
+    """
+    from driven_atom.observables.populations import level_populations
+    from driven_atom.result import Result
+
+    started = time.perf_counter()
+    components = tuple(pulse.components) if pulse is not None else ()
+    model = build_model(atom, settings.sublevels(), decay=settings.decay,
+                        ionization_sink=settings.ionization_loss)
+    t0 = pulse.t_start if components else 0.0
+    t_pulse = pulse.t_end if components else t0
+    if settings.t_end is not None:
+        t_final = to_au(settings.t_end, "time", name="solver.t_end")
+        if t_final < t_pulse:
+            raise InputError(f"`solver.t_end` = {settings.t_end!r} is before the end of the pulse "
+                             f"({t_pulse:.6g} au)")
+    else:
+        t_final = t_pulse + (to_au(settings.after, "time") if settings.after is not None else 0.0)
+    if not t_final > t0:
+        raise InputError("nothing to propagate: give a `[[pulse]]` or `solver.after` > 0")
+    times = _history_times(t0, t_final, output.every_au if output is not None else None)
+    rho0, ket0 = _initial_density(model, initial, t0, interaction=settings.rwa)
+    warnings, notes, stats = [], [], {"n_sublevels": len(model.states), "solver": "closed form"}
+
+    p_pulse = np.real(np.diag(rho0))
+    during = times[times <= t_pulse]
+    if components:
+        terms, coefficients = coupling(atom, pulse, model, settings)
+        warnings += terms.warnings
+        notes += terms.notes
+        shortest = min(c.length for c in components)
+        stats["coefficient_samples"] = int(len(coefficients[0]))
+        max_step = to_au(settings.max_step, "time") if settings.max_step is not None else shortest / 10
+        tlist = during if during[-1] == t_pulse else np.append(during, t_pulse)
+        pops, stats["solver"] = _solve(model, terms, settings, rho0, ket0, tlist, coefficients=coefficients,
+                                       max_step=max_step, interaction=settings.rwa, progress=progress)
+        p_pulse = pops[:, -1]
+        pops_during = pops[:, :len(during)]
+    else:
+        pops_during = np.repeat(p_pulse[:, None], len(during), axis=1)
+    after = times[times > t_pulse]
+    pops_after = _field_free(model, p_pulse, t_pulse, after).T if len(after) else np.zeros((model.size, 0))
+    history = np.concatenate([pops_during, pops_after], axis=1)
+    final = history[:, -1]
+
+    labels = model.labels
+    n = len(model.states)
+    populations = {k: float(v) for k, v in level_populations(dict(zip(model.states, final[:n]))).items()}
+    hist_pops = level_populations(dict(zip(model.states, history[:n])))
+    ionization = float(final[labels.index(IONIZED)]) if IONIZED in labels else 0.0
+    if ELSEWHERE in labels:
+        populations[ELSEWHERE] = float(final[labels.index(ELSEWHERE)])
+        hist_pops[ELSEWHERE] = history[labels.index(ELSEWHERE)]
+    series = {"norm": history.sum(axis=0)}
+    if IONIZED in labels:
+        series["ionization"] = history[labels.index(IONIZED)]
+    stats["wall_s"] = time.perf_counter() - started
+    return Result(route="levels", populations=populations, ionization=ionization,
+                  norm=float(final.sum()), times=times, history_populations=hist_pops, series=series,
+                  stats=stats, warnings=warnings,
+                  metadata={"states": [s.label for s in model.states], "sinks": list(model.sinks),
+                            "rwa": bool(settings.rwa), "transitions": notes,
+                            "t_pulse_end_au": float(t_pulse)})

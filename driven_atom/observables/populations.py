@@ -1,0 +1,53 @@
+"""Populations by state label: m-resolved sublevels and their sums over m.
+
+Every route reports final and sampled populations under the labels of :mod:`driven_atom.atom.states`:
+an m-resolved label ("2p0", "2p-1", "1s0") for each sublevel it resolves and the level label
+("2p", "1s") for the sum over the sublevels it holds, P(n l) = sum_m P(n l m).
+
+>>> from driven_atom.atom import State
+>>> level_populations({State(2, 1, -1): 0.25, State(2, 1, 1): 0.25, State(1, 0, 0): 0.5})
+{'1s': 0.5, '1s0': 0.5, '2p': 0.5, '2p-1': 0.25, '2p1': 0.25}
+"""
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+from driven_atom.atom.states import State, parse_state
+from driven_atom.errors import InputError
+
+
+def level_populations(populations: Mapping) -> dict:
+    """Add the m-summed level labels to m-resolved populations.
+
+    ``populations`` maps :class:`State` objects (or their labels) to numbers or numpy arrays
+    (histories); a state without m is taken as a whole level. The result maps labels to values,
+    ordered by (n, l): the level label first, then its sublevels by ascending m. A level given
+    both as a whole and through its sublevels is an error (it would be counted twice).
+
+    >>> level_populations({"2p0": 1.0})
+    {'2p': 1.0, '2p0': 1.0}
+    >>> level_populations({"3d": 0.5})
+    {'3d': 0.5}
+    """
+    levels: dict[State, dict] = {}
+    for key, value in populations.items():
+        state = parse_state(key, name="population label")
+        entry = levels.setdefault(state.level, {})
+        if state in entry:
+            raise InputError(f"population label {state.label!r} is given twice")
+        entry[state] = value
+    out: dict = {}
+    for level in sorted(levels, key=lambda s: (s.n, s.l)):
+        entry = levels[level]
+        subs = sorted((s for s in entry if s.m is not None), key=lambda s: s.m)
+        if level in entry and subs:
+            raise InputError(f"level {level.label!r} is given both whole and by its m-sublevels")
+        if not subs:
+            out[level.label] = entry[level]
+            continue
+        total = entry[subs[0]]
+        for s in subs[1:]:
+            total = total + entry[s]
+        out[level.label] = total
+        out.update((s.label, entry[s]) for s in subs)
+    return out

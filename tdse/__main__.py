@@ -1,5 +1,0 @@
-import sys
-
-from tdse.cli import main
-
-sys.exit(main())

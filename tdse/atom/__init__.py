@@ -1,8 +1,0 @@
-"""Analytic hydrogenic physics: the atom, its levels, wave functions, dipoles, cross sections.
-
-Nothing here propagates in time; every function is pure and cheap to import (no numba, no qutip).
-"""
-from tdse.atom.species import Atom, NUCLEI
-from tdse.atom.states import State, parse_state
-
-__all__ = ["Atom", "NUCLEI", "State", "parse_state"]
