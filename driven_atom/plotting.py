@@ -1,4 +1,5 @@
-"""Figures (matplotlib, Agg backend: no display needed). Each function writes one file.
+"""Figures on :class:`matplotlib.figure.Figure` objects (never pyplot, never the global backend, so a
+notebook keeps its own). Each function writes one file, atomically (:mod:`driven_atom.io`).
 
 Time in fs and photon energy in eV on the axes; fields and spectral power in atomic units.
 """
@@ -11,13 +12,11 @@ import numpy as np
 from driven_atom.errors import InputError
 
 
-def _pyplot():
-    import matplotlib
+def _figure(**kwargs):
+    """A new Figure not registered with pyplot (no backend switch, nothing to close)."""
+    from matplotlib.figure import Figure
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    return plt
+    return Figure(**kwargs)
 
 
 FIGURE_FORMATS = ("png", "pdf", "svg")
@@ -36,20 +35,19 @@ def figure_format(path, name: str = "--plot") -> str:
 
 
 def _save(fig, path, name: str = "--plot") -> Path:
-    """Save ``fig`` to ``path`` through a temporary file and os.replace (never a half file);
-    errors name the command-line argument ``name`` that gave the path."""
-    import os
+    """Save ``fig`` to ``path`` atomically (:func:`driven_atom.io.atomic_write`: never a half file);
+    a bad suffix names the command-line argument ``name`` that gave the path."""
+    from driven_atom.io import StorageError, atomic_write
 
     path = Path(path)
     suffix = figure_format(path, name)
-    tmp = path.with_name(path.name + ".tmp")
     try:
-        fig.savefig(tmp, format=suffix, dpi=120)
-        os.replace(tmp, path)
+        with atomic_write(path) as tmp:
+            fig.savefig(tmp, format=suffix, dpi=120)
+    except StorageError:
+        raise
     except OSError as exc:
         raise InputError(f"`{name}` could not write {str(path)!r}: {exc.strerror or exc}") from None
-    finally:
-        tmp.unlink(missing_ok=True)
     return path
 
 
@@ -67,14 +65,14 @@ def pulse_figure(pulse, path, *, samples: int = 4000) -> Path:
     """
     from driven_atom.units import AU_TIME_S, HARTREE_EV
 
-    plt = _pyplot()
     t = np.linspace(pulse.t_start, pulse.t_end, samples)
     long = any(c.is_long for c in pulse.components)
     # many cycles: the carrier cannot be drawn, show the field envelope |ℰ(t)| instead
     field = np.abs(sum(c.complex_envelope(t) for c in pulse.components)) if long else pulse.electric_field(t)
     axes_used = [j for j in range(3) if np.any(field[:, j] != 0)] or [2]
     omega = _spectrum_axis(pulse)
-    fig, (ax_t, ax_w) = plt.subplots(2, 1, figsize=(7, 6), constrained_layout=True)
+    fig = _figure(figsize=(7, 6), layout="constrained")
+    ax_t, ax_w = fig.subplots(2, 1)
     span_fs = (pulse.t_end - pulse.t_start) * AU_TIME_S * 1e15
     unit, per_fs = next((u, f) for u, f in (("ns", 1e-6), ("ps", 1e-3), ("fs", 1.0)) if span_fs * f >= 1 or u == "fs")
     # long pulses: photon energy as an offset from the first carrier, in µeV
@@ -92,10 +90,7 @@ def pulse_figure(pulse, path, *, samples: int = 4000) -> Path:
     ax_w.set_xlabel(f"photon energy − {ref * HARTREE_EV:.6f} eV [µeV]" if long else "photon energy [eV]")
     ax_w.set_ylabel("spectral power [au]")
     ax_w.legend(loc="upper right")
-    try:
-        return _save(fig, path)
-    finally:
-        plt.close(fig)
+    return _save(fig, path)
 
 
 def _spectrum_axis(pulse, points: int = 600) -> np.ndarray:
@@ -182,19 +177,10 @@ def result_panels(result) -> list[str]:
 
 
 def _carrier_omega(result) -> float | None:
-    """Carrier frequency (a.u.) of the first pulse of the stored config, or None when the result
-    carries no config with a pulse (or its carrier is 0)."""
-    import tomllib
-
-    from driven_atom.campaign.config import load_config
-
-    try:
-        pulse = load_config(tomllib.loads(result.config)).build_pulse()
-    except (InputError, tomllib.TOMLDecodeError, TypeError, ValueError):
-        return None
-    if pulse is None or not pulse.components or not pulse.components[0].omega > 0:
-        return None
-    return float(pulse.components[0].omega)
+    """Carrier frequency (a.u.) of the first pulse, from the result's metadata (``carriers_au``),
+    or None when there is none (no pulse, or a static field)."""
+    carriers = result.metadata.get("carriers_au") or []
+    return float(carriers[0]) if carriers and carriers[0] > 0 else None
 
 
 def _draw_histories(ax, result) -> None:
@@ -287,23 +273,19 @@ def result_figure(result, path, *, name: str = "--out") -> Path:
     """
     figure_format(path, name)
     panels = result_panels(result)
-    plt = _pyplot()
-    fig, axes = plt.subplots(len(panels), 1, figsize=(7, 3.0 * len(panels) + 0.6), squeeze=False,
-                             constrained_layout=True)
-    try:
-        for ax, panel in zip(axes[:, 0], panels):
-            if panel == "populations":
-                _draw_histories(ax, result)
-            elif panel == "final_populations":
-                _draw_final(ax, result)
-            elif panel == "photoelectron":
-                _draw_photoelectron(ax, result.spectra["photoelectron"])
-            else:
-                _draw_harmonic(ax, result.spectra["harmonic"], _carrier_omega(result))
-        title = f"{result.route} route: ionization {result.ionization:.4g}, norm {result.norm:.6f}"
-        if result.metadata.get("file"):
-            title += f"\n{Path(result.metadata['file']).name}"
-        fig.suptitle(title, fontsize="medium")
-        return _save(fig, path, name)
-    finally:
-        plt.close(fig)
+    fig = _figure(figsize=(7, 3.0 * len(panels) + 0.6), layout="constrained")
+    axes = fig.subplots(len(panels), 1, squeeze=False)
+    for ax, panel in zip(axes[:, 0], panels):
+        if panel == "populations":
+            _draw_histories(ax, result)
+        elif panel == "final_populations":
+            _draw_final(ax, result)
+        elif panel == "photoelectron":
+            _draw_photoelectron(ax, result.spectra["photoelectron"])
+        else:
+            _draw_harmonic(ax, result.spectra["harmonic"], _carrier_omega(result))
+    title = f"{result.route} route: ionization {result.ionization:.4g}, norm {result.norm:.6f}"
+    if result.metadata.get("file"):
+        title += f"\n{Path(result.metadata['file']).name}"
+    fig.suptitle(title, fontsize="medium")
+    return _save(fig, path, name)

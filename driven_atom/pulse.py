@@ -45,9 +45,9 @@ from functools import cached_property
 
 import numpy as np
 
-from driven_atom.errors import InputError
+from driven_atom.errors import InputError, validation_message
 from driven_atom.units import (ALPHA, AU_FLUENCE_JCM2, AU_INTENSITY_WCM2, AU_TIME_S, HARTREE_EV,
-                        photon_energy_to_wavelength_nm, to_au)
+                        photon_energy_to_wavelength_nm)
 
 ENVELOPES = ("sin2", "gaussian", "flat", "cos4", "static")
 POLARIZATIONS = {"z": (0, 0, 1), "x": (1, 0, 0), "circular+": (1, 1j, 0), "circular-": (1, -1j, 0),
@@ -79,6 +79,7 @@ def _check_ellipticity(polarization: str, ellipticity, key: str) -> float:
 GAUSSIAN_CUT = 1e-6            # default truncation level of the gaussian envelope
 LONG_CYCLES = 10_000           # above this many carrier periods integrals use the complex envelope
 MAX_INTENSITY_WCM2 = 1e20      # above this the electron turns relativistic; the dipole picture fails
+MAX_WINDOW_AU = 1e15           # about 24 s: longer windows and delays are refused (no run could use them)
 _SIN2_FWHM = (2 / math.pi) * math.acos(2 ** -0.25)   # 0.3641: intensity FWHM / T of sin2 (analytic)
 _COS4_FWHM = (2 / math.pi) * math.acos(2 ** -0.125)  # intensity FWHM / T of cos4 (analytic)
 _RAMP_HALF = (2 / math.pi) * math.asin(2 ** -0.25)   # sin² ramp: f² = 1/2 at this fraction of R
@@ -121,13 +122,14 @@ def gaussian_window(fwhm: float, cut: float = GAUSSIAN_CUT) -> float:
 
 
 @dataclass(frozen=True)
-class LaserPulse:
-    """One pulse in atomic units; build it from config keys with :meth:`from_config`.
+class PulseComponent:
+    """One component of a :class:`Pulse` (one ``[[pulse]]`` table) in atomic units; build it from
+    config keys with :meth:`from_config`.
 
     ``length`` is the foot-to-foot window T; ``fwhm_gaussian`` the intensity FWHM τ of a gaussian
     (``None`` for other envelopes); ``ramp`` the sin² ramp of flat and static envelopes.
 
-    >>> lp = LaserPulse("sin2", omega=0.057, peak_field=0.05, length=1000.0)
+    >>> lp = PulseComponent("sin2", omega=0.057, peak_field=0.05, length=1000.0)
     >>> round(lp.fwhm, 1)
     364.1
     """
@@ -177,11 +179,11 @@ class LaserPulse:
 
     # -- construction from config keys -------------------------------------------------------
     @classmethod
-    def from_config(cls, cfg, *, key: str = "pulse") -> "LaserPulse":
-        """Build from a :class:`driven_atom.campaign.config.PulseConfig` (or its dict); errors name
+    def from_config(cls, cfg, *, key: str = "pulse") -> "PulseComponent":
+        """Build from a :class:`driven_atom.config.PulseConfig` (or its dict); errors name
         ``key.<name>``, e.g. ``pulse.1.fwhm`` (the key path scan axes use).
 
-        >>> lp = LaserPulse.from_config({"envelope": "gaussian", "photon_energy": "10.2 eV",
+        >>> lp = PulseComponent.from_config({"envelope": "gaussian", "photon_energy": "10.2 eV",
         ...                              "peak_field": 1e-4, "fwhm": "100 fs"})
         >>> round(lp.fwhm * AU_TIME_S * 1e15, 6)
         100.0
@@ -267,7 +269,7 @@ class LaserPulse:
     def envelope(self, t) -> np.ndarray:
         """f(t) (0 outside the window).
 
-        >>> LaserPulse("sin2", omega=0.057, peak_field=0.05, length=100.0).envelope([0.0, 25.0, 60.0])
+        >>> PulseComponent("sin2", omega=0.057, peak_field=0.05, length=100.0).envelope([0.0, 25.0, 60.0])
         array([1. , 0.5, 0. ])
         """
         return self._envelope_and_slope(t)[0]
@@ -299,7 +301,7 @@ class LaserPulse:
         """ℰ(t), shape (len(t), 3) complex, with E(t) = Re[ℰ(t) e^{−iωt}] exactly:
         ℰ = −(F₀/ω)(Φ′f + i f′) e^{−i(Φ − ωt)} ε (a static field: ℰ = E).
 
-        >>> lp = LaserPulse("sin2", omega=0.057, peak_field=0.05, length=1000.0)
+        >>> lp = PulseComponent("sin2", omega=0.057, peak_field=0.05, length=1000.0)
         >>> t = np.linspace(-400, 400, 5)
         >>> bool(np.allclose((lp.complex_envelope(t) * np.exp(-0.057j * t)[:, None]).real, lp.electric_field(t)))
         True
@@ -341,7 +343,7 @@ class LaserPulse:
         """∫ c ε₀ |E(t)|² dt in atomic units (= 2∫|E|² dt since I_au = ½ c ε₀ F² ↔ F²; J/cm² via
         AU_FLUENCE_JCM2). Long pulses: the cycle average ∫|ℰ|² dt.
 
-        >>> lp = LaserPulse("flat", omega=0.057, peak_field=0.05, length=2000.0, ramp=100.0)
+        >>> lp = PulseComponent("flat", omega=0.057, peak_field=0.05, length=2000.0, ramp=100.0)
         >>> round(lp.fluence() / (0.05**2 * 2000.0), 2)     # ≈ I (T − 1.25 R)/(I T) = 0.9375
         0.94
         """
@@ -384,9 +386,9 @@ class LaserPulse:
 
 
 class Pulse:
-    """Several :class:`LaserPulse` components that add (pump–probe, two colours).
+    """Several :class:`PulseComponent` components that add (pump–probe, two colours).
 
-    ``Pulse(items, atom=None)`` takes LaserPulse objects, config dicts or ``PulseConfig`` models
+    ``Pulse(items, atom=None)`` takes PulseComponent objects, config dicts or ``PulseConfig`` models
     (one or a list); ``atom`` (optional) is kept for derived quantities such as the Keldysh γ.
 
     >>> p = Pulse([{"wavelength": "800 nm", "peak_field": 0.05, "cycles": 2},
@@ -396,20 +398,15 @@ class Pulse:
     """
 
     def __init__(self, items, atom=None):
-        if isinstance(items, (dict, LaserPulse)) or hasattr(items, "model_fields"):
+        if isinstance(items, (dict, PulseComponent)) or hasattr(items, "model_fields"):
             items = [items]
         items = list(items)
         if not items:
             raise InputError("at least one `[[pulse]]` table is required")
-        self.components = tuple(item if isinstance(item, LaserPulse)
-                                else LaserPulse.from_config(item, key=f"pulse.{i}")
+        self.components = tuple(item if isinstance(item, PulseComponent)
+                                else PulseComponent.from_config(item, key=f"pulse.{i}")
                                 for i, item in enumerate(items))
         self.atom = atom
-
-    @classmethod
-    def from_config(cls, items, atom=None) -> "Pulse":
-        """Build from a list of ``PulseConfig`` models or dicts (the ``[[pulse]]`` tables)."""
-        return cls(items, atom=atom)
 
     def __repr__(self):
         return f"Pulse({list(self.components)!r})"
@@ -449,7 +446,7 @@ class Pulse:
 
     def field_spectrum(self, omega, axis: str = "z") -> np.ndarray:
         """Ẽ(ω) = ∫E(t) e^{iωt} dt of the ``axis`` component (x, y or z), complex, same shape as
-        ``omega`` (a.u.): the sum of :meth:`LaserPulse.field_spectrum` over the components.
+        ``omega`` (a.u.): the sum of :meth:`PulseComponent.field_spectrum` over the components.
 
         >>> p = Pulse({"wavelength": "800 nm", "peak_field": 0.05, "cycles": 10})
         >>> s = np.abs(p.field_spectrum([0.03, 0.057, 0.09]))
@@ -479,40 +476,27 @@ def quadrature(edges, max_panel: float) -> tuple[np.ndarray, np.ndarray]:
     return np.concatenate(nodes), np.concatenate(weights)
 
 
-# --- config keys -> LaserPulse ----------------------------------------------------------------
-def _chirp_to_au(value, name: str) -> float:
-    """β in 1/(a.u. time)²; accepts "0.01 fs^-2", an energy per time ("0.1 eV/fs" = dω/dt), or a
-    plain number (a.u.)."""
-    if isinstance(value, (int, float)) and not isinstance(value, bool):
-        return float(value)
-    from driven_atom.units import registry
+# --- config keys -> PulseComponent ----------------------------------------------------------------
+def build_pulse(cfg, atom=None) -> "Pulse | None":
+    """The :class:`Pulse` of a run config's ``[[pulse]]`` tables (``None`` without any: a field-free
+    run); ``atom`` defaults to the config's atom. Errors name the key (``pulse.1.fwhm``).
 
-    text = str(value).strip()
-    for suffix in (" a.u.", " au", "a.u.", "au"):
-        if text.endswith(suffix):
-            try:
-                return float(text[: -len(suffix)])
-            except ValueError:
-                break
-    ureg = registry()
-    try:
-        q = ureg.Quantity(text)
-    except Exception:
-        q = None
-    if q is not None and hasattr(q, "check"):
-        if q.check("[energy] / [time]"):
-            q = q / ureg.hbar
-        if q.check("1 / [time] ** 2"):
-            result = float(q.to("1 / atomic_unit_of_time ** 2").magnitude)
-            if math.isfinite(result):
-                return result
-    elif q is not None:
-        return float(q)
-    raise InputError(f"`{name}` must be a chirp rate (e.g. \"0.001 fs^-2\" or \"0.05 eV/fs\"), got {value!r}")
+    >>> from driven_atom.config import read_config
+    >>> cfg = read_config({"atom": {"Z": 1}, "solver": {"route": "levels", "states": ["1s"]},
+    ...                    "pulse": [{"wavelength": "800 nm", "peak_field": 0.05, "cycles": 2}]})
+    >>> round(build_pulse(cfg).components[0].omega, 5)
+    0.05695
+    """
+    if not cfg.pulse:
+        return None
+    return Pulse(list(cfg.pulse), atom=atom if atom is not None else cfg.build_atom())
 
 
-def _from_config(cfg, key: str) -> LaserPulse:
-    from driven_atom.campaign.config import PulseConfig, validation_message
+def _from_config(cfg, key: str) -> PulseComponent:
+    """One component from a :class:`driven_atom.config.PulseConfig` (or its dict), whose values are
+    already in atomic units and whose keys fit together; here the durations, ramps and chirp are
+    checked against each other."""
+    from driven_atom.config import PulseConfig, qualify
 
     if isinstance(cfg, dict):
         from pydantic import ValidationError
@@ -520,119 +504,69 @@ def _from_config(cfg, key: str) -> LaserPulse:
         try:
             cfg = PulseConfig(**cfg)
         except ValidationError as exc:
-            raise InputError(validation_message(exc, prefix=key, model=PulseConfig)) from None
+            err = max(exc.errors(), key=lambda e: len(e["loc"]))
+            message = validation_message(exc, prefix=key, model=PulseConfig)
+            raise InputError(qualify(message, key) if err["type"] == "value_error" else message) from None
     kind = cfg.envelope
+    fs = AU_TIME_S * 1e15
 
     def k(name):
         return f"`{key}.{name}`"
 
-    def positive(name, value, unit_kind):
-        v = to_au(value, unit_kind, name=f"{key}.{name}")
-        if not v > 0:
-            raise InputError(f"{k(name)} must be > 0, got {value!r}")
-        return v
-
-    def exclusive(names, required=True, what=""):
-        present = [n for n in names if getattr(cfg, n) is not None]
-        if len(present) > 1:
-            raise InputError(f"{k(present[0])} and {k(present[1])} exclude each other; give one")
-        if required and not present:
-            others = " or ".join(f"`{n}`" for n in names[1:])
-            raise InputError(f"{k(names[0])} (or {others}) is required{what}")
-        return present[0] if present else None
-
-    # carrier
     if kind == "static":
-        for name in ("wavelength", "photon_energy", "cycles", "fwhm", "chirp", "cep"):
-            if getattr(cfg, name) not in (None, 0):
-                raise InputError(f"{k(name)} does not apply to envelope = \"static\" (a DC field)")
         omega = 0.0
+    elif cfg.wavelength is not None:
+        omega = 2 * math.pi / (cfg.wavelength * ALPHA)        # ω = 2πc/λ, c = 1/α
     else:
-        which = exclusive(("wavelength", "photon_energy"))
-        if which == "wavelength":
-            omega = 2 * math.pi / (positive("wavelength", cfg.wavelength, "length") * ALPHA)  # ω = 2πc/λ, c = 1/α
-        else:
-            omega = positive("photon_energy", cfg.photon_energy, "energy")
+        omega = cfg.photon_energy
     pol = cfg.polarization
-    eta = _check_ellipticity(pol, cfg.ellipticity, key)
+    eta = 0.0 if cfg.ellipticity is None else float(cfg.ellipticity)
     weight = float(np.vdot(jones_vector(pol, eta), jones_vector(pol, eta)).real)
-    # strength
-    which = exclusive(("intensity", "peak_field"))
-    if which == "intensity":
-        intensity = to_au(cfg.intensity, "intensity", name=f"{key}.intensity")
-        if intensity < 0:
-            raise InputError(f"{k('intensity')} must be >= 0, got {cfg.intensity!r}")
-        field = math.sqrt(intensity / weight)
-    else:
-        field = to_au(cfg.peak_field, "field", name=f"{key}.peak_field")
-        if field < 0:
-            raise InputError(f"{k('peak_field')} must be >= 0 (the direction is `polarization`), "
-                             f"got {cfg.peak_field!r}")
+    which = "intensity" if cfg.intensity is not None else "peak_field"
+    field = math.sqrt(cfg.intensity / weight) if which == "intensity" else cfg.peak_field
     if weight * field**2 * AU_INTENSITY_WCM2 > MAX_INTENSITY_WCM2:
-        raise InputError(f"{k(which)} = {getattr(cfg, which)!r} exceeds {MAX_INTENSITY_WCM2:.0e} W/cm^2, "
-                         f"where the electron turns relativistic and the dipole picture fails")
-    # durations
-    ramp = 0.0
-    if kind in ("flat", "static"):
-        if cfg.ramp is None:
-            raise InputError(f"{k('ramp')} is required for envelope = \"{kind}\"")
-        ramp = positive("ramp", cfg.ramp, "time")
-    elif cfg.ramp is not None:
-        raise InputError(f"{k('ramp')} applies only to envelope = \"flat\" or \"static\"")
+        raise InputError(f"{k(which)} = {weight * field**2 * AU_INTENSITY_WCM2:.3g} W/cm^2 exceeds "
+                         f"{MAX_INTENSITY_WCM2:.0e} W/cm^2, where the electron turns relativistic and the "
+                         f"dipole picture fails")
+    ramp = cfg.ramp if cfg.ramp is not None else 0.0
     period = 2 * math.pi / omega if omega > 0 else math.inf
-
-    def cycles_duration() -> float:
-        if not cfg.cycles > 0:
-            raise InputError(f"{k('cycles')} must be > 0, got {cfg.cycles!r}")
-        return cfg.cycles * period
-
     fwhm_gaussian = None
     if kind == "static":
-        if cfg.length is None:
-            raise InputError(f"{k('length')} is required for envelope = \"static\" (ramp included)")
-        length = positive("length", cfg.length, "time")
+        length = cfg.length
     elif kind == "gaussian":
-        which = exclusive(("fwhm", "cycles"), what=" for envelope = \"gaussian\"")
-        if which == "cycles":
-            fwhm_gaussian = cycles_duration()
-        else:
-            fwhm_gaussian = positive("fwhm", cfg.fwhm, "time")
+        which = "cycles" if cfg.cycles is not None else "fwhm"
+        fwhm_gaussian = cfg.cycles * period if which == "cycles" else cfg.fwhm
         if cfg.length is not None:
-            length = positive("length", cfg.length, "time")
+            length = cfg.length
             if 2 * fwhm_gaussian > length:
-                raise InputError(f"{k(which)} ({fwhm_gaussian * AU_TIME_S * 1e15:.4g} fs FWHM) is longer than "
-                                 f"half the window {k('length')} ({length * AU_TIME_S * 1e15:.4g} fs); "
-                                 f"a gaussian needs length >= 2 fwhm")
+                raise InputError(f"{k(which)} ({fwhm_gaussian * fs:.4g} fs FWHM) is longer than half the "
+                                 f"window {k('length')} ({length * fs:.4g} fs); a gaussian needs length >= 2 fwhm")
         else:
             length = gaussian_window(fwhm_gaussian)
+    elif cfg.length is not None:
+        length = cfg.length
+    elif cfg.cycles is not None:
+        length = cfg.cycles * period
+    elif kind == "flat":
+        length = cfg.fwhm + 2 * _RAMP_HALF * ramp
     else:
-        which = exclusive(("length", "cycles", "fwhm"))
-        if which == "length":
-            length = positive("length", cfg.length, "time")
-        elif which == "cycles":
-            length = cycles_duration()
-        else:
-            fwhm = positive("fwhm", cfg.fwhm, "time")
-            if kind == "flat":
-                length = fwhm + 2 * _RAMP_HALF * ramp
-            else:
-                length = fwhm / (_SIN2_FWHM if kind == "sin2" else _COS4_FWHM)
-        if kind == "flat" and 2 * ramp > length:
-            raise InputError(f"{k('ramp')} must be at most half the pulse length "
-                             f"({length / 2 * AU_TIME_S * 1e15:.4g} fs), got {cfg.ramp!r}")
+        length = cfg.fwhm / (_SIN2_FWHM if kind == "sin2" else _COS4_FWHM)
+    if not (math.isfinite(length) and length < MAX_WINDOW_AU):
+        raise InputError(f"`{key}` lasts {length * fs:.3g} fs; at most {MAX_WINDOW_AU * fs:.3g} fs")
+    if kind == "flat" and 2 * ramp > length:
+        raise InputError(f"{k('ramp')} must be at most half the pulse length ({length / 2 * fs:.4g} fs), "
+                         f"got {ramp * fs:.4g} fs")
     if kind == "static" and ramp > length:
-        raise InputError(f"{k('ramp')} must not exceed {k('length')}, got {cfg.ramp!r}")
-    if kind == "static" and pol not in ("z", "x"):
-        raise InputError(f"{k('polarization')} of a static field must be \"z\" or \"x\", got {pol!r}")
-    chirp = _chirp_to_au(cfg.chirp, f"{key}.chirp") if cfg.chirp is not None else 0.0
+        raise InputError(f"{k('ramp')} must not exceed {k('length')}, got {ramp * fs:.4g} fs > {length * fs:.4g} fs")
+    chirp = cfg.chirp if cfg.chirp is not None else 0.0
     if omega > 0 and abs(chirp) * length / 2 >= omega:
-        raise InputError(f"{k('chirp')} = {cfg.chirp!r} sweeps the instantaneous frequency through zero "
+        raise InputError(f"{k('chirp')} = {chirp:.3g} au sweeps the instantaneous frequency through zero "
                          f"inside the pulse; keep |chirp| < {2 * omega / length:.3g} au")
-    if not math.isfinite(cfg.cep):
-        raise InputError(f"{k('cep')} must be finite, got {cfg.cep!r}")
-    delay = to_au(cfg.delay, "time", name=f"{key}.delay")
-    return LaserPulse(kind, omega=omega, peak_field=field, length=length, cep=float(cfg.cep), delay=delay,
-                      chirp=chirp, polarization=pol, ramp=ramp, fwhm_gaussian=fwhm_gaussian, ellipticity=eta)
+    if not abs(cfg.delay) < MAX_WINDOW_AU:
+        raise InputError(f"{k('delay')} must be within ±{MAX_WINDOW_AU * fs:.3g} fs, got {cfg.delay * fs:.3g} fs")
+    return PulseComponent(kind, omega=omega, peak_field=field, length=length, cep=float(cfg.cep),
+                      delay=cfg.delay, chirp=chirp, polarization=pol, ramp=ramp,
+                      fwhm_gaussian=fwhm_gaussian, ellipticity=eta)
 
 
 # --- derived quantities for the `driven-atom pulse` table -----------------------------------------------

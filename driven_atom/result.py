@@ -2,26 +2,29 @@
 
 HDF5 layout of a result file (``NAME.h5``)::
 
-    attrs:  complete (bool, written last), route, config (TOML text), physics_hash,
-            versions (JSON), host, created, ionization, norm, stats (JSON), warnings (JSON),
+    attrs:  complete (bool, written last), route, config (TOML text), physics_hash, hash_version,
+            package, versions (JSON), host, created, ionization, norm, stats (JSON), warnings (JSON),
+            quality (JSON: the checks made, their numbers, trustworthy), metadata (JSON),
             sha256 (checksum of the result's content, see :func:`content_digest`)
     /times                       history sample times (a.u.)
     /populations                 attrs label -> final population; dataset "labels"/"values"
     /history/populations/<label> population at each sample time
     /history/series/<name>       other sampled series (norm, ionization, dipole_z, ...)
     /spectra/<name>/<array>      spectra, each a group of named arrays with a "units" attribute
-    /checkpoint/...              only in an unfinished file: the engine's resumable state
 
-Files are written to ``NAME.h5.tmp`` and renamed onto ``NAME.h5`` (``os.replace``), so a reader
-never sees a half-written file; readers trust a file only when ``complete`` is true, and
-:func:`read_result` refuses a file whose content no longer matches its ``sha256`` (a damaged disk
-or a bit flip: a campaign then re-runs the job).
+A run's checkpoint lives in a file of its own, ``NAME.ckpt.h5`` (group ``/checkpoint``), so a
+complete result is never rewritten by a run that resumes or repeats it.
+
+Every file is written through :func:`driven_atom.io.atomic_write` (a new temporary file in the same
+folder, fsync, rename), so a reader never sees a half-written file; readers trust a file only when
+``complete`` is true and its ``sha256`` is present, and :func:`read_result` refuses a file whose
+content no longer matches its ``sha256`` (a damaged disk or a bit flip: a campaign then re-runs
+the job).
 """
 from __future__ import annotations
 
 import hashlib
 import json
-import os
 import platform
 import socket
 import time
@@ -55,6 +58,15 @@ class Result:
     warnings: list[str] = field(default_factory=list)
     config: str = ""
     metadata: dict = field(default_factory=dict)
+    quality: dict = field(default_factory=dict)
+
+    def __repr__(self) -> str:
+        trust = self.quality.get("trustworthy")
+        flag = "" if trust is None else (", trustworthy" if trust else ", NOT trustworthy")
+        where = self.metadata.get("file")
+        return (f"Result(route={self.route!r}, ionization={self.ionization:.6g}, norm={self.norm:.10g}, "
+                f"{len(self.populations)} populations, {len(self.times)} samples, "
+                f"spectra={sorted(self.spectra)}{flag}" + (f", file={where!r}" if where else "") + ")")
 
 
 @lru_cache(maxsize=1)
@@ -78,12 +90,8 @@ def package_versions() -> dict[str, str]:
 
 def provenance() -> dict[str, str]:
     """Versions, host and time, for the attributes of every file we write."""
-    return {"versions": json.dumps(package_versions()), "host": socket.gethostname(),
+    return {"package": "driven-atom", "versions": json.dumps(package_versions()), "host": socket.gethostname(),
             "created": time.strftime("%Y-%m-%dT%H:%M:%S%z")}
-
-
-def _tmp_path(path: Path) -> Path:
-    return path.with_name(path.name + ".tmp")
 
 
 def _write_attrs(h5obj, attrs: dict) -> None:
@@ -138,6 +146,8 @@ def content_digest(result: Result) -> str:
     sorted)."""
     parts = [result.route, result.config, float(result.ionization), float(result.norm), result.stats,
              result.warnings, result.metadata, np.asarray(result.times, dtype=float)]
+    if result.quality:
+        parts.append(result.quality)
     for label in sorted(result.populations):
         parts += [label, float(result.populations[label])]
     for group in (result.history_populations, result.series):
@@ -159,33 +169,29 @@ def write_result(path, result: Result, *, attrs: dict | None = None) -> Path:
     """Write ``result`` to ``path`` atomically (temp file -> datasets -> attributes -> complete)."""
     import h5py
 
+    from driven_atom.io import atomic_write
+
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = _tmp_path(path)
-    with h5py.File(tmp, "w") as f:
-        _write_body(f, result)
-        _write_attrs(f, provenance())
-        _write_attrs(f, {"route": result.route, "config": result.config,
-                         "ionization": float(result.ionization), "norm": float(result.norm),
-                         "stats": result.stats, "warnings": result.warnings,
-                         "metadata": result.metadata})
-        if attrs:
-            _write_attrs(f, attrs)
-        f.attrs["sha256"] = content_digest(result)
-        f.attrs["complete"] = True
-    os.replace(tmp, path)
+    with atomic_write(path) as tmp:
+        with h5py.File(tmp, "w") as f:
+            _write_body(f, result)
+            _write_attrs(f, provenance())
+            _write_attrs(f, {"route": result.route, "config": result.config,
+                             "ionization": float(result.ionization), "norm": float(result.norm),
+                             "stats": result.stats, "warnings": result.warnings,
+                             "metadata": result.metadata, "quality": result.quality})
+            if attrs:
+                _write_attrs(f, attrs)
+            f.attrs["sha256"] = content_digest(result)
+            f.attrs["complete"] = True
     return path
 
 
 def is_complete(path) -> bool:
-    """True only for a readable result file whose ``complete`` attribute is set."""
-    import h5py
+    """True only for a readable result file marked complete and carrying its checksum."""
+    from driven_atom.io import is_complete as complete
 
-    try:
-        with h5py.File(path, "r") as f:
-            return bool(f.attrs.get("complete", False))
-    except (OSError, ValueError):
-        return False
+    return complete(path)
 
 
 def _json_attr(f, key, default):
@@ -203,8 +209,9 @@ def read_result(path) -> Result:
     except (OSError, ValueError) as exc:
         raise InputError(f"result file {str(path)!r} cannot be read: {exc}") from None
     with f:
-        if not bool(f.attrs.get("complete", False)):
-            raise InputError(f"result file {str(path)!r} is not complete (an unfinished or failed run)")
+        if not bool(f.attrs.get("complete", False)) or "sha256" not in f.attrs:
+            raise InputError(f"result file {str(path)!r} is not complete (an unfinished or failed run, "
+                             f"or a file without its checksum)")
         try:
             labels = [s.decode() if isinstance(s, bytes) else s for s in f["populations/labels"][()]]
             values = f["populations/values"][()]
@@ -221,23 +228,35 @@ def read_result(path) -> Result:
                 warnings=_json_attr(f, "warnings", []),
                 config=str(f.attrs.get("config", "")),
                 metadata=_json_attr(f, "metadata", {}),
+                quality=_json_attr(f, "quality", {}),
             )
         except (KeyError, ValueError, OSError) as exc:    # marked complete but a part is missing or unreadable
             raise InputError(f"result file {str(path)!r} is damaged: {exc}") from None
         stored = f.attrs.get("sha256")
-    if stored is not None and str(stored) != content_digest(result):
+    if str(stored) != content_digest(result):
         raise InputError(f"result file {str(path)!r} is damaged: its content does not match its "
                          "SHA-256 checksum")
     return result
 
 
-class Checkpoint:
-    """Resumable engine state kept in the run's own file, group ``/checkpoint``.
+def checkpoint_path(result_path) -> Path:
+    """Where the checkpoint of the run writing ``result_path`` lives: ``NAME.ckpt.h5`` beside it.
 
-    An engine calls :meth:`load` once at the start (``None`` when there is nothing to resume)
-    and :meth:`save` now and then; each save replaces the file atomically and leaves
-    ``complete = False``. The final :func:`write_result` replaces the file and so drops it.
-    Arrays are stored bit for bit; ``meta`` holds JSON-able scalars (step index, ...).
+    >>> checkpoint_path("runs/a-0123.h5").as_posix()
+    'runs/a-0123.ckpt.h5'
+    """
+    path = Path(result_path)
+    stem = path.name[:-3] if path.name.endswith(".h5") else path.name
+    return path.with_name(stem + ".ckpt.h5")
+
+
+class Checkpoint:
+    """Resumable route state in a file of its own (:func:`checkpoint_path` of the result).
+
+    The route base class calls :meth:`load` once at the start (``None`` when there is nothing
+    to resume, or the file belongs to other physics) and :meth:`save` now and then; each save
+    replaces the file atomically. :meth:`clear` removes it once the result is written. Arrays are
+    stored bit for bit; ``meta`` holds JSON-able values (position, step counts, ...).
     """
 
     def __init__(self, path, *, physics_hash: str = "", config: str = ""):
@@ -252,29 +271,36 @@ class Checkpoint:
             return None
         try:
             with h5py.File(self.path, "r") as f:
-                if bool(f.attrs.get("complete", False)) or "checkpoint" not in f:
-                    return None
-                if str(f.attrs.get("physics_hash", "")) != self.physics_hash:
+                if "checkpoint" not in f or str(f.attrs.get("physics_hash", "")) != self.physics_hash:
                     return None
                 g = f["checkpoint"]
                 arrays = {k: v[()] for k, v in g.items()}
                 meta = json.loads(g.attrs.get("meta", "{}"))
+                stored = str(f.attrs.get("sha256", ""))
         except (OSError, ValueError, KeyError):
             return None
+        if stored != digest([arrays[k] for k in sorted(arrays)] + [meta]):
+            return None          # damaged: start again rather than resume from wrong numbers
         return arrays, meta
 
     def save(self, arrays: dict[str, np.ndarray], meta: dict) -> None:
         import h5py
 
-        self.path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = _tmp_path(self.path)
-        with h5py.File(tmp, "w") as f:
-            g = f.create_group("checkpoint")
-            for key, value in arrays.items():
-                g.create_dataset(key, data=np.asarray(value))
-            g.attrs["meta"] = json.dumps(meta)
-            _write_attrs(f, provenance())
-            f.attrs["config"] = self.config
-            f.attrs["physics_hash"] = self.physics_hash
-            f.attrs["complete"] = False
-        os.replace(tmp, self.path)
+        from driven_atom.io import atomic_write
+
+        arrays = {k: np.asarray(v) for k, v in arrays.items()}
+        with atomic_write(self.path) as tmp:
+            with h5py.File(tmp, "w") as f:
+                g = f.create_group("checkpoint")
+                for key, value in arrays.items():
+                    g.create_dataset(key, data=value)
+                g.attrs["meta"] = json.dumps(meta)
+                _write_attrs(f, provenance())
+                f.attrs["config"] = self.config
+                f.attrs["physics_hash"] = self.physics_hash
+                f.attrs["sha256"] = digest([arrays[k] for k in sorted(arrays)] + [meta])
+                f.attrs["complete"] = False
+
+    def clear(self) -> None:
+        """Remove the checkpoint (its run has written its result)."""
+        self.path.unlink(missing_ok=True)

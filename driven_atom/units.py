@@ -14,9 +14,10 @@ number meaning atomic units) into a float in atomic units of a named kind.
 from __future__ import annotations
 
 import math
+import re
 from functools import lru_cache
 
-from driven_atom.errors import InputError
+from driven_atom.errors import InputError, short
 
 # --- CODATA 2022 recommended values (Mohr et al., Rev. Mod. Phys. 97, 025002 (2025)); the same
 # numbers scipy.constants ships (tests compare). Literals keep start-up free of scipy. --------------
@@ -52,6 +53,7 @@ _AU_UNIT = {
     "area": "bohr ** 2",
     "fluence": "au_intensity * atomic_unit_of_time",
     "density": "1 / bohr ** 3",
+    "chirp": "1 / atomic_unit_of_time ** 2",
 }
 KINDS = tuple(_AU_UNIT)
 
@@ -61,7 +63,7 @@ def registry():
     """The package's pint registry (built on first use: pint is slow to import)."""
     import pint
 
-    ureg = pint.UnitRegistry()
+    ureg = pint.UnitRegistry(on_redefinition="ignore")
     # Pin the atomic units to the constants above, so every module agrees.
     ureg.define(f"hartree = {HARTREE_J!r} * joule = E_h")
     ureg.define(f"bohr = {BOHR_M!r} * meter = a0 = a_0")
@@ -71,11 +73,29 @@ def registry():
     return ureg
 
 
+_NUMBER = re.compile(r"^\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*?)\s*$")
+# A unit expression: names (with digits, e.g. "a0"), * / and spaces between factors, parentheses,
+# and exponents that are short literals (** or ^, at most two digits): no exponent towers, no
+# arithmetic a parser would have to evaluate ("9**9**9 nm" is refused, not computed).
+_UNIT_NAME = r"[A-Za-z_\u00b0\u00b5\u03bc\u03a9\u00c5][A-Za-z0-9_\u00b0\u00b5\u03bc\u03a9\u00c5.]*"
+_EXPONENT = r"(?:\*\*|\^)\s*(?:[+-]?\d{1,2}(?:\.\d{1,3})?|\(\s*[+-]?\d{1,2}(?:\.\d{1,3})?\s*\))"
+_FACTOR = rf"(?:{_UNIT_NAME}|\(\s*{_UNIT_NAME}(?:\s*[*/ ]\s*{_UNIT_NAME})*\s*\))(?:\s*{_EXPONENT})?"
+_UNIT = re.compile(rf"^(?:1?\s*/\s*)?{_FACTOR}(?:\s*(?:[*/]|\s)\s*{_FACTOR})*$")
+MAX_QUANTITY_TEXT = 120
+
+
+class UnitError(ValueError):
+    """A quantity that cannot be read or has the wrong kind; the message names no key."""
+
+
 def _plain_number(value) -> float | None:
     if isinstance(value, bool):
         return None
     if isinstance(value, (int, float)):
-        return float(value)
+        try:
+            return float(value)
+        except OverflowError:            # an integer beyond the float range
+            return math.inf
     return None
 
 
@@ -85,7 +105,8 @@ def to_au(value, kind: str, *, name: str = "value") -> float:
     ``value`` is a plain number (already atomic units), a string such as ``"800 nm"`` or
     ``"0.05 au"``, or a pint Quantity. Energies also accept a frequency (E = h nu) or a
     wavenumber (E = h c / lambda); a rate accepts a frequency in Hz (taken as 1/s) or an energy
-    (E/hbar). Wrong dimensions raise :class:`InputError` naming ``name``.
+    (E/hbar); a chirp rate accepts 1/time² or an energy per time (divided by hbar). Wrong
+    dimensions raise :class:`InputError` naming ``name``.
 
     >>> round(to_au("0.05 au", "field"), 12)
     0.05
@@ -94,53 +115,81 @@ def to_au(value, kind: str, *, name: str = "value") -> float:
     ...
     driven_atom.errors.InputError: `wavelength` must be a length (e.g. "800 nm"), got '3 eV'
     """
+    try:
+        return convert(value, kind)
+    except UnitError as exc:
+        raise InputError(f"`{name}` {exc}, got {short(repr(value))}") from None
+
+
+def convert(value, kind: str) -> float:
+    """:func:`to_au` without a key name: raises :class:`UnitError` ("must be a length (...)").
+
+    >>> convert("9**9**9 nm", "length")
+    Traceback (most recent call last):
+    ...
+    driven_atom.units.UnitError: could not be read as a quantity (write e.g. "800 nm")
+    """
     if kind not in _AU_UNIT:
         raise ValueError(f"unknown quantity kind {kind!r}; one of {KINDS}")
     number = _plain_number(value)
-    if number is not None:
-        result = number
-    else:
-        result = _parse_to_au(value, kind, name)
+    result = number if number is not None else _parse_to_au(value, kind)
     if not math.isfinite(result):
-        raise InputError(f"`{name}` must be finite, got {value!r}")
+        raise UnitError("must be finite")
     return result
 
 
 _EXAMPLE = {"energy": "13.6 eV", "length": "800 nm", "time": "10 fs", "intensity": "1e14 W/cm^2",
             "field": "5e10 V/m", "rate": "1 GHz", "mass": "1.00728 u", "area": "1e-18 cm^2",
-            "fluence": "1 J/cm^2", "density": "1e12 cm^-3"}
+            "fluence": "1 J/cm^2", "density": "1e12 cm^-3", "chirp": "0.05 eV/fs"}
 _ARTICLE = {"energy": "an", "intensity": "an"}
+_KIND_NAME = {"chirp": "chirp rate"}
 
 
-def _dimension_error(value, kind: str, name: str) -> InputError:
-    article = _ARTICLE.get(kind, "a")
-    return InputError(f"`{name}` must be {article} {kind} (e.g. \"{_EXAMPLE[kind]}\"), got {value!r}")
+def kind_phrase(kind: str) -> str:
+    """'a length (e.g. "800 nm")' for ``kind``.
+
+    >>> kind_phrase("energy")
+    'an energy (e.g. "13.6 eV")'
+    """
+    return f"{_ARTICLE.get(kind, 'a')} {_KIND_NAME.get(kind, kind)} (e.g. \"{_EXAMPLE[kind]}\")"
 
 
-def _parse_to_au(value, kind: str, name: str) -> float:
+def split_quantity(text: str) -> tuple[float, str]:
+    """``"800 nm"`` -> (800.0, "nm"): a plain decimal number and a unit expression of the bounded
+    grammar above; :class:`UnitError` otherwise (nothing is evaluated).
+
+    >>> split_quantity("1e14 W/cm^2")
+    (100000000000000.0, 'W/cm^2')
+    """
+    text = str(text)
+    match = _NUMBER.match(text) if len(text) <= MAX_QUANTITY_TEXT else None
+    if not match:
+        raise UnitError("could not be read as a quantity")
+    magnitude, unit = float(match.group(1)), match.group(2)
+    if unit and not _UNIT.match(unit):
+        raise UnitError("could not be read as a quantity")
+    return magnitude, unit
+
+
+def _parse_to_au(value, kind: str) -> float:
     import pint
 
     ureg = registry()
     if isinstance(value, str):
-        text = value.strip()
-        for suffix in (" a.u.", " au", "a.u.", "au"):
-            if text.endswith(suffix):
-                head = text[: -len(suffix)].strip()
-                try:
-                    return float(head)
-                except ValueError:
-                    break
         try:
-            quantity = ureg.Quantity(text)
+            magnitude, unit = split_quantity(value)
+        except UnitError:
+            raise UnitError(f"could not be read as a quantity (write e.g. \"{_EXAMPLE[kind]}\")") from None
+        if unit in ("", "au", "a.u."):
+            return magnitude
+        try:
+            quantity = ureg.Quantity(magnitude, ureg.parse_units("1" + unit if unit.startswith("/") else unit))
         except Exception:
-            raise InputError(f"`{name}` could not be read as a quantity: {value!r} "
-                             f"(write e.g. \"{_EXAMPLE[kind]}\")") from None
+            raise UnitError(f"could not be read as a quantity (write e.g. \"{_EXAMPLE[kind]}\")") from None
     elif isinstance(value, pint.Quantity):
         quantity = value
     else:
-        raise InputError(f"`{name}` must be a number or a string with units, got {value!r}")
-    if not isinstance(quantity, pint.Quantity):  # a bare number in a string: atomic units
-        return float(quantity)
+        raise UnitError("must be a number or a string with units")
     target = ureg(_AU_UNIT[kind])
     try:
         return float(quantity.to(target).magnitude)
@@ -151,10 +200,11 @@ def _parse_to_au(value, kind: str, name: str) -> float:
             return float(quantity.to(target, "sp").magnitude)
         except pint.DimensionalityError:
             pass
-    if kind == "rate":
-        if quantity.check("[energy]"):
-            return float((quantity / ureg.hbar).to(target).magnitude)
-    raise _dimension_error(value, kind, name)
+    if kind == "rate" and quantity.check("[energy]"):
+        return float((quantity / ureg.hbar).to(target).magnitude)
+    if kind == "chirp" and quantity.check("[energy] / [time]"):
+        return float((quantity / ureg.hbar).to(target).magnitude)
+    raise UnitError(f"must be {kind_phrase(kind)}")
 
 
 def from_au(value: float, kind: str, unit: str) -> float:

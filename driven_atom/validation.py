@@ -99,7 +99,7 @@ def _ponderomotive_eV() -> float:
 
 
 def _landau_rate() -> float:
-    from driven_atom.estimate.rates import adk_rate
+    from driven_atom.lab.rates import adk_rate
 
     return float(adk_rate(0.05, 0.5, 1))
 

@@ -42,7 +42,7 @@ def test_load_config_from_a_path(tmp_path):
 
 
 def test_levels_route_and_run_command_import_light():
-    code = ("import sys, driven_atom, driven_atom.engines.levels, driven_atom.cli.run_cmd, driven_atom.observables.populations; "
+    code = ("import sys, driven_atom, driven_atom.routes.levels, driven_atom.cli.run_cmd, driven_atom.observables.populations; "
             "print(sorted(m for m in ('qutip', 'numba') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"

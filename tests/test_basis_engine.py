@@ -9,10 +9,12 @@ from scipy.linalg import expm
 from driven_atom.atom import Atom, State
 from driven_atom.atom.dipoles import dipole_matrix_element
 from driven_atom.basis.eigenbasis import build_basis
-from driven_atom.campaign.config import OutputConfig
-from driven_atom.engines import route_module, settings_for
-from driven_atom.engines.eigenbasis import MagnusPropagator, Settings, propagate
-from driven_atom.engines.krylov import Coupling, KrylovFailure
+from driven_atom.config import OutputConfig
+from driven_atom.config import read_settings
+from driven_atom.routes import propagate
+from driven_atom.routes.basis import MagnusPropagator
+from driven_atom.settings import BasisSettings as Settings
+from driven_atom.routes.krylov import Coupling, KrylovFailure
 from driven_atom.errors import InputError
 from driven_atom.pulse import Pulse
 
@@ -146,19 +148,27 @@ def test_resonant_rabi_flopping_agrees_with_levels_route_and_pulse_area():
     F0 = 2 * theta / (d * T)                              # area: int F0 d sin^2(pi t/T) dt = F0 d T/2
     pulse = Pulse({"photon_energy": omega, "peak_field": F0, "cycles": cycles})
     basis = _run(pulse, r_max=100.0, dr=0.1, l_max=2, e_max=1.0, tolerance=1e-8)
-    levels_mod = route_module("levels")
-    lset = settings_for("levels", {"route": "levels", "states": ["1s", "2p0"], "rwa": False, "decay": False})
-    levels = levels_mod.propagate(H, pulse, lset, initial=GROUND, output=OutputConfig())
+    lset = read_settings({"route": "levels", "states": ["1s", "2p0"], "rwa": False, "decay": False})
+    levels = propagate(H, pulse, lset, initial=GROUND, output=OutputConfig())
     print("P(2p) basis", basis.populations["2p"], "levels", levels.populations["2p"])
     assert basis.populations["2p"] == pytest.approx(math.sin(theta / 2) ** 2, rel=0.02)   # pulse-area theorem
     assert basis.populations["2p"] == pytest.approx(levels.populations["2p"], rel=0.01)
 
 
-def test_length_and_velocity_forms_agree_in_weak_field():
+def test_length_and_velocity_gauges_agree_in_weak_field():
     pulse = Pulse({"photon_energy": 0.8, "peak_field": 1e-3, "cycles": 6})
     keys = dict(r_max=100.0, dr=0.1, l_max=2, e_max=4.0, tolerance=1e-10)
-    length, velocity = _run(pulse, form="length", **keys), _run(pulse, form="velocity", **keys)
+    length, velocity = _run(pulse, gauge="length", **keys), _run(pulse, gauge="velocity", **keys)
     assert velocity.ionization == pytest.approx(length.ionization, rel=0.01)
+
+
+def test_form_is_a_deprecated_alias_of_gauge():
+    from driven_atom.settings import ConfigWarning
+
+    with pytest.warns(ConfigWarning, match="`solver.form` is deprecated"):
+        assert Settings(form="velocity").gauge == "velocity"
+    with pytest.raises(InputError, match="old name"):
+        read_settings({"route": "basis", "form": "length", "gauge": "velocity"})
 
 
 def test_photoelectron_spectrum_integrates_to_yield_and_peaks_at_photon_minus_ip():
@@ -203,11 +213,11 @@ def test_run_through_api_writes_file_and_reuses_basis(tmp_path):
 
 
 def test_resume_from_checkpoint_equals_uninterrupted_run(tmp_path, monkeypatch):
-    from driven_atom.engines import eigenbasis
     from driven_atom.result import Checkpoint
+    from driven_atom.routes import basis as eigenbasis
 
     pulse = Pulse({"photon_energy": 0.4, "peak_field": 0.01, "cycles": 3})
-    settings = Settings(r_max=30.0, dr=0.2, l_max=2, e_max=1.0, cache_dir=None, checkpoint_every=0)
+    settings = Settings(r_max=30.0, dr=0.2, l_max=2, e_max=1.0, cache_dir=None, checkpoint_every="1 ns")
     output = OutputConfig(every=5.0)
     plain = propagate(H, pulse, settings, initial=GROUND, output=output)
 
@@ -225,7 +235,7 @@ def test_resume_from_checkpoint_equals_uninterrupted_run(tmp_path, monkeypatch):
     with pytest.raises(RuntimeError, match="simulated kill"):
         propagate(H, pulse, settings, initial=GROUND, output=output, checkpoint=cp)
     monkeypatch.setattr(eigenbasis.MagnusPropagator, "advance", original)
-    assert cp.load()[1]["sample"] == 9                   # saved after the ninth interval
+    assert cp.load()[1]["position"] == 9                 # saved after the ninth interval
     resumed = propagate(H, pulse, settings, initial=GROUND, output=output, checkpoint=cp)
     assert resumed.populations == plain.populations                 # bit for bit: same steps, same checks
     assert resumed.stats["matvecs"] == plain.stats["matvecs"]
@@ -242,7 +252,7 @@ def test_sampling_longer_than_the_pulse_and_velocity_warning_for_static_field():
                     output=OutputConfig(every=1e6))
     assert res.times.tolist() == [pulse.t_start, pulse.t_end]
     static = Pulse({"envelope": "static", "peak_field": 1e-3, "length": 200.0, "ramp": 50.0})
-    res = propagate(H, static, Settings(r_max=20.0, dr=0.2, l_max=1, e_max=1.0, cache_dir=None, form="velocity"),
+    res = propagate(H, static, Settings(r_max=20.0, dr=0.2, l_max=1, e_max=1.0, cache_dir=None, gauge="velocity"),
                     initial=GROUND, output=OutputConfig())
     assert any("gauge" in w for w in res.warnings)
 
@@ -256,6 +266,6 @@ def test_bad_input():
                   Settings(r_max=20.0, dr=0.2, l_max=2, e_max=1.0, cache_dir=None),
                   initial=[(State(2, 1, 0), 0.6), (State(2, 1, 1), 0.8)], output=OutputConfig())
     with pytest.raises(InputError, match="solver.dr"):
-        settings_for("basis", {"route": "basis", "dr": "-1 nm"})
+        read_settings({"route": "basis", "dr": "-1 nm"})
     with pytest.raises(InputError, match="l_max"):
-        settings_for("basis", {"route": "basis", "lmax": 3})
+        read_settings({"route": "basis", "lmax": 3})

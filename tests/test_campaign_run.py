@@ -10,7 +10,6 @@ import signal
 import subprocess
 import sys
 import time
-import types
 from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 from typing import Literal
@@ -20,13 +19,15 @@ import numpy as np
 import pytest
 import tomli_w
 import xarray as xr
-from pydantic import BaseModel, ConfigDict
 
 import driven_atom
 from driven_atom.campaign import store
 from driven_atom.campaign.summary import collect, open_campaign
 from driven_atom.cli import main
-from driven_atom.engines import ROUTES
+from driven_atom.quantities import Cadence, CheckpointCadence
+from driven_atom.routes import ROUTES
+from driven_atom.routes.base import Outcome, Route
+from driven_atom.settings import SETTINGS, RouteSettings
 from driven_atom.errors import InputError
 from driven_atom.result import Result, is_complete
 from driven_atom.units import AU_INTENSITY_WCM2
@@ -35,49 +36,68 @@ REPO = Path(__file__).resolve().parents[1]
 
 
 # -- a stand-in route: P(2p) = sin^2(10 F0), checkpoints every step, can be told to fail --------
-class _StandInSettings(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+class _StandInSettings(RouteSettings):
     route: Literal["standin"] = "standin"
     steps: int = 4
+    checkpoint_every: CheckpointCadence(steps_allowed=True) = Cadence(steps=1)
 
 
-def _standin_propagate(atom, pulse, settings, *, initial, output, progress=False, checkpoint=None):
-    c = pulse.components[0]
-    if c.cep == 9.0:
-        raise RuntimeError("the stand-in refuses cep = 9")
-    start, done_steps = 0, 0
-    loaded = checkpoint.load() if checkpoint is not None else None
-    if loaded is not None:
-        start = loaded[1]["step"]
-    for step in range(start, settings.steps):
-        if _standin.crash_at == step:
+class _StandIn(Route):
+    name = "standin"
+    Settings = _StandInSettings
+    counts_steps = True
+    crash_at = None
+
+    def _prepare(self):
+        c = self.pulse.components[0]
+        if c.cep == 9.0:
+            raise RuntimeError("the stand-in refuses cep = 9")
+        self.t_start, self.t_end = 0.0, float(self.settings.steps)
+        self.time_quantum = 1.0
+        self.max_slice = 1.0
+        self.resumed_from = 0
+
+    def _initial(self):
+        return {"step": 0, "here": 0}
+
+    def _advance(self, state, t, t_next):
+        step = state["step"]
+        if _StandIn.crash_at == step:
             raise RuntimeError(f"stand-in crash at step {step}")
-        done_steps += 1
-        if checkpoint is not None:
-            checkpoint.save({"step_array": np.array([step + 1.0])}, {"step": step + 1})
-    p = math.sin(10 * c.peak_field) ** 2
-    energy = np.linspace(0.0, 1.0, 5)
-    return Result(route="standin", populations={"1s": 1 - p, "2p": p}, ionization=p / 10, norm=1.0,
-                  spectra={"photoelectron": {"energy": energy, "dP_dE": p * energy},
-                           # an axis that differs between jobs, complex values, and a time series
-                           "harmonic": {"omega": np.arange(2 + int(c.peak_field > 0.025)) * 0.5,
-                                        "amplitude": np.full(2 + int(c.peak_field > 0.025), p + 1j)},
-                           "dipole_response": {"time": np.arange(3.0), "dipole_z": np.zeros(3)}},
-                  stats={"steps_here": done_steps, "resumed_from": start})
+        return {"step": step + 1, "here": state["here"] + 1}
 
+    def steps_done(self, state):
+        return state["step"]
 
-_standin = types.ModuleType("tdse_test_standin_route")
-_standin.Settings = _StandInSettings
-_standin.propagate = _standin_propagate
-_standin.crash_at = None
+    def _sample(self, state):
+        return {}, {"step": float(state["step"])}
+
+    def _save(self, state):
+        return {"step_array": np.array([state["step"] + 0.0])}, {"step": state["step"]}
+
+    def _load(self, arrays, meta):
+        self.resumed_from = meta["step"]
+        return {"step": meta["step"], "here": 0}
+
+    def _finish(self, state, history):
+        c = self.pulse.components[0]
+        p = math.sin(10 * c.peak_field) ** 2
+        energy = np.linspace(0.0, 1.0, 5)
+        n = 2 + int(c.peak_field > 0.025)
+        return Outcome(populations={"1s": 1 - p, "2p": p}, ionization=p / 10, norm=1.0,
+                       spectra={"photoelectron": {"energy": energy, "dP_dE": p * energy},
+                                # an axis that differs between jobs, complex values, and a time series
+                                "harmonic": {"omega": np.arange(n) * 0.5, "amplitude": np.full(n, p + 1j)},
+                                "dipole_response": {"time": np.arange(3.0), "dipole_z": np.zeros(3)}},
+                       stats={"steps_here": state["here"], "resumed_from": self.resumed_from})
 
 
 @pytest.fixture
 def standin(monkeypatch):
-    monkeypatch.setitem(sys.modules, _standin.__name__, _standin)
-    monkeypatch.setitem(ROUTES, "standin", _standin.__name__)
-    monkeypatch.setattr(_standin, "crash_at", None)
-    return _standin
+    monkeypatch.setitem(SETTINGS, "standin", _StandInSettings)
+    monkeypatch.setitem(ROUTES, "standin", _StandIn)
+    monkeypatch.setattr(_StandIn, "crash_at", None)
+    return _StandIn
 
 
 def _standin_config(**scan):
@@ -98,7 +118,7 @@ def test_failing_job_is_recorded_and_the_rest_finish(tmp_path, standin, capsys):
     assert (status["total"], status["done"], status["failed"], status["pending"]) == (4, 2, 2, 0)
     failed = [j for j in status["jobs"] if j["status"] == "failed"]
     assert all(j["error"] == "RuntimeError: the stand-in refuses cep = 9" for j in failed)
-    with h5py.File(store.job_path(folder, failed[0]["id"])) as f:
+    with h5py.File(store.job_path(folder, failed[0]["id"])) as f:   # the failure record
         assert "Traceback" in f.attrs["traceback"] and f.attrs["complete"] == False   # noqa: E712
     assert "refuses cep = 9" in capsys.readouterr().err
     assert main(["status", str(folder), "--json"]) == 0
@@ -333,7 +353,7 @@ def test_cluster_table_makes_a_valid_slurm_job_script():
     pytest.importorskip("dask_jobqueue")
     import dask_jobqueue
 
-    from driven_atom.campaign.config import load_config
+    from driven_atom.routes import load_config
     from driven_atom.campaign.executors import cluster_options
 
     system, workers, kwargs = cluster_options(load_config(REPO / "configs" / "cluster_example.toml").cluster)
@@ -355,12 +375,12 @@ def test_killed_grid_job_resumes_from_its_checkpoint(tmp_path):
     folder = tmp_path / "grid"
 
     def checkpointed():
-        files = list((folder / "jobs").glob("*.h5"))
-        return bool(files) and store.job_state(folder, files[0].stem).status == store.CHECKPOINTED
+        files = list((folder / "jobs").glob("*.ckpt.h5"))
+        return bool(files) and store.job_state(folder, files[0].name.split(".")[0]).status == store.CHECKPOINTED
 
     _scan_then_sigkill(cfg_path, folder, checkpointed)
     driven_atom.scan(cfg_path, folder, workers=1, progress=False)
-    (job_file,) = (folder / "jobs").glob("*.h5")
+    (job_file,) = (folder / "jobs").glob("*.h5")          # the result; its checkpoint file is gone
     resumed = driven_atom.open_result(job_file)
     assert resumed.stats["resumed"] is True
     fresh = driven_atom.run({k: v for k, v in cfg.items() if k != "scan"}, out=tmp_path / "fresh.h5", progress=False)

@@ -8,7 +8,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from driven_atom.campaign.config import load_config
+from driven_atom.routes import load_config
 from driven_atom.campaign.scan import expand
 from driven_atom.errors import InputError
 from driven_atom.units import AU_INTENSITY_WCM2, to_au
@@ -18,7 +18,7 @@ def _base(**scan):
     return {"atom": {"Z": 1, "nucleus": "H"},
             "pulse": [{"wavelength": "800 nm", "intensity": "1e13 W/cm^2", "cycles": 4},
                       {"wavelength": "400 nm", "intensity": "1e12 W/cm^2", "cycles": 8}],
-            "solver": {"route": "levels"}, "output": {"every": "1 au"}, "scan": scan}
+            "solver": {"route": "levels", "states": ["1s", "2p"]}, "output": {"every": "1 au"}, "scan": scan}
 
 
 def test_product_grid_in_c_order():

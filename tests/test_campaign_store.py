@@ -14,7 +14,7 @@ import pytest
 from driven_atom.campaign import store
 from driven_atom.campaign.scan import expand
 from driven_atom.errors import InputError
-from driven_atom.result import Checkpoint, Result, write_result
+from driven_atom.result import Checkpoint, Result, checkpoint_path, write_result
 
 JOB = "0123456789abcdef"
 
@@ -31,13 +31,14 @@ def test_job_states(tmp_path):
     state = store.job_state(tmp_path, JOB)
     assert state.status == store.DONE and state.wall_s == 0.25
     other = "fedcba9876543210"
-    Checkpoint(store.job_path(tmp_path, other), physics_hash=other).save({"psi": np.ones(3)}, {"step": 2})
+    Checkpoint(checkpoint_path(store.job_path(tmp_path, other)), physics_hash=other).save(
+        {"psi": np.ones(3)}, {"step": 2})
     assert store.job_state(tmp_path, other).status == store.CHECKPOINTED
 
 
 def test_failed_record_keeps_checkpoint(tmp_path):
     path = store.job_path(tmp_path, JOB)
-    Checkpoint(path, physics_hash=JOB).save({"psi": np.arange(3.0)}, {"step": 5})
+    Checkpoint(checkpoint_path(path), physics_hash=JOB).save({"psi": np.arange(3.0)}, {"step": 5})
     try:
         raise RuntimeError("solver diverged\nsecond line")
     except RuntimeError as exc:
@@ -47,9 +48,24 @@ def test_failed_record_keeps_checkpoint(tmp_path):
     with h5py.File(path) as f:
         assert "Traceback" in f.attrs["traceback"] and f.attrs["config"] == "[atom]\n"
         assert "versions" in f.attrs and "host" in f.attrs
-    arrays, meta = Checkpoint(path, physics_hash=JOB).load()        # a retry resumes
+    arrays, meta = Checkpoint(checkpoint_path(path), physics_hash=JOB).load()   # a retry resumes
     assert meta == {"step": 5} and arrays["psi"].tolist() == [0.0, 1.0, 2.0]
-    assert not path.with_name(path.name + ".tmp").exists()
+    assert [p.name for p in tmp_path.rglob("*.tmp")] == []
+
+
+def test_a_failure_never_replaces_a_complete_result(tmp_path):
+    path = _done(tmp_path)
+    before = path.read_bytes()
+    store.write_failed(path, job_id=JOB, config="", error=RuntimeError("late failure"))
+    assert path.read_bytes() == before and store.job_state(tmp_path, JOB).status == store.DONE
+
+
+def test_a_result_without_its_checksum_is_not_done(tmp_path):
+    path = _done(tmp_path)
+    with h5py.File(path, "a") as f:
+        f["populations/values"][0] = 0.75          # edited numbers ...
+        del f.attrs["sha256"]                      # ... and the checksum removed
+    assert store.job_state(tmp_path, JOB).status == store.CORRUPT
 
 
 @pytest.mark.parametrize("damage", ["garbage", "truncate", "zero_middle", "bit_flip"])
@@ -79,7 +95,7 @@ def test_file_of_other_physics_is_corrupt(tmp_path):
 
 
 def _plan(folder):
-    cfg = {"atom": {"Z": 1, "nucleus": "H"}, "solver": {"route": "levels"},
+    cfg = {"atom": {"Z": 1, "nucleus": "H"}, "solver": {"route": "levels", "states": ["1s", "2p"]},
            "pulse": [{"wavelength": "121.5 nm", "intensity": "1e8 W/cm^2", "cycles": 10}],
            "scan": {"pulse.0.cep": [0.0, 1.0, 2.0]}}
     plan = expand(cfg)
@@ -106,7 +122,7 @@ def test_plan_round_trip_and_status(tmp_path):
     status = store.campaign_status(tmp_path)
     assert (status["total"], status["done"], status["failed"], status["pending"], status["running"]) == (3, 1, 1, 1, 0)
     assert status["jobs"][0]["wall_s"] == 1.5 and status["jobs"][1]["error"] == "ValueError: bad"
-    leftover = store.job_path(tmp_path, ids[2]).with_suffix(".h5.tmp")
+    leftover = store.job_path(tmp_path, ids[2]).with_name(f".{ids[2]}.h5.123-abcd.tmp")
     leftover.write_bytes(b"half a file")
     store.clear_stale_files(tmp_path)
     assert not marker.exists() and not leftover.exists()

@@ -70,21 +70,21 @@ def test_plot_of_a_nanosecond_pulse_draws_the_envelope(tmp_path):
 
 
 BAD = [
-    ("wavelength = \"800 nm\"", "wavelength = \"800 kg\"", "`pulse.0.wavelength` must be a length"),
-    ("cycles = 8", "cycles = -3", "`pulse.0.cycles` must be > 0"),
+    ("wavelength = \"800 nm\"", "wavelength = \"800 kg\"", "`pulse.0.wavelength`: must be a length"),
+    ("cycles = 8", "cycles = -3", "`pulse.0.cycles`: must be > 0"),
     ("cycles = 8", "cycles = 8\nlength = \"20 fs\"", "exclude each other"),
     ("cycles = 8", "cycels = 8", "did you mean `cycles`?"),
     ("[atom]\nZ = 1\nnucleus = \"H\"\ninitial = \"1s\"\n", "", "`atom` is required"),
     ("wavelength = \"800 nm\"", "wavelength = \"800 nm\"\nphoton_energy = \"1.55 eV\"", "exclude each other"),
     ("intensity = \"1e14 W/cm^2\"", "intensity = \"1e21 W/cm^2\"", "exceeds 1e+20 W/cm^2"),
-    ("cycles = 8", "length = \"-5 fs\"", "`pulse.0.length` must be > 0"),
+    ("cycles = 8", "length = \"-5 fs\"", "`pulse.0.length`: must be a time > 0"),
     ("cycles = 8", "envelope = \"gaussian\"\nfwhm = \"30 fs\"\nlength = \"20 fs\"", "longer than half the window"),
     ("route = \"grid\"", "route = \"fast\"", "`solver.route` must be one of"),
     ("cycles = 8", "cycles = 8\npolarization = \"circular-\"", "`pulse.0.polarization`"),
     ("initial = \"1s\"", "initial = \"1q\"", "`atom.initial`"),
-    ("cycles = 8", "cycles = 8\ndelay = \"3 eV\"", "`pulse.0.delay` must be a time"),
+    ("cycles = 8", "cycles = 8\ndelay = \"3 eV\"", "`pulse.0.delay`: must be a time"),
     ("cycles = 8", "cycles = 8\nramp = \"2 fs\"", "`pulse.0.ramp` applies only to"),
-    ("intensity = \"1e14 W/cm^2\"", "", "`pulse.0.intensity` (or `peak_field`) is required"),
+    ("intensity = \"1e14 W/cm^2\"", "", "`pulse.0.intensity` (or `pulse.0.peak_field`) is required"),
     ("Z = 1", "Z = 0", "`atom.Z`"),
     ("cycles = 8", "cycles = 8\nchirp = \"2 fs^-2\"", "`pulse.0.chirp`"),
 ]

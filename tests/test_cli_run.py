@@ -84,9 +84,9 @@ def test_bad_configs_exit_2_with_one_line(tmp_path, capsys, edit, word):
 
 
 def test_unavailable_route_is_a_clear_message(tmp_path, capsys, monkeypatch):
-    from driven_atom import engines
+    from driven_atom import routes
 
-    monkeypatch.setitem(engines.ROUTES, "basis", "driven_atom.engines._not_written_yet")
+    monkeypatch.setitem(routes.ROUTES, "basis", "driven_atom.routes._not_written_yet:Missing")
     cfg = _config(tmp_path, RABI_TOML.replace('route = "levels"\nstates = ["1s", "2p"]\ndecay = false',
                                               'route = "basis"'))
     assert main(["run", str(cfg), "--out", str(tmp_path)]) == 2

@@ -8,11 +8,12 @@ import pytest
 from scipy.special import gamma
 
 from driven_atom.cli import main
-from driven_atom.estimate import estimate
-from driven_atom.estimate.focus import focal_count, iso_intensity_volume, rayleigh_length
-from driven_atom.estimate.rates import _w_m, adk_rate, ionization_exponent, ppt_rate
+from driven_atom.lab import estimate
+from driven_atom.pulse import build_pulse
+from driven_atom.lab.focus import focal_count, iso_intensity_volume, rayleigh_length
+from driven_atom.lab.rates import _w_m, adk_rate, ionization_exponent, ppt_rate
 from driven_atom.observables.perturbation import first_order_ionization
-from driven_atom.campaign.config import load_config
+from driven_atom.routes import load_config
 from driven_atom.pulse import Pulse, quadrature
 
 IR = {"atom": {"Z": 1, "initial": "1s"}, "solver": {"route": "grid"},
@@ -115,7 +116,7 @@ def test_one_photon_ionisation_uses_the_golden_rule_and_saturates():
     cfg = {**IR, "pulse": [{"photon_energy": "20 eV", "intensity": "1e13 W/cm^2", "cycles": 20}]}
     out = estimate(cfg)
     loaded = load_config(cfg)
-    p1 = first_order_ionization(loaded.build_atom(), loaded.build_pulse(), "1s")
+    p1 = first_order_ionization(loaded.build_atom(), build_pulse(loaded), "1s")
     assert out["regime"] == "one-photon"
     assert out["ionization"] == pytest.approx(1 - math.exp(-p1), rel=1e-12)
     assert out["saturation_intensity_Wcm2"] == pytest.approx(1e13 / p1, rel=1e-9)
@@ -128,7 +129,7 @@ def test_tunnelling_regime_and_saturation_intensity():
     loaded = load_config(cfg)
     ip = loaded.build_atom().ionization_potential
     s_sat = out["saturation_intensity_Wcm2"] / 1e14
-    exponent = ionization_exponent(loaded.build_pulse(), ip, 1)
+    exponent = ionization_exponent(build_pulse(loaded), ip, 1)
     assert exponent(s_sat) == pytest.approx(1.0, rel=1e-6)                      # P = 1 - 1/e there
     assert 0 < out["ions_per_shot"] < 1e12 * 1e-1 * math.pi * (30e-4) ** 2 * 10    # fewer than all atoms around
 

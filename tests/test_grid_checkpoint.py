@@ -13,7 +13,9 @@ import pytest
 import tomli_w
 
 from driven_atom.api import run
-from driven_atom.result import Checkpoint, read_result
+from driven_atom.errors import InputError
+from driven_atom.result import Checkpoint, checkpoint_path, read_result
+from driven_atom.routes import load_config
 
 CONFIG = {
     "atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
@@ -44,15 +46,13 @@ def test_sigkill_then_resume_gives_identical_arrays(tmp_path):
     env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
     proc = subprocess.Popen([sys.executable, "-m", "driven_atom", "run", str(cfg_path), "--out", str(killed),
                              "--no-progress"], env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
-    from driven_atom.campaign.config import load_config
-
     cfg = load_config(cfg_path)
-    probe = Checkpoint(killed, physics_hash=cfg.physics_hash())
+    probe = Checkpoint(checkpoint_path(killed), physics_hash=cfg.physics_hash())
     deadline = time.monotonic() + 120
     try:
         while time.monotonic() < deadline and proc.poll() is None:
-            loaded = probe.load() if killed.exists() else None
-            if loaded is not None and loaded[1]["step"] >= 800:
+            loaded = probe.load() if probe.path.exists() else None
+            if loaded is not None and loaded[1]["route"]["step"] >= 800:
                 break
             time.sleep(0.02)
         assert proc.poll() is None, "the run finished before it could be killed: " + \
@@ -61,11 +61,12 @@ def test_sigkill_then_resume_gives_identical_arrays(tmp_path):
     finally:
         proc.wait()
     assert proc.returncode == -signal.SIGKILL
-    arrays, meta = probe.load()                         # an unfinished file with a checkpoint
-    assert meta["step"] < meta["n_steps"] and arrays["psi"].dtype == complex
+    arrays, meta = probe.load()                         # no result yet, a checkpoint beside it
+    assert not killed.exists() and 0 < meta["position"] < meta["layout"]["slices"]
+    assert arrays["route:psi"].dtype == complex
 
     resumed = run(cfg_path, out=killed, progress=False)
-    assert resumed.stats["resumed"] is True
+    assert resumed.stats["resumed"] is True and not probe.path.exists()
     fresh = run(cfg_path, out=tmp_path / "fresh.h5", progress=False)
     assert fresh.stats["resumed"] is False
     same_arrays(read_result(killed), read_result(tmp_path / "fresh.h5"))
@@ -76,21 +77,13 @@ def test_checkpoint_of_other_physics_is_ignored(tmp_path):
     cfg = dict(CONFIG, pulse=[dict(CONFIG["pulse"][0], cycles=1)],
                solver=dict(CONFIG["solver"], r_max=30, l_max=6, checkpoint_every=100))
     out = tmp_path / "a.h5"
-    other = Checkpoint(out, physics_hash="not-this-run")
-    other.save({"psi": np.zeros((3, 3), complex)}, {"step": 5})
+    other = Checkpoint(checkpoint_path(out), physics_hash="not-this-run")
+    other.save({"route:psi": np.zeros((3, 3), complex)}, {"position": 5})
     res = run(cfg, out=out, progress=False)
     assert res.stats["resumed"] is False and res.ionization > 0
 
 
-@pytest.mark.parametrize("value", [0, "ten"])
+@pytest.mark.parametrize("value", [0, "ten", -3, "-1 s", True, 2.5])
 def test_bad_checkpoint_interval(value):
-    from driven_atom.campaign.config import load_config
-    from driven_atom.errors import InputError
-
-    cfg = load_config(dict(CONFIG, solver=dict(CONFIG["solver"], checkpoint_every=value)))
     with pytest.raises(InputError, match="checkpoint_every"):
-        settings = cfg.solver_settings()
-        from driven_atom.engines.grid import propagate
-
-        propagate(cfg.build_atom(), cfg.build_pulse(), settings, initial=cfg.initial_states(),
-                  output=cfg.output)
+        load_config(dict(CONFIG, solver=dict(CONFIG["solver"], checkpoint_every=value)))

@@ -9,8 +9,11 @@ import numpy as np
 import pytest
 
 from driven_atom.atom import Atom, State
-from driven_atom.campaign.config import OutputConfig, load_config
-from driven_atom.engines import grid
+from driven_atom.config import OutputConfig
+from driven_atom.routes import load_config
+from driven_atom.pulse import build_pulse
+from driven_atom.routes import grid, propagate as route_propagate
+from driven_atom.settings import GridSettings
 from driven_atom.pulse import Pulse
 from driven_atom.units import C_AU
 
@@ -18,7 +21,7 @@ REPO = Path(__file__).resolve().parents[1]
 
 
 def propagate(pulse, solver, atom=Atom(1), every=None):
-    return grid.propagate(atom, pulse, grid.Settings(**solver), initial=[(State(1, 0), 1.0 + 0j)],
+    return route_propagate(atom, pulse, GridSettings(**solver), initial=[(State(1, 0), 1.0 + 0j)],
                           output=OutputConfig(every=every))
 
 
@@ -74,13 +77,9 @@ def test_weak_pulse_norm_and_populations(weak_run):
 
 @pytest.mark.slow
 def test_weak_pulse_agrees_with_basis_route(weak_run):
-    try:
-        from driven_atom.engines import eigenbasis
-    except ImportError:
-        pytest.skip("basis route not available yet")
     cfg = load_config({"atom": {"Z": 1}, "pulse": [WEAK], "solver": {"route": "basis"}})
-    res = eigenbasis.propagate(cfg.build_atom(), cfg.build_pulse(), cfg.solver_settings(),
-                               initial=cfg.initial_states(), output=cfg.output)
+    res = route_propagate(cfg.build_atom(), build_pulse(cfg), cfg.solver, initial=cfg.initial_states(),
+                          output=cfg.output)
     assert abs(weak_run.ionization / res.ionization - 1) < 0.01
 
 
@@ -139,12 +138,12 @@ def test_static_field_decay_rate_is_the_resonance_width(field, gamma, hold):
 @pytest.mark.slow
 def test_demo_strong_field_run_is_converged_and_second_order_in_dt():
     cfg = load_config(REPO / "configs" / "grid_kestrel_strong.toml")
-    atom, pulse = cfg.build_atom(), cfg.build_pulse()
-    par = grid.grid_parameters(atom, pulse, cfg.solver_settings())
+    atom, pulse = cfg.build_atom(), build_pulse(cfg)
+    par = grid.grid_parameters(atom, pulse, cfg.solver)
 
     def yield_with(**keys):
-        res = grid.propagate(atom, pulse, grid.Settings(**dict(cfg.solver, **keys)),
-                             initial=cfg.initial_states(), output=cfg.output, progress=False)
+        res = route_propagate(atom, pulse, cfg.solver.model_copy(update=keys),
+                              initial=cfg.initial_states(), output=cfg.output, progress=False)
         return res.ionization
 
     y1, y2, y4 = yield_with(), yield_with(dt=par.dt / 2), yield_with(dt=par.dt / 4)

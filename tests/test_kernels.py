@@ -7,7 +7,7 @@ from scipy.linalg import solve_banded
 
 from driven_atom.atom import Atom
 from driven_atom.basis.radial_grid import numerov_operators, uniform_grid
-from driven_atom.engines import kernels
+from driven_atom.routes import _grid_kernels as kernels
 
 N, L, DR, TAU = 157, 7, 0.2, 0.025        # N not a multiple of the re-seed interval on purpose
 ATOM = Atom(1, 1836.15267343)              # reduced mass != 1 exercises the 1/(2 mu) factors
@@ -73,7 +73,7 @@ def setup():
 
 
 def stepper_for(grid, mask, threads=1, nl=L):
-    from driven_atom.engines.grid import _Stepper
+    from driven_atom.routes.grid import _Stepper
 
     return _Stepper(grid, ATOM, nl, 2 * TAU, mask, threads)
 

@@ -6,8 +6,9 @@ import pytest
 from scipy.optimize import minimize_scalar
 
 from driven_atom.atom import Atom, State
-from driven_atom.campaign.config import OutputConfig
-from driven_atom.engines.levels import Settings, propagate
+from driven_atom.config import OutputConfig
+from driven_atom.routes import propagate
+from driven_atom.settings import LevelsSettings as Settings
 from driven_atom.pulse import Pulse
 from driven_atom.units import AU_TIME_S
 

@@ -6,8 +6,9 @@ import pytest
 
 from driven_atom.atom import Atom, State
 from driven_atom.atom.photoionization import cross_section
-from driven_atom.campaign.config import OutputConfig
-from driven_atom.engines.eigenbasis import Settings, propagate
+from driven_atom.config import OutputConfig
+from driven_atom.routes import propagate
+from driven_atom.settings import BasisSettings as Settings
 from driven_atom.observables.perturbation import first_order_ionization
 from driven_atom.pulse import Pulse
 from driven_atom.units import C_AU

@@ -8,13 +8,13 @@ from hypothesis import strategies as st
 from scipy import integrate, optimize
 
 from driven_atom.atom import Atom
-from driven_atom.pulse import LaserPulse, Pulse, derived_quantities, gaussian_shape
+from driven_atom.pulse import PulseComponent, Pulse, derived_quantities, gaussian_shape
 from driven_atom.units import AU_INTENSITY_WCM2, AU_TIME_S, HARTREE_EV, wavelength_nm_to_photon_energy
 
 FS = 1e-15 / AU_TIME_S          # one femtosecond in atomic units of time
 
 
-def one(**keys) -> LaserPulse:
+def one(**keys) -> PulseComponent:
     return Pulse(keys).components[0]
 
 
@@ -81,7 +81,7 @@ def test_elliptical_light_intensity_limits_and_sense(eta):
 
 
 @pytest.mark.parametrize("keys, message", [
-    ({"polarization": "elliptical", "ellipticity": 1.5}, r"`pulse.0.ellipticity` must be within \[-1, 1\]"),
+    ({"polarization": "elliptical", "ellipticity": 1.5}, "`pulse.0.ellipticity`: must be >= -1 and <= 1"),
     ({"polarization": "z", "ellipticity": 0.5}, "applies only to polarization"),
     ({"polarization": "elliptical", "ellipticity": float("nan")}, "ellipticity"),
 ])
@@ -183,7 +183,7 @@ def test_circular_plus_turns_counter_clockwise_about_z():
 
 
 # --- envelopes and durations ------------------------------------------------------------------------
-def _intensity_fwhm(c: LaserPulse) -> float:
+def _intensity_fwhm(c: PulseComponent) -> float:
     """FWHM of f^2 by root-finding (scipy brentq) between samples where it crosses 1/2."""
     t = np.linspace(c.t_start, c.t_end, 20001)
     above = c.envelope(t) ** 2 - 0.5

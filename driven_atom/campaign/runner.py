@@ -2,8 +2,8 @@
 
 ``scan(config, out)`` takes the folder's lock, writes ``campaign.toml`` and runs every job that is
 not done (failed ones only with ``retry_failed``); a damaged job file is moved aside and re-run.
-Each job is :func:`driven_atom.api.run` on ``jobs/<id>.h5``: the file is written atomically, and a job
-whose file holds a checkpoint resumes from it. A job that raises is recorded as failed (error and
+Each job is :func:`driven_atom.routes.run_config` on ``jobs/<id>.h5``: the file is written atomically,
+and a job whose checkpoint file (``jobs/<id>.ckpt.h5``) holds a checkpoint resumes from it. A job that raises is recorded as failed (error and
 traceback in its file) and the others go on. Re-running the same command finishes what is left;
 editing the scan (say, adding intensities) and re-running reuses every job whose physics is
 unchanged.
@@ -24,14 +24,13 @@ from driven_atom.errors import InputError
 
 def run_job(job_id: str, config: dict, folder: str) -> dict:
     """Run one job into ``folder/jobs/<job_id>.h5`` (in a worker); never raises for job errors."""
-    from driven_atom.api import run
-    from driven_atom.campaign.config import load_config
+    from driven_atom.routes import load_config, run_config
 
     path = store.job_path(folder, job_id)
     store.mark_running(path)
     started = time.perf_counter()
     try:
-        run(load_config(config), out=path, progress=False)
+        run_config(load_config(config), path, progress=False)
         return {"id": job_id, "status": store.DONE, "wall_s": time.perf_counter() - started}
     except Exception as exc:  # noqa: BLE001 - every job error is recorded, the campaign goes on
         store.write_failed(path, job_id=job_id, config=_toml(config), error=exc)
@@ -65,8 +64,7 @@ def scan(config, out, *, executor=None, workers: int | None = None, retry_failed
         check_count(workers, "--workers")
     cfg = campaign_config(config)
     folder = check_folder(out)
-    plan = expand(cfg)
-    cfg.solver_settings()          # a typo in [solver] stops here, not in every job
+    plan = expand(cfg)             # every job's config is checked here, before any job starts
     jobs = plan.unique_jobs()
     with store.CampaignLock(folder) as lock:
         if not lock.supported:
@@ -138,7 +136,7 @@ def _outcome(future, job, folder) -> dict:
 
 def campaign_config(source):
     """The RunConfig of a config path/dict/RunConfig, or of a campaign folder's campaign.toml."""
-    from driven_atom.campaign.config import load_config
+    from driven_atom.routes import load_config
 
     if isinstance(source, (str, Path)) and Path(source).is_dir():
         return load_config(store.read_plan(source)["config"])

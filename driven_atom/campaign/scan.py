@@ -16,10 +16,11 @@ advance together instead (equal lengths); the group name is then their common di
 
 Values keep their units as strings in the job configs; each axis also carries numeric coordinates
 and one unit string (plain numbers: ``"au"`` for quantities, ``"rad"`` for ``cep``, ``"1"`` else).
-Expansion is deterministic; a job's id is :meth:`RunConfig.physics_hash` of its full config, so
-output options do not change ids and equal physics gives one job.
+Expansion is deterministic; a job's id is :meth:`driven_atom.config.RunConfig.physics_hash` of its
+full config (the physics in atomic units, not its spelling), so output options and operational keys
+do not change ids and equal physics gives one job.
 
->>> plan = expand({"atom": {"Z": 1}, "solver": {"route": "levels"},
+>>> plan = expand({"atom": {"Z": 1}, "solver": {"route": "levels", "states": ["1s", "2p"]},
 ...     "pulse": [{"wavelength": "800 nm", "intensity": "1e12 W/cm^2", "cycles": 4}],
 ...     "scan": {"pulse.0.intensity": {"from": "1e12 W/cm^2", "to": "1e14 W/cm^2", "num": 3,
 ...                                    "spacing": "log"}, "pulse.0.cep": [0.0, 1.0]}})
@@ -129,22 +130,23 @@ def _convert(magnitude: float, unit: str, target: str, name: str) -> float:
         raise InputError(f"`{name}`: cannot express {magnitude!r} {unit} in {target} ({exc})") from None
 
 
-def _plain_units(path: str) -> str:
-    """The unit of a plain number on this key: atomic units for quantities, radians for cep."""
-    from driven_atom.campaign.config import AtomConfig, OutputConfig, PulseConfig
+def _plain_units(path: str, route: str) -> str:
+    """The unit of a plain number on this key: atomic units for quantities (the unit kind comes
+    with the field's type), radians for cep, "1" else."""
+    from driven_atom.config import AtomConfig, OutputConfig, PulseConfig
+    from driven_atom.quantities import unit_kind
+    from driven_atom.settings import SETTINGS
 
     leaf = path.rsplit(".", 1)[-1]
     if leaf == "cep":
         return "rad"
     section = path.split(".", 1)[0]
-    model = {"pulse": PulseConfig, "atom": AtomConfig, "output": OutputConfig}.get(section)
-    field = model.model_fields.get(leaf) if model is not None else None
-    if field is not None and "str" in str(field.annotation) and "float" in str(field.annotation):
-        return "au"
-    return "1"
+    model = {"pulse": PulseConfig, "atom": AtomConfig, "output": OutputConfig,
+             "solver": SETTINGS.get(route)}.get(section)
+    return "au" if model is not None and unit_kind(model, leaf) is not None else "1"
 
 
-def _coordinates(path: str, values: list, name: str) -> tuple[tuple, str]:
+def _coordinates(path: str, values: list, name: str, route: str) -> tuple[tuple, str]:
     """Numeric coordinates in one unit (the first value's), or the texts themselves."""
     split = [_split_quantity(v, name) for v in values]
     if any(mag is None for mag, _ in split):
@@ -161,7 +163,7 @@ def _coordinates(path: str, values: list, name: str) -> tuple[tuple, str]:
             raise InputError(f"`{name}`: mixes plain numbers and values with units: {values!r}")
         else:
             coords.append(_convert(mag, unit, target, name))
-    return tuple(coords), (target or _plain_units(path))
+    return tuple(coords), (target or _plain_units(path, route))
 
 
 def _range_values(spec: dict, name: str) -> list:
@@ -260,9 +262,10 @@ def expand(config) -> Plan:
     """Expand the ``[scan]`` table of ``config`` (path, dict or RunConfig) into a :class:`Plan`.
 
     Without a ``[scan]`` table the plan holds the single base job. Every job config is validated
-    with :func:`driven_atom.campaign.config.load_config`.
+    with :func:`driven_atom.routes.load_config` (keys, units, pulse and route), so a misspelt key
+    on a scan axis stops here, before any job starts.
     """
-    from driven_atom.campaign.config import load_config
+    from driven_atom.routes import load_config
 
     cfg = load_config(config)
     data = cfg.to_dict()
@@ -278,7 +281,7 @@ def expand(config) -> Plan:
     for path, spec in flat.items():
         name = f"scan.{path}"
         values = _axis_values(path, spec, name)
-        coords, units = _coordinates(path, values, name)
+        coords, units = _coordinates(path, values, name, cfg.route)
         dim = owner.get(path, path)
         axes.append(Axis(path=path, dim=dim, values=tuple(values), coords=coords, units=units))
         if dim not in dims:

@@ -4,17 +4,20 @@ Layout of a campaign folder ``DIR``::
 
     DIR/campaign.toml        the expanded plan: [campaign] (dims, shape, provenance), [axes.*],
                              [config] (the scan config as given), [[job]] (id, index)
-    DIR/jobs/<id>.h5         one result file per job (driven_atom.result format), written temp + rename
+    DIR/jobs/<id>.h5         one result file per job (driven_atom.result format), written temp + rename;
+                             or the record of a failed job (complete = False, status, error)
+    DIR/jobs/<id>.ckpt.h5    the checkpoint of an unfinished job (its own file: a complete result is
+                             never rewritten)
     DIR/jobs/<id>.running    while a worker runs the job: JSON {pid, host, started}
-    DIR/jobs/<id>.h5.tmp     a job file being written (left over only by a killed writer)
+    DIR/jobs/.*.tmp          a file being written (left over only by a killed writer)
     DIR/jobs/<id>.h5.corrupt a job file found unreadable, kept aside for inspection (job re-run)
     DIR/scan.lock            held (flock) by the one `driven-atom scan` working on the folder
     DIR/summary.h5           the collected table (netCDF via h5netcdf), DIR/summary.csv on request
 
-A job file is in one of these states: ``done`` (complete, readable, physics hash = job id),
-``failed`` (complete = False, attrs status = "failed", error, traceback; a checkpoint group is
-kept so a retry resumes), ``checkpointed`` (an unfinished run's checkpoint), ``corrupt``
-(unreadable or foreign) or ``pending`` (no file).
+A job is in one of these states: ``done`` (complete, readable, checksum and physics hash = job id),
+``failed`` (complete = False, attrs status = "failed", error, traceback; its checkpoint file, if
+any, is kept so a retry resumes), ``checkpointed`` (no result, a checkpoint file), ``corrupt``
+(a result file unreadable, foreign or without its checksum) or ``pending`` (nothing).
 
 The lock is an advisory ``flock`` on ``scan.lock``: the kernel drops it when its process dies
 (even by SIGKILL), so a killed scan never leaves a stale lock. A second ``driven-atom scan`` on a busy
@@ -36,6 +39,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from driven_atom.errors import InputError
+from driven_atom.io import atomic_write, write_text
 
 PLAN_FILE = "campaign.toml"
 JOBS_DIR = "jobs"
@@ -56,20 +60,6 @@ def _marker_path(path: Path) -> Path:
     return path.with_suffix(".running")
 
 
-def write_text_atomic(path, text: str, *, sync: bool = True) -> Path:
-    """Write ``text`` to ``path`` through a temp file and ``os.replace`` (``sync``: fsync first)."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(path.name + ".tmp")
-    with open(tmp, "w") as fh:
-        fh.write(text)
-        if sync:
-            fh.flush()
-            os.fsync(fh.fileno())
-    os.replace(tmp, path)
-    return path
-
-
 # -- plan ---------------------------------------------------------------------------------------
 def write_plan(folder, plan) -> Path:
     """Write ``campaign.toml`` for ``plan`` (a :class:`driven_atom.campaign.scan.Plan`)."""
@@ -85,7 +75,7 @@ def write_plan(folder, plan) -> Path:
         "config": plan.base,
         "job": [{"id": job.id, "index": list(job.index)} for job in plan.jobs],
     }
-    return write_text_atomic(Path(folder) / PLAN_FILE, tomli_w.dumps(data))
+    return write_text(Path(folder) / PLAN_FILE, tomli_w.dumps(data))
 
 
 def read_plan(folder) -> dict:
@@ -126,18 +116,17 @@ def load_job(folder, job_id: str):
     """(:class:`JobState`, the :class:`driven_atom.result.Result` of a done job or ``None``)."""
     import h5py
 
-    from driven_atom.result import read_result
+    from driven_atom.result import checkpoint_path, read_result
 
     path = job_path(folder, job_id)
     if not path.exists():
-        return JobState(PENDING), None
+        return JobState(CHECKPOINTED if checkpoint_path(path).exists() else PENDING), None
     try:
         with h5py.File(path, "r") as f:
-            complete = bool(f.attrs.get("complete", False))
+            complete = bool(f.attrs.get("complete", False)) and "sha256" in f.attrs
             owner = str(f.attrs.get("physics_hash", ""))
             status = str(f.attrs.get("status", ""))
             error = str(f.attrs.get("error", ""))
-            has_checkpoint = "checkpoint" in f
     except Exception as exc:  # noqa: BLE001 - any failure to open means a damaged file
         return JobState(CORRUPT, error=f"unreadable: {exc}"), None
     if owner != job_id:
@@ -150,9 +139,7 @@ def load_job(folder, job_id: str):
         return JobState(DONE, wall_s=result.stats.get("wall_s")), result
     if status == FAILED:
         return JobState(FAILED, error=error), None
-    if has_checkpoint:
-        return JobState(CHECKPOINTED), None
-    return JobState(CORRUPT, error="incomplete file without checkpoint"), None
+    return JobState(CORRUPT, error="incomplete file that is no failure record"), None
 
 
 def quarantine(folder, job_id: str) -> Path:
@@ -164,33 +151,27 @@ def quarantine(folder, job_id: str) -> Path:
 
 
 def write_failed(path, *, job_id: str, config: str, error: BaseException) -> Path:
-    """Record a failed job atomically: complete = False, status, error, traceback.
-
-    A checkpoint in the old file is carried over, so ``--retry-failed`` resumes from it.
-    """
+    """Record a failed job atomically: complete = False, status, error, traceback. Its checkpoint
+    file stays, so ``--retry-failed`` resumes from it. A complete result is never replaced."""
     import h5py
 
+    from driven_atom.io import is_complete
     from driven_atom.result import provenance
 
     path = Path(path)
-    tmp = path.with_name(path.name + ".tmp")
+    if is_complete(path):
+        return path
     text = "".join(tb_module.format_exception(type(error), error, error.__traceback__))
-    with h5py.File(tmp, "w") as f:
-        try:
-            with h5py.File(path, "r") as old:
-                if "checkpoint" in old and str(old.attrs.get("physics_hash", "")) == job_id:
-                    old.copy(old["checkpoint"], f, "checkpoint")
-        except (OSError, ValueError, KeyError):
-            pass
-        for key, value in provenance().items():
-            f.attrs[key] = value
-        f.attrs["physics_hash"] = job_id
-        f.attrs["config"] = config
-        f.attrs["status"] = FAILED
-        f.attrs["error"] = f"{type(error).__name__}: {error}".splitlines()[0]
-        f.attrs["traceback"] = text
-        f.attrs["complete"] = False
-    os.replace(tmp, path)
+    with atomic_write(path) as tmp:
+        with h5py.File(tmp, "w") as f:
+            for key, value in provenance().items():
+                f.attrs[key] = value
+            f.attrs["physics_hash"] = job_id
+            f.attrs["config"] = config
+            f.attrs["status"] = FAILED
+            f.attrs["error"] = f"{type(error).__name__}: {error}".splitlines()[0][:500]
+            f.attrs["traceback"] = text[-20000:]
+            f.attrs["complete"] = False
     return path
 
 
@@ -229,7 +210,7 @@ def _alive(info: dict) -> bool:
 
 def mark_running(path) -> Path:
     """Write ``<id>.running`` for the job at ``path`` (who runs it, since when)."""
-    return write_text_atomic(_marker_path(Path(path)), json.dumps(_identity()), sync=False)
+    return write_text(_marker_path(Path(path)), json.dumps(_identity()), sync=False)
 
 
 def clear_running(path) -> None:
@@ -260,8 +241,8 @@ def clear_stale_files(folder) -> None:
             info = {}
         if not info or not _alive(info):
             marker.unlink(missing_ok=True)
-    for tmp in jobs.glob("*.tmp"):
-        job_id = tmp.name.split(".", 1)[0]
+    for tmp in jobs.glob(".*.tmp"):
+        job_id = tmp.name[1:].split(".", 1)[0]
         if not _marker_path(jobs / f"{job_id}.h5").exists():
             tmp.unlink(missing_ok=True)
 

@@ -25,12 +25,12 @@ import csv
 import io
 import json
 import math
-import os
 from pathlib import Path
 
 import numpy as np
 
 from driven_atom.campaign import store
+from driven_atom.io import atomic_write, write_text
 
 SPECTRUM_AXES = ("energy", "omega", "frequency", "order", "k")
 
@@ -142,7 +142,7 @@ def _write_csv(ds, path: Path) -> Path:
                 _num(ds["ionization"].values[idx]), _num(ds["norm"].values[idx])]
         row += [_num(v) for v in ds["population"].values[idx]]
         writer.writerow(row)
-    return store.write_text_atomic(path, buffer.getvalue())
+    return write_text(path, buffer.getvalue())
 
 
 def _num(value) -> str:
@@ -163,9 +163,8 @@ def collect(folder, csv: bool = False) -> Path:
     folder = Path(folder)
     ds = build_dataset(folder)
     path = folder / store.SUMMARY_FILE
-    tmp = path.with_name(f"{path.name}.{os.getpid()}.tmp")      # two collects never share a temp file
-    ds.to_netcdf(tmp, engine="h5netcdf")
-    os.replace(tmp, path)
+    with atomic_write(path) as tmp:               # a new temporary file: two collects never share one
+        ds.to_netcdf(tmp, engine="h5netcdf")
     if csv:
         _write_csv(ds, folder / store.CSV_FILE)
     return path

@@ -91,19 +91,38 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv=None) -> int:
+    """Run one command; exit codes: 0 done, 1 a check failed or a file could not be written (disk
+    full, read-only), 2 bad input or a refused run, 128 + signal when a signal stopped a run
+    after its checkpoint."""
+    import warnings
+
+    from driven_atom.errors import Interrupted, short
+    from driven_atom.io import StorageError
+
+    def warn(message, category, filename, lineno, file=None, line=None):  # noqa: ARG001
+        sys.stderr.write(f"driven-atom: warning: {short(str(message))}\n")
+
     try:
-        args = build_parser().parse_args(argv)
-        payload = args.handler(args)
+        with warnings.catch_warnings():
+            warnings.showwarning = warn
+            args = build_parser().parse_args(argv)
+            payload = args.handler(args)
         if getattr(args, "json", False) and payload is not None:
             emit_json(payload)
         return getattr(args, "exit_code", 0)         # a handler may report e.g. a failed check with 1
     except InputError as exc:
-        sys.stderr.write(f"driven-atom: error: {exc}\n")
+        sys.stderr.write(f"driven-atom: error: {short(str(exc), 600)}\n")
         return 2
+    except StorageError as exc:
+        sys.stderr.write(f"driven-atom: error: {exc.strerror or exc}\n")
+        return 1
     except OSError as exc:   # a file or folder the user named cannot be read or written
-        where = f" {exc.filename!r}" if getattr(exc, "filename", None) else ""
+        where = f" {short(exc.filename)!r}" if getattr(exc, "filename", None) else ""
         sys.stderr.write(f"driven-atom: error:{where} {exc.strerror or exc}\n")
         return 2
+    except Interrupted as exc:
+        sys.stderr.write(f"driven-atom: {exc}\n")
+        return exc.exit_code
     except KeyboardInterrupt:
         sys.stderr.write("driven-atom: interrupted\n")
         return 130

@@ -1,7 +1,7 @@
 """``driven-atom estimate CONFIG [--waist W] [--m2 M2] [--density N | --pressure P [--temperature T]]
-[--length L] [--json]``: quick lab estimate of excitation and ionisation (:mod:`driven_atom.estimate`).
+[--length L] [--json]``: quick lab estimate of excitation and ionisation (:mod:`driven_atom.lab`).
 
-Prints a table (or one JSON object with the keys of :func:`driven_atom.estimate.estimate`) and the
+Prints a table (or one JSON object with the keys of :func:`driven_atom.lab.estimate`) and the
 laser-safety caution (stderr with ``--json``).
 """
 from __future__ import annotations
@@ -59,7 +59,7 @@ def table(out: dict) -> str:
 
 def handle(args):
     from driven_atom.cli import SAFETY_CAUTION, significant
-    from driven_atom.estimate import estimate
+    from driven_atom.lab import estimate
 
     out = significant(estimate(args.config, waist=args.waist, m2=args.m2, density=args.density,
                                pressure=args.pressure, temperature=args.temperature, length=args.length))

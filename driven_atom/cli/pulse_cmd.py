@@ -54,13 +54,13 @@ def table(derived: dict) -> str:
 
 
 def handle(args):
-    from driven_atom.campaign.config import load_config
+    from driven_atom.routes import load_config
     from driven_atom.cli import SAFETY_CAUTION, significant
     from driven_atom.errors import InputError
-    from driven_atom.pulse import derived_quantities
+    from driven_atom.pulse import build_pulse, derived_quantities
 
     cfg = load_config(args.config)
-    pulse = cfg.build_pulse()
+    pulse = build_pulse(cfg)
     if pulse is None:
         raise InputError(f"config {args.config!r} has no [[pulse]] table")
     derived = significant(derived_quantities(pulse, cfg.build_atom()))

@@ -33,15 +33,15 @@ def has_lab_intensity(cfg) -> bool:
     """True when a pulse strength is given in lab units (any intensity, or a field with units
     other than atomic units): then the printed numbers feed an experiment.
 
-    >>> from driven_atom.campaign.config import load_config
+    >>> from driven_atom.routes import load_config
     >>> has_lab_intensity(load_config({"atom": {"Z": 1}, "pulse": [{"photon_energy": 0.375,
     ...     "peak_field": 1e-3, "cycles": 10}], "solver": {"route": "levels", "states": ["1s"]}}))
     False
     """
-    for p in cfg.pulse:
-        if p.intensity is not None:
+    for p in cfg.to_dict().get("pulse", []):
+        if p.get("intensity") is not None:
             return True
-        field = p.peak_field
+        field = p.get("peak_field")
         if isinstance(field, str) and not field.strip().lower().endswith(("au", "a.u.")):
             return True
     return False
@@ -62,7 +62,7 @@ def summary(result) -> str:
 
 def handle(args):
     from driven_atom.api import run
-    from driven_atom.campaign.config import load_config
+    from driven_atom.routes import load_config
     from driven_atom.cli import SAFETY_CAUTION
 
     cfg = load_config(args.config)

@@ -51,3 +51,21 @@ def level_populations(populations: Mapping) -> dict:
         out[level.label] = total
         out.update((s.label, entry[s]) for s in subs)
     return out
+
+
+def with_level_sums(populations: Mapping) -> dict:
+    """:func:`level_populations` for the keys that are states, other keys (sinks such as
+    "elsewhere") passed through after them unchanged.
+
+    >>> with_level_sums({"2p0": 0.25, "1s0": 0.5, "elsewhere": 0.25})
+    {'1s': 0.5, '1s0': 0.5, '2p': 0.25, '2p0': 0.25, 'elsewhere': 0.25}
+    """
+    states, others = {}, {}
+    for key, value in populations.items():
+        try:
+            parse_state(key)
+        except InputError:
+            others[key] = value
+        else:
+            states[key] = value
+    return {**level_populations(states), **others}

@@ -32,112 +32,27 @@ interpolation qutip uses, checked at every interval midpoint against ``sampling_
 pulse, field-free, populations follow the rate equations dp/dt = R p in closed form,
 p(t) = exp(R t) p(0) (scipy.linalg.expm). Levels runs are short: they are not checkpointed.
 
->>> Settings(route="levels", states=["1s", "2p"]).sublevels()
+>>> LevelsSettings(states=["1s", "2p"]).sublevels()
 [State(n=1, l=0, m=0), State(n=2, l=1, m=-1), State(n=2, l=1, m=0), State(n=2, l=1, m=1)]
 """
 from __future__ import annotations
 
 import math
-import time
 from dataclasses import dataclass
-from typing import Literal, Union
 
 import numpy as np
-from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from driven_atom.atom.dipoles import spherical_coefficients
-from driven_atom.atom.states import State, parse_state
+from driven_atom.atom.states import State
 from driven_atom.errors import InputError
-from driven_atom.units import C_AU, to_au
+from driven_atom.routes.base import Outcome, Route
+from driven_atom.settings import LevelsSettings
+from driven_atom.units import C_AU
 
-Quantity = Union[float, str]
 ELSEWHERE = "elsewhere"
 IONIZED = "ionized"
 RWA_DETUNING_LIMIT = 0.1     # |ω - ω_ul|/ω_ul above which the RWA is reported invalid
 MAX_COEFFICIENT_VALUES = 20_000_000   # samples x terms kept in memory for the coefficients
-MAX_HISTORY = 1_000_000
-
-
-def _time(value, name):
-    t = to_au(value, "time", name=name)
-    if t < 0:
-        raise ValueError(f"`{name}` must be >= 0, got {value!r}")
-    return value
-
-
-class Settings(BaseModel):
-    """``[solver]`` keys of the levels route (quantities: strings with units or plain a.u.)."""
-
-    model_config = ConfigDict(extra="forbid", frozen=True)
-
-    route: Literal["levels"] = Field("levels", description="the few-level master-equation route")
-    states: list[str] = Field(..., min_length=1, description=(
-        'levels or sublevels in the model: "2p" brings all its m-sublevels, "2p0" only that one'))
-    rwa: bool = Field(True, description=(
-        "rotating-wave approximation: each pulse drives only the transitions nearest its carrier"))
-    decay: bool = Field(True, description="spontaneous decay with the Einstein A of each m->m' channel")
-    dephasing: Quantity = Field(0.0, description=(
-        'pure dephasing rate of coherences between different energies ("1 GHz" = 1e9 s^-1)'))
-    ionization_loss: bool = Field(False, description=(
-        "photoionisation loss of every level at the instantaneous intensity, into `ionization`"))
-    after: Quantity | None = Field(None, description=(
-        "field-free time after the pulse (closed form); default 0"))
-    t_end: Quantity | None = Field(None, description=(
-        "absolute end time (the pulse window starts at its first foot); instead of `after`"))
-    atol: float = Field(1e-12, gt=0, description="absolute tolerance of the ODE solver (qutip atol)")
-    rtol: float = Field(1e-10, gt=0, description="relative tolerance of the ODE solver (qutip rtol)")
-    nsteps: int = Field(1_000_000, gt=0, description="maximum internal ODE steps between samples")
-    method: Literal["adams", "bdf", "lsoda", "dop853", "vern7", "vern9"] = Field(
-        "adams", description="qutip integration method")
-    max_step: Quantity | None = Field(None, description=(
-        "largest ODE step (default: a tenth of the shortest pulse)"))
-    sampling_tol: float = Field(1e-7, gt=0, lt=1e-2, description=(
-        "accuracy of the cubic-spline samples of the field coefficients, relative to their peak"))
-
-    @field_validator("states")
-    @classmethod
-    def _states(cls, value):
-        seen: dict[State, str] = {}
-        for label in value:
-            for s in parse_state(label, name="solver.states").sublevels():
-                if s in seen:
-                    raise ValueError(f"`solver.states`: {label!r} repeats sublevel {s.label} "
-                                     f"(from {seen[s]!r})")
-                seen[s] = label
-        return value
-
-    @field_validator("dephasing")
-    @classmethod
-    def _dephasing(cls, value):
-        if to_au(value, "rate", name="solver.dephasing") < 0:
-            raise ValueError(f"`solver.dephasing` must be >= 0, got {value!r}")
-        return value
-
-    @field_validator("after", "max_step")
-    @classmethod
-    def _durations(cls, value, info):
-        return None if value is None else _time(value, f"solver.{info.field_name}")
-
-    @field_validator("t_end")
-    @classmethod
-    def _t_end(cls, value):
-        if value is not None:
-            to_au(value, "time", name="solver.t_end")
-        return value
-
-    @model_validator(mode="after")
-    def _one_end(self):
-        if self.after is not None and self.t_end is not None:
-            raise ValueError("`solver.after` and `solver.t_end` exclude each other; give one")
-        return self
-
-    def sublevels(self) -> list[State]:
-        """The model's sublevels in the order of ``states``, each level's m ascending."""
-        return [s for label in self.states for s in parse_state(label).sublevels()]
-
-    def dephasing_rate(self) -> float:
-        """γ in 1/(a.u. time)."""
-        return to_au(self.dephasing, "rate", name="solver.dephasing")
 
 
 # --- the static model ------------------------------------------------------------------------
@@ -382,7 +297,7 @@ def sample_coefficients(values, t0: float, t1: float, *, n_start: int, tol: floa
         v = np.concatenate([v, vm[:, bad]], axis=1)[:, order]
 
 
-def coupling(atom, pulse, model: LevelModel, settings: Settings):
+def coupling(atom, pulse, model: LevelModel, settings: LevelsSettings):
     """The field's part of the model: operators with their coefficient rows (``FieldTerms``) and the
     sampled coefficients ``(times, values)`` over the pulse window, as the solver uses them:
     H(t) = Σ_r c_r(t) H_r (c_r* for the conjugate halves) and Lindblad terms c_r(t) D_r.
@@ -391,7 +306,7 @@ def coupling(atom, pulse, model: LevelModel, settings: Settings):
     >>> from driven_atom.pulse import Pulse
     >>> model = build_model(Atom(1), [State(1, 0, 0), State(2, 1, 0)], decay=False)
     >>> pulse = Pulse({"photon_energy": 0.375, "peak_field": 1e-3, "length": 2000.0})
-    >>> terms, (times, values) = coupling(Atom(1), pulse, model, Settings(states=["1s", "2p0"]))
+    >>> terms, (times, values) = coupling(Atom(1), pulse, model, LevelsSettings(states=["1s", "2p0"]))
     >>> len(terms.hamiltonian), terms.notes[0][:32]
     (2, 'pulse[0] (ω = 0.375 au) drives 1')
     """
@@ -437,39 +352,29 @@ def _initial_density(model: LevelModel, initial, t0: float, interaction: bool):
     return rho, (ket if pure else None)
 
 
-def _history_times(t0: float, t1: float, every: float | None) -> np.ndarray:
-    step = (t1 - t0) / 200 if every is None else every
-    if t1 <= t0:
-        return np.array([t0])
-    if not step > 0:
-        raise InputError(f"`output.every` must be > 0, got {every!r}")
-    n = math.floor((t1 - t0) / step * (1 + 1e-12))
-    if n + 2 > MAX_HISTORY:
-        raise InputError(f"`output.every` = {every!r} asks for {n + 1} samples; at most {MAX_HISTORY}")
-    times = t0 + step * np.arange(n + 1)
-    return times if math.isclose(times[-1], t1, rel_tol=0, abs_tol=1e-9 * step) else np.append(times, t1)
-
-
-def _field_free(model: LevelModel, p0: np.ndarray, t0: float, times: np.ndarray) -> np.ndarray:
-    """Populations at ``times`` (>= t0) from p0 at t0: p(t) = exp(R (t - t0)) p0 (rate equations)."""
+def _field_free_propagator(model: LevelModel):
+    """dt -> exp(R dt) for the field-free rate equations dp/dt = R p (scipy.linalg.expm), cached
+    for repeated intervals."""
     from scipy.linalg import expm
 
     R = model.rate_matrix()
-    out = np.empty((len(times), len(p0)))
-    p, last = p0.copy(), t0
-    step, propagator = None, None
-    for n, t in enumerate(times):
-        dt = t - last
-        if step is None or not math.isclose(dt, step, rel_tol=1e-12):
-            step, propagator = dt, expm(R * dt)
-        p = propagator @ p
-        out[n], last = p, t
-    return out
+    cache = {}
+
+    def propagator(dt: float) -> np.ndarray:
+        key = float(dt)
+        if key not in cache:
+            if len(cache) > 64:
+                cache.clear()
+            cache[key] = expm(R * dt)
+        return cache[key]
+
+    return propagator
 
 
-def _solve(model: LevelModel, terms: FieldTerms, settings: Settings, rho0, ket0, tlist, *,
-           coefficients, max_step: float, interaction: bool, progress: bool):
-    """Propagate from tlist[0] to tlist[-1] with qutip; populations of every label at ``tlist``."""
+def _solver(model: LevelModel, terms: FieldTerms, settings: LevelsSettings, ket0, *, coefficients,
+            max_step: float, interaction: bool):
+    """The qutip solver of the pulse window: ``SESolver`` for a pure state with nothing
+    dissipating, else ``MESolver`` on the Liouvillian with the time-dependent loss terms."""
     import qutip as qt
     from scipy.sparse import csr_matrix
 
@@ -489,7 +394,7 @@ def _solve(model: LevelModel, terms: FieldTerms, settings: Settings, rho0, ket0,
         L = np.zeros((n, n), dtype=complex)
         L[j, i] = math.sqrt(rate)
         c_ops.append(qobj(L))
-    gamma = settings.dephasing_rate()
+    gamma = settings.dephasing
     if gamma > 0 and len(np.unique(model.energies)) > 1:
         for E in np.unique(model.energies):
             P = np.zeros((n, n), dtype=complex)
@@ -498,96 +403,147 @@ def _solve(model: LevelModel, terms: FieldTerms, settings: Settings, rho0, ket0,
             c_ops.append(qobj(P))
     options = {"atol": settings.atol, "rtol": settings.rtol, "nsteps": settings.nsteps,
                "method": settings.method, "max_step": max_step, "store_states": False,
-               "store_final_state": False, "normalize_output": False,
-               "progress_bar": "tqdm" if progress else "",
-               "progress_kwargs": {"delay": 2.0, "leave": False}}
-    projectors = [qt.basis(n, i).proj() for i in range(n)]
+               "store_final_state": False, "normalize_output": False, "progress_bar": ""}
     if not (c_ops or terms.dissipators) and ket0 is not None:
-        solver = qt.SESolver(H, options=options)
-        result = solver.run(qt.Qobj(ket0.reshape(-1, 1), dims=[[n], [1]]), tlist, e_ops=projectors)
-        kind = "sesolve"
-    else:
-        L = qt.liouvillian(H, c_ops)
-        for ops, r in terms.dissipators:
-            D = sum(qt.lindblad_dissipator(qobj(op)) for op in ops)
-            L = L + qt.QobjEvo([[D, qt.coefficient(vals[r], tlist=ts)]])
-        solver = qt.MESolver(L, options=options)
-        result = solver.run(qobj(rho0), tlist, e_ops=projectors)
-        kind = "mesolve"
-    return np.real(np.array(result.expect)), kind
+        return qt.SESolver(H, options=options), "sesolve"
+    L = qt.liouvillian(H, c_ops)
+    for ops, r in terms.dissipators:
+        D = sum(qt.lindblad_dissipator(qobj(op)) for op in ops)
+        L = L + qt.QobjEvo([[D, qt.coefficient(vals[r], tlist=ts)]])
+    return qt.MESolver(L, options=options), "mesolve"
 
 
-def propagate(atom, pulse, settings: Settings, *, initial, output=None, progress: bool = False,
-              checkpoint=None):
-    """Run the few-level model and return a :class:`driven_atom.result.Result` (see the module text).
+class LevelsRoute(Route):
+    """Few-level master equation of hydrogenic sublevels (see the module docstring).
 
-    ``pulse`` may be ``None`` (field-free evolution over ``settings.after``); ``checkpoint`` is
-    accepted for the route interface and not used (levels runs are short).
+    The state during the pulse is qutip's (stepped sample by sample); after the pulse, the
+    populations of every label evolve by the closed-form rate equations. Levels runs are short:
+    they are not checkpointed (a stopped run starts again).
 
     >>> from driven_atom.atom import Atom
-    >>> res = propagate(Atom.from_name("H"), None, Settings(states=["1s", "2p"], after="1.5962 ns"),
-    ...                 initial=[(State(2, 1, 0), 1.0)])
+    >>> from driven_atom.config import OutputConfig
+    >>> route = LevelsRoute(Atom.from_name("H"), None, LevelsSettings(states=["1s", "2p"], after="1.5962 ns"),
+    ...                     initial=[(State(2, 1, 0), 1.0)], output=OutputConfig())
+    >>> res = route.run()
     >>> round(res.populations["2p"], 4), round(res.populations["1s"], 4)   # one lifetime: 1/e
     (0.3679, 0.6321)
     """
-    from driven_atom.observables.populations import level_populations
-    from driven_atom.result import Result
 
-    started = time.perf_counter()
-    components = tuple(pulse.components) if pulse is not None else ()
-    model = build_model(atom, settings.sublevels(), decay=settings.decay,
-                        ionization_sink=settings.ionization_loss)
-    t0 = pulse.t_start if components else 0.0
-    t_pulse = pulse.t_end if components else t0
-    if settings.t_end is not None:
-        t_final = to_au(settings.t_end, "time", name="solver.t_end")
-        if t_final < t_pulse:
-            raise InputError(f"`solver.t_end` = {settings.t_end!r} is before the end of the pulse "
-                             f"({t_pulse:.6g} au)")
-    else:
-        t_final = t_pulse + (to_au(settings.after, "time") if settings.after is not None else 0.0)
-    if not t_final > t0:
-        raise InputError("nothing to propagate: give a `[[pulse]]` or `solver.after` > 0")
-    times = _history_times(t0, t_final, output.every_au if output is not None else None)
-    rho0, ket0 = _initial_density(model, initial, t0, interaction=settings.rwa)
-    warnings, notes, stats = [], [], {"n_sublevels": len(model.states), "solver": "closed form"}
+    name = "levels"
+    Settings = LevelsSettings
+    polarizations = ("z", "x", "circular+", "circular-", "elliptical")
+    needs_pulse = False
+    resumable = False
 
-    p_pulse = np.real(np.diag(rho0))
-    during = times[times <= t_pulse]
-    if components:
-        terms, coefficients = coupling(atom, pulse, model, settings)
-        warnings += terms.warnings
-        notes += terms.notes
-        shortest = min(c.length for c in components)
-        stats["coefficient_samples"] = int(len(coefficients[0]))
-        max_step = to_au(settings.max_step, "time") if settings.max_step is not None else shortest / 10
-        tlist = during if during[-1] == t_pulse else np.append(during, t_pulse)
-        pops, stats["solver"] = _solve(model, terms, settings, rho0, ket0, tlist, coefficients=coefficients,
-                                       max_step=max_step, interaction=settings.rwa, progress=progress)
-        p_pulse = pops[:, -1]
-        pops_during = pops[:, :len(during)]
-    else:
-        pops_during = np.repeat(p_pulse[:, None], len(during), axis=1)
-    after = times[times > t_pulse]
-    pops_after = _field_free(model, p_pulse, t_pulse, after).T if len(after) else np.zeros((model.size, 0))
-    history = np.concatenate([pops_during, pops_after], axis=1)
-    final = history[:, -1]
+    @classmethod
+    def check(cls, atom, pulse, initial, cfg=None) -> None:
+        """Also: fields below barrier suppression of the initial state, F_BS = Ip²/(4Z) (Augst et
+        al., PRL 63, 2212 (1989)), where a few-level model means nothing."""
+        super().check(atom, pulse, initial, cfg)
+        if pulse is None:
+            return
+        from driven_atom.atom.levels import energy
 
-    labels = model.labels
-    n = len(model.states)
-    populations = {k: float(v) for k, v in level_populations(dict(zip(model.states, final[:n]))).items()}
-    hist_pops = level_populations(dict(zip(model.states, history[:n])))
-    ionization = float(final[labels.index(IONIZED)]) if IONIZED in labels else 0.0
-    if ELSEWHERE in labels:
-        populations[ELSEWHERE] = float(final[labels.index(ELSEWHERE)])
-        hist_pops[ELSEWHERE] = history[labels.index(ELSEWHERE)]
-    series = {"norm": history.sum(axis=0)}
-    if IONIZED in labels:
-        series["ionization"] = history[labels.index(IONIZED)]
-    stats["wall_s"] = time.perf_counter() - started
-    return Result(route="levels", populations=populations, ionization=ionization,
-                  norm=float(final.sum()), times=times, history_populations=hist_pops, series=series,
-                  stats=stats, warnings=warnings,
-                  metadata={"states": [s.label for s in model.states], "sinks": list(model.sinks),
-                            "rwa": bool(settings.rwa), "transitions": notes,
-                            "t_pulse_end_au": float(t_pulse)})
+        ip = min(-energy(atom, s.n) for s, _ in initial)
+        f_bs = ip**2 / (4 * atom.Z)
+        total = sum(c.peak_field * abs(c.jones).max() for c in pulse.components)
+        if total > f_bs:
+            i = max(range(len(pulse.components)), key=lambda j: pulse.components[j].peak_field)
+            key = "intensity" if cfg is not None and cfg.pulse[i].intensity is not None else "peak_field"
+            raise InputError(f"`pulse.{i}.{key}`: peak field {total:.3g} au is above barrier suppression "
+                             f"({f_bs:.3g} au) of the initial state; a few-level model is meaningless "
+                             f"there (use route \"grid\")")
+
+    def _prepare(self) -> None:
+        s = self.settings
+        pulse = self.pulse
+        components = tuple(pulse.components) if pulse is not None else ()
+        self.model = build_model(self.atom, s.sublevels(), decay=s.decay, ionization_sink=s.ionization_loss)
+        t0 = pulse.t_start if components else 0.0
+        self.t_pulse = pulse.t_end if components else t0
+        if s.t_end is not None:
+            if s.t_end < self.t_pulse:
+                raise InputError(f"`solver.t_end` = {s.t_end:.6g} au is before the end of the pulse "
+                                 f"({self.t_pulse:.6g} au)")
+            t_final = s.t_end
+        else:
+            t_final = self.t_pulse + (s.after if s.after is not None else 0.0)
+        if not t_final > t0:
+            raise InputError("nothing to propagate: give a `[[pulse]]` or `solver.after` > 0")
+        self.t_start, self.t_end = t0, t_final
+        self.rho0, self.ket0 = _initial_density(self.model, self.initial, t0, interaction=s.rwa)
+        self.stats = {"n_sublevels": len(self.model.states), "solver": "closed form"}
+        self.notes = []
+        self.free = _field_free_propagator(self.model)
+        self.solver = None
+        if components:
+            terms, coefficients = coupling(self.atom, pulse, self.model, s)
+            self.warnings += terms.warnings
+            self.notes += terms.notes
+            self.stats["coefficient_samples"] = int(len(coefficients[0]))
+            max_step = s.max_step if s.max_step is not None else min(c.length for c in components) / 10
+            self.solver, self.stats["solver"] = _solver(self.model, terms, s, self.ket0,
+                                                        coefficients=coefficients, max_step=max_step,
+                                                        interaction=s.rwa)
+
+    def _initial(self):
+        import qutip as qt
+
+        n = self.model.size
+        if self.solver is None:
+            return {"p": np.real(np.diag(self.rho0)).copy(), "qobj": None}
+        if self.stats["solver"] == "sesolve":
+            start = qt.Qobj(self.ket0.reshape(-1, 1), dims=[[n], [1]])
+        else:
+            from scipy.sparse import csr_matrix
+
+            start = qt.Qobj(csr_matrix(self.rho0), dims=[[n], [n]])
+        self.solver.start(start, self.t_start)
+        return {"p": None, "qobj": start}
+
+    def _step_pulse(self, state, t_next: float):
+        try:
+            qobj = self.solver.step(t_next)
+        except Exception as exc:  # noqa: BLE001 - qutip's integrator errors are not a shared type
+            raise InputError(f"the ODE solver stopped at t = {t_next:.6g} au: {str(exc).splitlines()[0][:200]} "
+                             f"(raise `solver.nsteps` or loosen `solver.atol`/`solver.rtol`)") from None
+        return {"p": None, "qobj": qobj}
+
+    def _advance(self, state, t: float, t_next: float):
+        if state["p"] is None:                           # still in the pulse window (qutip)
+            if t_next <= self.t_pulse:
+                return self._step_pulse(state, t_next)
+            state = self._step_pulse(state, self.t_pulse)
+            state = {"p": self._populations(state), "qobj": None}
+            t = self.t_pulse
+        return {"p": self.free(t_next - t) @ state["p"], "qobj": None}
+
+    def _populations(self, state) -> np.ndarray:
+        if state["p"] is not None:
+            return state["p"]
+        q = state["qobj"].full()
+        return np.abs(q[:, 0]) ** 2 if q.shape[1] == 1 else np.real(np.diag(q)).copy()
+
+    def _sample(self, state):
+        p = self._populations(state)
+        labels = self.model.labels
+        pops = {s.label: float(p[i]) for i, s in enumerate(self.model.states)}
+        if ELSEWHERE in labels:
+            pops[ELSEWHERE] = float(p[labels.index(ELSEWHERE)])
+        series = {"norm": float(p.sum())}
+        if IONIZED in labels:
+            series["ionization"] = float(p[labels.index(IONIZED)])
+        return pops, series
+
+    def _finish(self, state, history) -> Outcome:
+        p = self._populations(state)
+        labels = self.model.labels
+        populations = {s: float(p[i]) for i, s in enumerate(self.model.states)}
+        if ELSEWHERE in labels:
+            populations[ELSEWHERE] = float(p[labels.index(ELSEWHERE)])
+        ionization = float(p[labels.index(IONIZED)]) if IONIZED in labels else 0.0
+        return Outcome(populations=populations, ionization=ionization, norm=float(p.sum()),
+                       stats=dict(self.stats),
+                       metadata={"states": [s.label for s in self.model.states], "sinks": list(self.model.sinks),
+                                 "rwa": bool(self.settings.rwa), "transitions": self.notes,
+                                 "t_pulse_end_au": float(self.t_pulse)})

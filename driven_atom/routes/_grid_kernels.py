@@ -27,7 +27,7 @@ writes yᵢ into a scratch row and copies it (:func:`_forward_inplace`). The bac
 substitutes and, row by row while the row is in cache, applies the closing rotations of this step
 (B then A), the edge mask, the per-step observables and the opening rotations of the next step
 (A then B). The rotation angle is linear in r, so the rotors cos θ + i sin θ follow a
-complex-multiply recurrence along r, re-seeded exactly every ``RESEED`` rows. No kernel allocates; :mod:`driven_atom.engines.grid` validates, allocates and converts layouts.
+complex-multiply recurrence along r, re-seeded exactly every ``RESEED`` rows. No kernel allocates; :mod:`driven_atom.routes.grid` validates, allocates and converts layouts.
 """
 from __future__ import annotations
 

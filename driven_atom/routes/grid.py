@@ -17,7 +17,7 @@ the wave function is multiplied by the mask cos^(p·dt/Δt_ref)(π/2·(r − r_a
 Observables (all in atomic units):
 
 * populations: |⟨φ_nl|u_l⟩|² with φ_nl the grid's own field-free eigenvectors (E < 0), labelled
-  "1s", "1s0", ... for n ≤ ``n_max`` (m = 0, so the level and its m = 0 sublevel agree);
+  "1s", "1s0", ... for n ≤ ``label_n_max`` (m = 0, so the level and its m = 0 sublevel agree);
 * ``ionization`` = 1 − Σ over *all* bound (E < 0) grid eigenstates of every l ≤ l_max: the norm
   removed by the absorber counts as ionised, and so does unbound norm still on the grid;
 * series (at the history times): ``norm``, ``ionization``, ``dipole_z`` = ⟨z⟩ and
@@ -27,90 +27,32 @@ Observables (all in atomic units):
 * optionally (``photoelectron = true``) spectra["photoelectron"] = {"energy", "dP_dE"} of the final
   state by the window operator (:func:`window_spectrum`).
 
-Defaults derived from the pulse (documented on :class:`Settings` and returned by
+Defaults derived from the pulse (documented on :class:`driven_atom.settings.GridSettings` and returned by
 :func:`grid_parameters`): quiver radius α₀ = F/(μω²), Uₚ = F²/(4μω²), highest expected electron
 energy E_max = max(10 Uₚ, 3ω, I_p) and its momentum k_max = √(2μE_max).
 
-Checkpoints: at deterministic step boundaries (history samples and multiples of 256 steps) the state,
-step index and sampled histories go into the run's file whenever ``checkpoint_every`` (steps or
-wall time) has passed; where checkpoints fall never changes the arithmetic, so a resumed run
-ends with arrays bit for bit equal to an uninterrupted one.
+Checkpoints (owned by :class:`driven_atom.routes.base.Route`): at deterministic step boundaries
+(history samples and multiples of 256 steps) the state, step index and sampled histories go into
+the run's checkpoint file whenever ``checkpoint_every`` (steps or wall time) has passed, and at a
+stop signal; where checkpoints fall never changes the arithmetic, so a resumed run ends with
+arrays bit for bit equal to an uninterrupted one.
 """
 from __future__ import annotations
 
 import math
-import time
 from dataclasses import dataclass
-from typing import Literal, Union
 
 import numpy as np
-from pydantic import BaseModel, ConfigDict, Field, field_validator
 
+from driven_atom.atom.states import State
 from driven_atom.errors import InputError
+from driven_atom.routes.base import Outcome, Route
+from driven_atom.settings import GridSettings
 
-Quantity = Union[float, str]
 L_FACTOR = 1.6                # default l_max: this many times the returning angular momentum
 MASK_DT_REF = 0.05          # a.u. time: the mask exponent p is per this much time
-CHUNK_MAX = 256             # longest kernel call in steps (granularity of checkpoints and progress)
+CHUNK_MAX = 256             # longest kernel call in steps (granularity of checkpoints and stop signals)
 SMALL_GRID = 600            # below this many points the bound states come from the dense solver
-
-
-class Settings(BaseModel):
-    """``[solver]`` keys of the grid route. Unset grid keys are derived from the pulse (see
-    :func:`grid_parameters`); quantities are strings with units or plain atomic units.
-
-    >>> Settings(route="grid", dr="0.1 au", l_max=6).absorber
-    'mask'
-    """
-
-    model_config = ConfigDict(extra="forbid", frozen=True)
-
-    route: Literal["grid"] = Field("grid", description="propagation route")
-    r_max: Quantity | None = Field(None, description="radial box size (bohr); default: room for the "
-                                   "initial state (40 n²/(Zμ)), 3 quiver radii + 20 bohr and, for a static field F, "
-                                   "the tunnel exit I_p/F twice + 40 bohr; plus the absorber")
-    dr: Quantity | None = Field(None, description="grid spacing (bohr); default min(0.1/Z, 0.5/k_max), "
-                                "which puts the grid 1s energy within 1e-5 of −Z²μ/2")
-    l_max: int | None = Field(None, ge=1, le=2000, description="highest partial wave; default "
-                              "max(8, l₀ + 6, ⌈1.6·α₀·√(6.34 μ Uₚ)⌉): the angular momentum of a "
-                              "returning electron (3.17 Uₚ) at the quiver radius")
-    dt: Quantity | None = Field(None, description="largest time step (a.u. time); default "
-                                "min(0.05, 0.1/E_max, T/400); the step used divides the pulse window evenly")
-    absorber: Literal["mask", "none"] = Field("mask", description="edge absorber: cos^p mask or none")
-    absorber_width: Quantity | None = Field(None, description="width of the mask at the outer edge (bohr); "
-                                            "default max(20 bohr, 20 % of the inner region) (at most half a given r_max)")
-    mask_power: float = Field(0.125, gt=0, le=2, description="exponent p of the cos^p mask per "
-                              "0.05 au of time (each step applies cos^(p·dt/0.05): dt-independent absorption)")
-    gauge: str = Field("length", description="interaction gauge; only \"length\" is implemented")
-    n_max: int = Field(4, ge=1, le=30, description="label populations of bound states with n <= n_max")
-    checkpoint_every: int | str = Field("60 s", description="checkpoint interval: an integer number of "
-                                        "steps, or wall-clock time with units (\"60 s\", \"10 min\")")
-    photoelectron: bool = Field(False, description="photoelectron spectrum of the final state by the "
-                                "window operator (Schafer & Kulander 1990); meaningful when the "
-                                "electrons are still inside the box (absorbed ones are missing)")
-    photoelectron_e_max: Quantity | None = Field(None, description="highest photoelectron energy "
-                                                 "(hartree); default E_max of the grid defaults")
-    photoelectron_points: int = Field(200, ge=2, le=100_000, description="number of energies; the "
-                                      "window half-width is half their spacing")
-    threads: int = Field(1, ge=1, le=256, description="threads for the step (1: the fused single-core "
-                         "kernel; more: the unfused parallel kernel, which pays little: the step is "
-                         "bandwidth-bound, run jobs side by side instead)")
-
-    @field_validator("gauge")
-    @classmethod
-    def _length_only(cls, value):
-        if value != "length":
-            raise ValueError(f"`solver.gauge` = {value!r} is not implemented by the grid route; "
-                             f"use \"length\"")
-        return value
-
-    @field_validator("checkpoint_every")
-    @classmethod
-    def _positive_interval(cls, value):
-        if isinstance(value, int) and value < 1:
-            raise ValueError(f"`solver.checkpoint_every` must be >= 1 step or a time like \"60 s\", "
-                             f"got {value!r}")
-        return value
 
 
 @dataclass(frozen=True)
@@ -140,38 +82,32 @@ def _pulse_scales(atom, pulse) -> tuple[float, float, float, float]:
     return f / (mu * w**2), f**2 / (4 * mu * w**2), max(c.omega for c in osc), static
 
 
-def grid_parameters(atom, pulse, settings: Settings, n_initial: int = 1,
+def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
                     l_initial: int = 0) -> GridParameters:
     """Grid, partial waves and step of a run: the user's values, else defaults from the pulse.
 
     >>> from driven_atom.atom import Atom
     >>> from driven_atom.pulse import Pulse
     >>> p = Pulse({"wavelength": "800 nm", "intensity": "1e14 W/cm^2", "cycles": 4})
-    >>> g = grid_parameters(Atom(1), p, Settings())
+    >>> g = grid_parameters(Atom(1), p, GridSettings())
     >>> round(g.quiver_radius, 1), g.dr, g.l_max
     (16.5, 0.1, 32)
     """
-    from driven_atom.units import to_au
-
     mu, Z = atom.reduced_mass, atom.Z
     alpha0, up, w_max, f_static = _pulse_scales(atom, pulse)
     ip = Z**2 * mu / (2 * n_initial**2)
     e_max = max(10 * up, 3 * w_max, ip)
     k_max = math.sqrt(2 * mu * e_max)
-    dr = to_au(settings.dr, "length", name="solver.dr") if settings.dr is not None \
-        else min(0.1 / Z, 0.5 / k_max)
-    if not dr > 0:
-        raise InputError(f"`solver.dr` must be > 0 bohr, got {settings.dr!r}")
+    dr = settings.dr if settings.dr is not None else min(0.1 / Z, 0.5 / k_max)
     if settings.r_max is not None:
-        r_max = to_au(settings.r_max, "length", name="solver.r_max")
-        width = (to_au(settings.absorber_width, "length", name="solver.absorber_width")
-                 if settings.absorber_width is not None else min(max(20.0, 0.2 * r_max), 0.5 * r_max))
+        r_max = settings.r_max
+        width = (settings.absorber_width if settings.absorber_width is not None
+                 else min(max(20.0, 0.2 * r_max), 0.5 * r_max))
     else:
         inner = max(40.0 * n_initial**2 / (Z * mu), 3 * alpha0 + 20.0)
         if f_static > 0:
             inner = max(inner, 2 * ip / f_static + 40.0)    # beyond the tunnel exit I_p/F
-        width = (to_au(settings.absorber_width, "length", name="solver.absorber_width")
-                 if settings.absorber_width is not None else max(20.0, 0.2 * inner))
+        width = settings.absorber_width if settings.absorber_width is not None else max(20.0, 0.2 * inner)
         r_max = inner + width
     if settings.absorber == "none":
         width = 0.0
@@ -184,9 +120,7 @@ def grid_parameters(atom, pulse, settings: Settings, n_initial: int = 1,
         l_max = max(8, l_initial + 6, math.ceil(L_FACTOR * alpha0 * math.sqrt(6.34 * mu * up)))
     window = pulse.t_end - pulse.t_start
     if settings.dt is not None:
-        dt_max = to_au(settings.dt, "time", name="solver.dt")
-        if not dt_max > 0:
-            raise InputError(f"`solver.dt` must be > 0, got {settings.dt!r}")
+        dt_max = settings.dt
     else:
         dt_max = min(0.05, 0.1 / e_max, (2 * math.pi / w_max) / 400 if w_max > 0 else math.inf)
     n_steps = max(1, math.ceil(window / dt_max - 1e-9))
@@ -337,7 +271,7 @@ class _Stepper:
 
     def __init__(self, grid, atom, n_l: int, dt: float, mask, threads: int):
         from driven_atom.basis.radial_grid import numerov_operators
-        from driven_atom.engines import kernels
+        from driven_atom.routes import _grid_kernels as kernels
 
         self.kernels = kernels
         n = grid.n_points
@@ -427,15 +361,6 @@ class _Stepper:
             self.kernels.reduce_partial(partial, out)
 
 
-def _chunk_ends(n_steps: int, every: int, ckpt_steps: int | None) -> list[int]:
-    """Deterministic step indices where a kernel call ends (samples, checkpoints, CHUNK_MAX)."""
-    ends = set(range(every, n_steps + 1, every)) | set(range(CHUNK_MAX, n_steps + 1, CHUNK_MAX))
-    if ckpt_steps:
-        ends |= set(range(ckpt_steps, n_steps + 1, ckpt_steps))
-    ends.add(n_steps)
-    return sorted(ends)
-
-
 def _initial_psi(initial, bound, n, n_l) -> np.ndarray:
     psi = np.zeros((n, n_l), complex)
     for state, amp in initial:
@@ -453,168 +378,134 @@ def _initial_psi(initial, bound, n, n_l) -> np.ndarray:
     return psi
 
 
-def propagate(atom, pulse, settings: Settings, *, initial, output, progress=False, checkpoint=None):
-    """Propagate ``initial`` [(State, amplitude)] through ``pulse`` on the radial grid.
+class GridRoute(Route):
+    """Split-operator propagation on the radial grid (see the module docstring).
 
-    Returns a :class:`driven_atom.result.Result` (route "grid"); see the module docstring for what it
-    holds. ``checkpoint`` (a :class:`driven_atom.result.Checkpoint`) is loaded at the start and saved
-    every ``settings.checkpoint_every``. BLAS runs single-threaded throughout, so a run resumed
-    under other thread settings stores the same bits as an uninterrupted one.
+    Sample and slice times are whole multiples of the time step (``time_quantum``); a slice is at
+    most :data:`CHUNK_MAX` steps (one kernel call). BLAS runs single-threaded throughout, so a run
+    resumed under other thread settings stores the same bits as an uninterrupted one.
     """
-    from driven_atom.basis.radial_grid import reproducible_blas
 
-    with reproducible_blas():
-        return _propagate(atom, pulse, settings, initial=initial, output=output, progress=progress,
-                          checkpoint=checkpoint)
+    name = "grid"
+    Settings = GridSettings
+    spectra = ("harmonic", "dipole_response", "photoelectron")
+    counts_steps = True
 
+    @classmethod
+    def check(cls, atom, pulse, initial, cfg=None) -> None:
+        super().check(atom, pulse, initial, cfg)
+        for state, _ in initial:
+            if state.m not in (None, 0):
+                raise InputError(f"`atom.initial` {state.label!r}: the grid route is for linear "
+                                 f"polarisation along z and needs m = 0 states")
 
-def _propagate(atom, pulse, settings, *, initial, output, progress, checkpoint):
-    from driven_atom.basis.radial_grid import uniform_grid
-    from driven_atom.observables.harmonics import ehrenfest_acceleration, harmonic_spectrum
-    from driven_atom.observables.populations import level_populations
-    from driven_atom.atom.states import State, parse_state
-    from driven_atom.result import Result
-    from driven_atom.units import AU_TIME_S, to_au
+    def run(self, *, checkpoint=None, progress: bool = False):
+        from driven_atom.basis.radial_grid import reproducible_blas
 
-    started = time.perf_counter()
-    if not pulse.is_linear_z:
-        raise InputError("`pulse.polarization` must be \"z\" for every pulse on the grid route "
-                         "(linear polarisation, m = 0)")
-    n0 = max(s.n for s, _ in initial)
-    l0 = max(s.l for s, _ in initial)
-    par = grid_parameters(atom, pulse, settings, n_initial=n0, l_initial=l0)
-    grid = uniform_grid(par.r_max, par.dr)
-    n, n_l = grid.n_points, par.l_max + 1
-    r = grid.r
-    mask = mask_profile(r, grid.r_max, par.absorber_width, settings.mask_power * par.dt / MASK_DT_REF)
+        with reproducible_blas():
+            return super().run(checkpoint=checkpoint, progress=progress)
 
-    bound = [bound_states(grid, l, atom) for l in range(n_l)]
-    n_l_bound = max((l + 1 for l in range(n_l) if bound[l][0].size), default=0)
-    labelled = [(l, j) for l in range(n_l) for j in range(bound[l][0].size)
-                if j + l + 1 <= settings.n_max]
-    psi = _initial_psi(initial, bound, n, n_l)
-    norm0 = float(np.sum(abs(psi) ** 2))
-    psi /= math.sqrt(norm0)
+    def _prepare(self) -> None:
+        from driven_atom.basis.radial_grid import uniform_grid
 
-    dt, n_steps = par.dt, par.n_steps
-    t0 = pulse.t_start
-    every_t = output.every_au if output.every is not None else max(dt, (pulse.t_end - t0) / 500)
-    every = max(1, min(n_steps, round(every_t / dt)))
-    ckpt_steps = settings.checkpoint_every if isinstance(settings.checkpoint_every, int) else None
-    ckpt_wall = (None if ckpt_steps else
-                 to_au(settings.checkpoint_every, "time", name="solver.checkpoint_every") * AU_TIME_S)
-    ends = _chunk_ends(n_steps, every, ckpt_steps)
-    sample_steps = np.arange(0, n_steps + 1, every)
-    if sample_steps[-1] != n_steps:
-        sample_steps = np.append(sample_steps, n_steps)
-    times = t0 + dt * sample_steps
-    step_times = t0 + dt * np.arange(1, n_steps + 1)
-    fields_mid = pulse.field_z(t0 + dt * (np.arange(n_steps) + 0.5))
+        atom, pulse, s = self.atom, self.pulse, self.settings
+        n0 = max(st.n for st, _ in self.initial)
+        l0 = max(st.l for st, _ in self.initial)
+        self.par = par = grid_parameters(atom, pulse, s, n_initial=n0, l_initial=l0)
+        self.grid = grid = uniform_grid(par.r_max, par.dr)
+        n, n_l = grid.n_points, par.l_max + 1
+        self.n_l = n_l
+        mask = mask_profile(grid.r, grid.r_max, par.absorber_width, s.mask_power * par.dt / MASK_DT_REF)
+        self.bound = [bound_states(grid, l, atom) for l in range(n_l)]
+        self.n_l_bound = max((l + 1 for l in range(n_l) if self.bound[l][0].size), default=0)
+        self.labelled = [(l, j) for l in range(n_l) for j in range(self.bound[l][0].size)
+                         if j + l + 1 <= s.label_n_max]
+        self.t_start = t0 = pulse.t_start
+        self.t_end = t0 + par.dt * par.n_steps
+        self.time_quantum = par.dt
+        self.max_slice = CHUNK_MAX * par.dt
+        self.fields_mid = pulse.field_z(t0 + par.dt * (np.arange(par.n_steps) + 0.5))
+        self.per_step = np.zeros((par.n_steps, 3))
+        self.stepper = _Stepper(grid, atom, n_l, par.dt, mask, s.threads)
 
-    per_step = np.zeros((n_steps, 3))
-    hist_pop = np.zeros((sample_steps.size, len(labelled)))
-    hist_bound = np.zeros(sample_steps.size)
-    hist_obs = np.zeros((sample_steps.size, 3))
-    step, sample = 0, 0
-    meta_expect = {"n_points": n, "n_l": n_l, "n_steps": n_steps, "every": every}
-    resumed = False
-    if checkpoint is not None:
-        loaded = checkpoint.load()
-        if loaded is not None:
-            arrays, meta = loaded
-            if all(meta.get(k) == v for k, v in meta_expect.items()) and arrays["psi"].shape == psi.shape:
-                psi = np.ascontiguousarray(arrays["psi"])
-                per_step, hist_pop = arrays["per_step"], arrays["hist_pop"]
-                hist_bound, hist_obs = arrays["hist_bound"], arrays["hist_obs"]
-                step, sample = int(meta["step"]), int(meta["sample"])
-                resumed = True
+    def _step_index(self, t: float) -> int:
+        return int(round((t - self.t_start) / self.par.dt))
 
-    stepper = _Stepper(grid, atom, n_l, dt, mask, settings.threads)
-    stepper.set_state(psi)
+    def _initial(self):
+        psi = _initial_psi(self.initial, self.bound, self.grid.n_points, self.n_l)
+        psi /= math.sqrt(float(np.sum(abs(psi) ** 2)))
+        self.stepper.set_state(psi)
+        return {"step": 0}
 
-    def measure(k):
-        total = 0.0
-        for l in range(n_l_bound):
-            amps = bound[l][1].T @ stepper.column(l)
+    def _advance(self, state, t, t_next):
+        i0, i1 = self._step_index(t), self._step_index(t_next)
+        self.stepper.run(self.fields_mid[i0:i1], self.per_step[i0:i1])
+        return {"step": i1}
+
+    def steps_done(self, state) -> int:
+        return state["step"]
+
+    def _sample(self, state):
+        pops, total = {}, 0.0
+        for l in range(self.n_l_bound):
+            amps = self.bound[l][1].T @ self.stepper.column(l)
             total += float(np.sum(abs(amps) ** 2))
-            for idx, (ll, j) in enumerate(labelled):
+            for ll, j in self.labelled:
                 if ll == l:
-                    hist_pop[k, idx] = abs(amps[j]) ** 2
-        hist_bound[k] = total
+                    pops[State(l + j + 1, l, 0).label] = float(abs(amps[j]) ** 2)
+        k = state["step"]
+        obs = (_observables(self.stepper.state(), self.grid.r, coupling_coefficients(self.par.l_max))
+               if k == 0 else self.per_step[k - 1])
+        return pops, {"norm": float(obs[0]), "ionization": 1.0 - total, "dipole_z": float(obs[1]),
+                      "_cos_r2": float(obs[2])}
 
-    if not resumed:
-        measure(0)
-        hist_obs[0] = _observables(psi, r, coupling_coefficients(par.l_max))
-        sample = 1
-    bar = _progress_bar(n_steps, step, progress)
-    last_save = time.perf_counter()
-    for end in ends:
-        if end <= step:
-            continue
-        stepper.run(fields_mid[step:end], per_step[step:end])
-        if bar is not None:
-            bar.update(end - step)
-        step = end
-        if sample < sample_steps.size and step == sample_steps[sample]:
-            measure(sample)
-            hist_obs[sample] = per_step[step - 1]
-            sample += 1
-        due = (ckpt_steps is not None and step % ckpt_steps == 0) or \
-              (ckpt_wall is not None and time.perf_counter() - last_save >= ckpt_wall)
-        if checkpoint is not None and due and step < n_steps:
-            checkpoint.save({"psi": stepper.state(), "per_step": per_step, "hist_pop": hist_pop,
-                             "hist_bound": hist_bound, "hist_obs": hist_obs},
-                            dict(meta_expect, step=step, sample=sample))
-            last_save = time.perf_counter()
-    if bar is not None:
-        bar.close()
+    def _save(self, state):
+        return {"psi": self.stepper.state(), "per_step": self.per_step}, {"step": state["step"]}
 
-    mu = atom.reduced_mass
-    acc_steps = ehrenfest_acceleration(per_step[:, 2], pulse.field_z(step_times), per_step[:, 0],
-                                       atom.Z, mu)
-    acc_samples = ehrenfest_acceleration(hist_obs[:, 2], pulse.field_z(times), hist_obs[:, 0], atom.Z, mu)
-    omega, power = harmonic_spectrum(step_times, acc_steps)
-    final_pop = {State(l + j + 1, l, 0): float(hist_pop[-1, idx]) for idx, (l, j) in enumerate(labelled)}
-    history = {State(l + j + 1, l, 0): hist_pop[:, idx] for idx, (l, j) in enumerate(labelled)}
-    history = {k: v for k, v in level_populations(history).items() if parse_state(k).m is None}
-    norm = float(hist_obs[-1, 0])
-    spectra = {"harmonic": {"omega": omega, "power": power},
-               "dipole_response": {"time": step_times, "dipole_z": per_step[:, 1],
-                                   "acceleration_z": acc_steps}}
-    if settings.photoelectron:
-        e_top = (to_au(settings.photoelectron_e_max, "energy", name="solver.photoelectron_e_max")
-                 if settings.photoelectron_e_max is not None else par.e_max)
-        energies = np.linspace(0.0, e_top, settings.photoelectron_points + 1)[1:]
-        spectra["photoelectron"] = {
-            "energy": energies,
-            "dP_dE": window_spectrum(grid, atom, stepper.state(), energies, 0.5 * energies[0])}
-    warnings = []
-    if par.absorber_width == 0 and 1 - hist_bound[-1] > 1e-3:
-        warnings.append("no absorber: ionised norm reflects from r_max")
-    stats = {"steps": n_steps, "dt": dt, "r_max": grid.r_max, "dr": grid.dr, "l_max": par.l_max,
-             "n_points": n, "absorber": settings.absorber, "absorber_width": par.absorber_width,
-             "quiver_radius": par.quiver_radius, "e_max": par.e_max, "absorbed": 1.0 - norm,
-             "threads": settings.threads, "resumed": resumed,
-             "bound_states": int(sum(b[0].size for b in bound)),
-             "ground_energy": float(bound[0][0][0]) if bound[0][0].size else float("nan"),
-             "wall_s": time.perf_counter() - started}
-    return Result(route="grid", populations=level_populations(final_pop),
-                  ionization=float(1.0 - hist_bound[-1]), norm=norm, times=times,
-                  history_populations=history,
-                  series={"norm": hist_obs[:, 0], "ionization": 1.0 - hist_bound,
-                          "dipole_z": hist_obs[:, 1], "acceleration_z": acc_samples},
-                  spectra=spectra, stats=stats, warnings=warnings)
+    def _load(self, arrays, meta):
+        psi = np.ascontiguousarray(arrays["psi"])
+        if psi.shape != (self.grid.n_points, self.n_l) or arrays["per_step"].shape != self.per_step.shape:
+            raise ValueError("checkpoint of another grid")
+        self.stepper.set_state(psi)
+        self.per_step[:] = arrays["per_step"]
+        return {"step": int(meta["step"])}
+
+    def _finish(self, state, history) -> Outcome:
+        from driven_atom.observables.harmonics import ehrenfest_acceleration, harmonic_spectrum
+
+        atom, pulse, par, s = self.atom, self.pulse, self.par, self.settings
+        dt, n_steps, mu = par.dt, par.n_steps, atom.reduced_mass
+        step_times = self.t_start + dt * np.arange(1, n_steps + 1)
+        per_step = self.per_step
+        acc_steps = ehrenfest_acceleration(per_step[:, 2], pulse.field_z(step_times), per_step[:, 0], atom.Z, mu)
+        acc_samples = ehrenfest_acceleration(history.series["_cos_r2"], pulse.field_z(history.times),
+                                             history.series["norm"], atom.Z, mu)
+        omega, power = harmonic_spectrum(step_times, acc_steps)
+        spectra = {"harmonic": {"omega": omega, "power": power},
+                   "dipole_response": {"time": step_times, "dipole_z": per_step[:, 1],
+                                       "acceleration_z": acc_steps}}
+        if s.photoelectron:
+            e_top = s.photoelectron_e_max if s.photoelectron_e_max is not None else par.e_max
+            energies = np.linspace(0.0, e_top, s.photoelectron_points + 1)[1:]
+            spectra["photoelectron"] = {
+                "energy": energies,
+                "dP_dE": window_spectrum(self.grid, atom, self.stepper.state(), energies, 0.5 * energies[0])}
+        bound_left = 1.0 - float(history.series["ionization"][-1])
+        norm = float(history.series["norm"][-1])
+        warnings = []
+        if par.absorber_width == 0 and bound_left < 1 - 1e-3:
+            warnings.append("no absorber: ionised norm reflects from r_max")
+        stats = {"steps": n_steps, "dt": dt, "r_max": self.grid.r_max, "dr": self.grid.dr, "l_max": par.l_max,
+                 "n_points": self.grid.n_points, "absorber": s.absorber, "absorber_width": par.absorber_width,
+                 "quiver_radius": par.quiver_radius, "e_max": par.e_max, "absorbed": 1.0 - norm,
+                 "threads": s.threads, "bound_states": int(sum(b[0].size for b in self.bound)),
+                 "ground_energy": float(self.bound[0][0][0]) if self.bound[0][0].size else float("nan")}
+        return Outcome(populations=history.last("populations"), ionization=1.0 - bound_left, norm=norm,
+                       spectra=spectra, stats=stats, warnings=warnings,
+                       series={"acceleration_z": acc_samples})
 
 
 def _observables(psi, r, c) -> np.ndarray:
     """(norm, ⟨z⟩, ⟨cosθ/r²⟩) of ψ[r, l] (the kernels' per-step quantities, for the first sample)."""
     ang = 2 * np.sum(c[None, :-1] * (psi[:, :-1].conj() * psi[:, 1:]).real, axis=1)
     return np.array([np.sum(abs(psi) ** 2), np.sum(r * ang), np.sum(ang / r**2)])
-
-
-def _progress_bar(total, done, enabled):
-    if not enabled:
-        return None
-    from tqdm import tqdm
-
-    return tqdm(total=total, initial=done, unit="step", desc="grid", leave=False, mininterval=0.5)

@@ -8,7 +8,7 @@ returns a dict of plain floats in the units their keys name:
 * peak quantities of the strongest pulse: intensity, field, Keldysh γ, barrier-suppression
   intensity I_BS = Iₚ⁴/(16 Z²) (a.u.; Augst et al., PRL 63, 2212 (1989));
 * ``ionization``: the single-atom probability at the peak intensity by the model the regime
-  allows (:mod:`driven_atom.estimate.rates`): one photon above threshold → first-order golden rule,
+  allows (:mod:`driven_atom.lab.rates`): one photon above threshold → first-order golden rule,
   saturated; below it → the cycle-averaged PPT rate along the envelope (tunnelling for γ < 1,
   multiphoton for γ > 1); a static field → the ADK rate; ``saturation_intensity_Wcm2`` where the
   exponent reaches 1 (P = 1 − 1/e);
@@ -17,7 +17,7 @@ returns a dict of plain floats in the units their keys name:
 * with a focus (``waist`` = 1/e² intensity radius w₀, ``m2``): Rayleigh length and the pulse energy
   that the intensity needs; with a gas density (or pressure and temperature, n = p/(k_B T)) and
   an interaction ``length`` along the beam: ions and excited atoms per shot, averaged over the
-  focus (:mod:`driven_atom.estimate.focus`).
+  focus (:mod:`driven_atom.lab.focus`).
 
 Each result says which model it used in ``notes``; ``driven-atom run`` gives the full answer. The
 numbers are estimates, not a laser-safety assessment (the CLI prints the caution).
@@ -35,7 +35,7 @@ import math
 import numpy as np
 
 from driven_atom.errors import InputError
-from driven_atom.estimate.rates import RESONANCE_WIDTHS, spectral_width
+from driven_atom.lab.rates import RESONANCE_WIDTHS, spectral_width
 
 N_UPPER_MAX = 12            # upper levels searched for the nearest resonance
 SATURATION_SEARCH = 1e8     # saturation intensities are searched up to this many times the peak
@@ -102,7 +102,7 @@ def _nearest_transition(atom, pulse, state):
 
 def _static_estimate(atom, pulse, state, ip: float, focus_given: bool) -> dict:
     """A DC field only: ADK tunnelling over the ramp and plateau; no intensity, focus or resonance."""
-    from driven_atom.estimate.rates import ionization_exponent
+    from driven_atom.lab.rates import ionization_exponent
     from driven_atom.units import HARTREE_EV
 
     exponent = float(ionization_exponent(pulse, ip, atom.Z, state.l, state.m)(1.0))
@@ -148,7 +148,7 @@ def _saturation_scale(exponent) -> float:
 
 def _ionization_model(atom, pulse, state, ip: float, keldysh: float, lasers) -> tuple[str, object, list]:
     """(regime, s ↦ ∫w dt, notes): one photon above threshold → golden rule; otherwise PPT."""
-    from driven_atom.estimate.rates import ionization_exponent
+    from driven_atom.lab.rates import ionization_exponent
     from driven_atom.observables.perturbation import first_order_ionization
 
     if max(c.omega for c in lasers) >= ip:
@@ -168,7 +168,7 @@ def _ionization_model(atom, pulse, state, ip: float, keldysh: float, lasers) -> 
 def _excitation_model(atom, pulse, state, i0: float) -> tuple[dict | None, object, list]:
     """(summary, s ↦ P_exc, notes) for the nearest resonance, or (None, None, notes)."""
     from driven_atom.atom.dipoles import lifetime
-    from driven_atom.estimate.rates import excitation_first_order
+    from driven_atom.lab.rates import excitation_first_order
     from driven_atom.units import AU_INTENSITY_WCM2, AU_TIME_S, HARTREE_EV
 
     near = _nearest_transition(atom, pulse, state)
@@ -200,12 +200,14 @@ def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None
              length=None) -> dict:
     """Quick single-atom and focal-volume estimates for the run ``config`` (module docstring)."""
     from driven_atom.atom import State
-    from driven_atom.campaign.config import load_config
-    from driven_atom.estimate.focus import focal_count, pulse_energy, rayleigh_length
+    from driven_atom.pulse import build_pulse
+    from driven_atom.routes import load_config
+    from driven_atom.lab.focus import focal_count, pulse_energy, rayleigh_length
     from driven_atom.units import AU_FLUENCE_JCM2, AU_INTENSITY_WCM2, BOHR_M, C_AU, HARTREE_EV
 
     cfg = load_config(config)
-    atom, pulse, initial = cfg.build_atom(), cfg.build_pulse(), cfg.initial_states()
+    atom, initial = cfg.build_atom(), cfg.initial_states()
+    pulse = build_pulse(cfg, atom)
     if pulse is None:
         raise InputError("`pulse`: an estimate needs a [[pulse]] table")
     if len(initial) != 1:

@@ -1,0 +1,134 @@
+"""The propagation routes: one registry (like scipy's ``METHODS``), and one way to run a config.
+
+``ROUTES`` maps a route name to its class (``"module:Class"``, imported when first used, so light
+commands never import numba or qutip). Each class subclasses :class:`~driven_atom.routes.base.Route`;
+its ``[solver]`` model sits in :data:`driven_atom.settings.SETTINGS` under the same name. A new
+route is one module, one settings model and one line in each registry.
+
+* :func:`load_config` — read a config and check everything that needs the physics objects: the
+  pulse builds from its keys, the route can treat the light and the initial state (this is the
+  package's ``driven_atom.load_config``);
+* :func:`build_route` — the route object of a config;
+* :func:`run_config` — run a config into a result file (resuming from its checkpoint file, which is
+  removed once the result is written); used by the API and by every campaign job.
+"""
+from __future__ import annotations
+
+import importlib
+from pathlib import Path
+
+from driven_atom.config import HASH_VERSION, RunConfig, read_config
+from driven_atom.errors import InputError
+from driven_atom.settings import SETTINGS
+
+ROUTES = {
+    "levels": "driven_atom.routes.levels:LevelsRoute",
+    "basis": "driven_atom.routes.basis:BasisRoute",
+    "grid": "driven_atom.routes.grid:GridRoute",
+}
+
+
+def route_class(name: str):
+    """The class of route ``name`` (InputError naming ``solver.route`` if there is none)."""
+    if name not in ROUTES:
+        raise InputError(f"`solver.route` must be one of {', '.join(ROUTES)}, got {name!r}")
+    entry = ROUTES[name]
+    if not isinstance(entry, str):
+        return entry
+    module, _, cls = entry.partition(":")
+    try:
+        return getattr(importlib.import_module(module), cls)
+    except ModuleNotFoundError as exc:
+        if exc.name != module:
+            raise
+        raise InputError(f"`solver.route` = {name!r} is not available in this install") from None
+
+
+def check_config(cfg: RunConfig) -> None:
+    """The checks of a config that need its physics objects (one line naming the key)."""
+    from driven_atom.pulse import build_pulse
+
+    atom = cfg.build_atom()
+    pulse = build_pulse(cfg, atom)
+    route_class(cfg.route).check(atom, pulse, cfg.initial_states(), cfg)
+
+
+def load_config(source) -> RunConfig:
+    """Read a run configuration (TOML path, dict or RunConfig) and check it completely: keys,
+    units, ranges (:func:`driven_atom.config.read_config`), then the pulse and the route.
+
+    >>> cfg = load_config({"atom": {"Z": 1}, "solver": {"route": "grid", "r_maxx": 200},
+    ...                    "pulse": [{"wavelength": "800 nm", "intensity": "1e14 W/cm^2", "cycles": 4}]})
+    Traceback (most recent call last):
+    ...
+    driven_atom.errors.InputError: unknown key `solver.r_maxx` (did you mean `r_max`?)
+    """
+    cfg = read_config(source)
+    check_config(cfg)
+    return cfg
+
+
+def build_route(cfg: RunConfig, *, cache_dir=None):
+    """The route object that will propagate ``cfg`` (nothing is computed yet)."""
+    from driven_atom.pulse import build_pulse
+
+    atom = cfg.build_atom()
+    pulse = build_pulse(cfg, atom)
+    cls = route_class(cfg.route)
+    return cls(atom, pulse, cfg.solver, initial=cfg.initial_states(), output=cfg.output, cache_dir=cache_dir)
+
+
+def propagate(atom, pulse, settings, *, initial, output=None, checkpoint=None, progress: bool = False,
+              cache_dir=None):
+    """Run the route of ``settings`` (a model of :mod:`driven_atom.settings`) on ready-made objects:
+    an :class:`~driven_atom.atom.Atom`, a :class:`~driven_atom.pulse.Pulse` (or None), the initial
+    state as [(State, amplitude)]; no config and no file (a notebook's shortcut to one route).
+
+    >>> from driven_atom.atom import Atom, State
+    >>> from driven_atom.settings import LevelsSettings
+    >>> res = propagate(Atom.from_name("H"), None, LevelsSettings(states=["1s", "2p"], after="1.5962 ns"),
+    ...                 initial=[(State(2, 1, 0), 1.0)])
+    >>> round(res.populations["2p"], 4)
+    0.3679
+    """
+    from driven_atom.config import OutputConfig
+
+    cls = route_class(settings.route)
+    route = cls(atom, pulse, settings, initial=initial, output=output if output is not None else OutputConfig(),
+                cache_dir=cache_dir)
+    return route.run(checkpoint=checkpoint if route.resumable else None, progress=progress)
+
+
+def default_cache_dir(cfg: RunConfig, path: Path):
+    """The basis cache folder of a run writing ``path``: ``.basis-cache`` beside it for "auto"."""
+    setting = getattr(cfg.solver, "cache_dir", None)
+    if setting is None or str(setting).lower() == "none":
+        return None
+    if setting == "auto":
+        return Path(path).parent / ".basis-cache"
+    return Path(setting)
+
+
+def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None):
+    """Propagate ``cfg`` and write its result to ``path``; returns the :class:`Result`.
+
+    A checkpoint of the same physics beside ``path`` (``NAME.ckpt.h5``) is resumed; it is removed
+    once the result is written.
+    """
+    from driven_atom.result import Checkpoint, checkpoint_path, write_result
+
+    path = Path(path)
+    physics_hash = cfg.physics_hash()
+    config_text = cfg.to_toml()
+    route = build_route(cfg, cache_dir=cache_dir if cache_dir is not None else default_cache_dir(cfg, path))
+    checkpoint = Checkpoint(checkpoint_path(path), physics_hash=physics_hash, config=config_text)
+    result = route.run(checkpoint=checkpoint if route.resumable else None, progress=progress)
+    result.config = config_text
+    write_result(path, result, attrs={"physics_hash": physics_hash, "hash_version": HASH_VERSION})
+    checkpoint.clear()
+    result.metadata["file"] = str(path)
+    return result
+
+
+__all__ = ["ROUTES", "SETTINGS", "route_class", "check_config", "load_config", "build_route", "run_config",
+           "propagate"]

@@ -1,0 +1,207 @@
+"""``[solver]`` keys of every route: one frozen pydantic model per route, each key documented once.
+
+The models live here, at the bottom of the house beside the run description, so that the config
+can validate a ``[solver]`` table (and every expanded scan job) without importing a route. A
+route class names its model (``Route.Settings``); :data:`SETTINGS` is the registry the config
+dispatches on (``route = "grid"`` picks :class:`GridSettings`).
+
+One meaning per key across routes:
+
+* ``gauge`` = "length" | "velocity" wherever a route couples the field (``form`` is a deprecated
+  alias on the basis route);
+* ``checkpoint_every`` is a wall-clock time with units ("60 s", "10 min") on every resumable route;
+  a plain whole number counts steps only where the route declares step granularity (grid);
+* the grid's population labels are ``label_n_max`` (``n_max`` truncates the basis route's basis).
+
+Quantities are converted to atomic units when the table is read (:mod:`driven_atom.quantities`);
+keys that change no number of a result (``threads``, ``checkpoint_every``, ``cache_dir``) are
+listed in ``NOT_PHYSICS`` and stay out of job ids.
+
+>>> GridSettings(dr="0.1 au", l_max=6).dr
+0.1
+"""
+from __future__ import annotations
+
+import warnings
+from typing import ClassVar, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+
+from driven_atom.atom.states import parse_state
+from driven_atom.quantities import Cadence, CheckpointCadence, Flag, Integer, Number, Quantity
+
+
+class ConfigWarning(UserWarning):
+    """A config key that still works but should be written differently."""
+
+
+def _renamed(data, old: str, new: str, route: str):
+    """Accept ``old`` for ``new`` with a warning (deprecated alias)."""
+    if isinstance(data, dict) and old in data:
+        if new in data:
+            raise ValueError(f"`solver.{old}` is the old name of `solver.{new}`; give only `{new}`")
+        warnings.warn(f"`solver.{old}` is deprecated on route {route!r}: write `solver.{new}`",
+                      ConfigWarning, stacklevel=2)
+        data = dict(data)
+        data[new] = data.pop(old)
+    return data
+
+
+class RouteSettings(BaseModel):
+    """Common base of the ``[solver]`` models (extra keys refused, values frozen)."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+    NOT_PHYSICS: ClassVar[frozenset] = frozenset()
+
+    route: str
+
+    def physics(self) -> dict:
+        """The keys that shape the numbers (for job ids), in JSON form."""
+        return self.model_dump(mode="json", exclude=set(self.NOT_PHYSICS))
+
+
+class LevelsSettings(RouteSettings):
+    """``[solver]`` of route ``levels``: master equation of chosen hydrogenic sublevels (qutip)."""
+
+    route: Literal["levels"] = Field("levels", description="the few-level master-equation route")
+    states: list[str] = Field(..., min_length=1, description=(
+        'levels or sublevels in the model: "2p" brings all its m-sublevels, "2p0" only that one'))
+    rwa: Flag = Field(True, description=(
+        "rotating-wave approximation: each pulse drives only the transitions nearest its carrier"))
+    decay: Flag = Field(True, description="spontaneous decay with the Einstein A of each m->m' channel")
+    dephasing: Quantity("rate", ge=0) = Field(0.0, description=(
+        'pure dephasing rate of coherences between different energies ("1 GHz" = 1e9 s^-1)'))
+    ionization_loss: Flag = Field(False, description=(
+        "photoionisation loss of every level at the instantaneous intensity, into `ionization`"))
+    after: Quantity("time", ge=0) | None = Field(None, description=(
+        "field-free time after the pulse (closed form); default 0"))
+    t_end: Quantity("time") | None = Field(None, description=(
+        "absolute end time (the pulse window starts at its first foot); instead of `after`"))
+    gauge: Literal["length"] = Field("length", description="interaction E(t)·r (the length gauge; "
+                                     "a few-level model has no other)")
+    atol: Number(gt=0) = Field(1e-12, description="absolute tolerance of the ODE solver (qutip atol)")
+    rtol: Number(gt=0) = Field(1e-10, description="relative tolerance of the ODE solver (qutip rtol)")
+    nsteps: Integer(gt=0, le=10**9) = Field(1_000_000, description="maximum internal ODE steps between samples")
+    method: Literal["adams", "bdf", "lsoda", "dop853", "vern7", "vern9"] = Field(
+        "adams", description="qutip integration method")
+    max_step: Quantity("time", gt=0) | None = Field(None, description=(
+        "largest ODE step (default: a tenth of the shortest pulse)"))
+    sampling_tol: Number(gt=0, lt=1e-2) = Field(1e-7, description=(
+        "accuracy of the cubic-spline samples of the field coefficients, relative to their peak"))
+
+    @field_validator("states")
+    @classmethod
+    def _states(cls, value):
+        seen: dict = {}
+        for label in value:
+            for s in parse_state(label, name="solver.states").sublevels():
+                if s in seen:
+                    raise ValueError(f"`solver.states`: {label!r} repeats sublevel {s.label} (from {seen[s]!r})")
+                seen[s] = label
+        return value
+
+    @model_validator(mode="after")
+    def _one_end(self):
+        if self.after is not None and self.t_end is not None:
+            raise ValueError("`solver.after` and `solver.t_end` exclude each other; give one")
+        return self
+
+    def sublevels(self) -> list:
+        """The model's sublevels in the order of ``states``, each level's m ascending.
+
+        >>> [s.label for s in LevelsSettings(states=["1s", "2p"]).sublevels()]
+        ['1s0', '2p-1', '2p0', '2p1']
+        """
+        return [s for label in self.states for s in parse_state(label).sublevels()]
+
+
+class BasisSettings(RouteSettings):
+    """``[solver]`` of route ``basis``: bound + box-continuum eigenstates, Magnus propagation."""
+
+    NOT_PHYSICS: ClassVar[frozenset] = frozenset({"cache_dir", "checkpoint_every"})
+
+    route: Literal["basis"] = Field("basis", description="this route")
+    r_max: Quantity("length", gt=0) = Field(200.0, description="box radius (bohr); sets the continuum "
+                                            "density of states")
+    dr: Quantity("length", gt=0) = Field(0.08, description="grid spacing (bohr); E_n exact to 1e-5 for "
+                                         "n <= 6 at 0.08")
+    dr_min: Quantity("length", gt=0) | None = Field(None, description="finest spacing at the nucleus "
+                                                    "(bohr): stretches the grid from dr_min to dr "
+                                                    "(default: uniform grid of step dr)")
+    r_stretch: Quantity("length", gt=0) = Field(10.0, description="radius (bohr) of the stretched grid's transition")
+    l_max: Integer(ge=0, le=200) = Field(3, description="highest partial wave")
+    n_max: Integer(ge=1) | None = Field(None, description="highest bound n kept in the basis "
+                                        "(default: all the box holds)")
+    e_max: Quantity("energy", gt=0) = Field(3.0, description="highest continuum energy kept (hartree or with units)")
+    gauge: Literal["length", "velocity"] = Field("length", description="coupling: E·z (length) or "
+                                                 "A·p/μ (velocity); `form` is its old name")
+    tolerance: Number(gt=0, lt=1e-2) = Field(1e-9, description="local error per time step (amplitude norm)")
+    scheme: Literal["cf6", "cf4"] = Field("cf6", description="commutator-free Magnus scheme: order 6 "
+                                          "(five exponentials) or order 4 (two)")
+    max_step: Quantity("time", gt=0) | None = Field(None, description="largest time step (default: none)")
+    warn_population: Number(gt=0, le=1) = Field(1e-4, description="warn when the population in "
+                                                 "l = l_max or near e_max exceeds this")
+    cache_dir: str | None = Field("auto", description="folder for the basis cache: \"auto\" = "
+                                  "`.basis-cache` beside the result file, \"none\" = no disk cache; "
+                                  "another folder only from the command line or the Python API")
+    spectrum_points: Integer(ge=10, le=100_000) = Field(400, description="energies in the photoelectron spectrum")
+    checkpoint_every: CheckpointCadence(steps_allowed=False) = Field(
+        Cadence(seconds=60.0), description="wall-clock time between checkpoints (\"60 s\", \"10 min\")")
+
+    @model_validator(mode="before")
+    @classmethod
+    def _old_names(cls, data):
+        return _renamed(data, "form", "gauge", "basis")
+
+
+class GridSettings(RouteSettings):
+    """``[solver]`` of route ``grid``: split-operator propagation of partial waves on a radial grid.
+    Unset grid keys are derived from the pulse (see ``driven_atom.routes.grid.grid_parameters``)."""
+
+    NOT_PHYSICS: ClassVar[frozenset] = frozenset({"threads", "checkpoint_every"})
+
+    route: Literal["grid"] = Field("grid", description="propagation route")
+    r_max: Quantity("length", gt=0) | None = Field(None, description=(
+        "radial box size (bohr); default: room for the initial state (40 n²/(Zμ)), 3 quiver radii + "
+        "20 bohr and, for a static field F, the tunnel exit I_p/F twice + 40 bohr; plus the absorber"))
+    dr: Quantity("length", gt=0) | None = Field(None, description=(
+        "grid spacing (bohr); default min(0.1/Z, 0.5/k_max), which puts the grid 1s energy within "
+        "1e-5 of −Z²μ/2"))
+    l_max: Integer(ge=1, le=2000) | None = Field(None, description=(
+        "highest partial wave; default max(8, l₀ + 6, ⌈1.6·α₀·√(6.34 μ Uₚ)⌉): the angular momentum "
+        "of a returning electron (3.17 Uₚ) at the quiver radius"))
+    dt: Quantity("time", gt=0) | None = Field(None, description=(
+        "largest time step; default min(0.05, 0.1/E_max, T/400); the step used divides the pulse "
+        "window evenly"))
+    absorber: Literal["mask", "none"] = Field("mask", description="edge absorber: cos^p mask or none")
+    absorber_width: Quantity("length", ge=0) | None = Field(None, description=(
+        "width of the mask at the outer edge (bohr); default max(20 bohr, 20 % of the inner region) "
+        "(at most half a given r_max)"))
+    mask_power: Number(gt=0, le=2) = Field(0.125, description=(
+        "exponent p of the cos^p mask per 0.05 au of time (each step applies cos^(p·dt/0.05): "
+        "dt-independent absorption)"))
+    gauge: Literal["length"] = Field("length", description="interaction gauge (length: E(t)·z)")
+    label_n_max: Integer(ge=1, le=30) = Field(4, description=(
+        "bound states with n <= label_n_max get their own population label"))
+    checkpoint_every: CheckpointCadence(steps_allowed=True) = Field(
+        Cadence(seconds=60.0), description="checkpoint interval: wall-clock time with units "
+                                           "(\"60 s\", \"10 min\") or a whole number of time steps")
+    photoelectron: Flag = Field(False, description=(
+        "photoelectron spectrum of the final state by the window operator (Schafer & Kulander 1990); "
+        "meaningful when the electrons are still inside the box (absorbed ones are missing)"))
+    photoelectron_e_max: Quantity("energy", gt=0) | None = Field(None, description=(
+        "highest photoelectron energy; default E_max of the grid defaults"))
+    photoelectron_points: Integer(ge=2, le=100_000) = Field(200, description=(
+        "number of energies; the window half-width is half their spacing"))
+    threads: Integer(ge=1, le=256) = Field(1, description=(
+        "threads for the step (1: the fused single-core kernel; more: the unfused parallel kernel, "
+        "which pays little: the step is bandwidth-bound, run jobs side by side instead)"))
+
+    @model_validator(mode="before")
+    @classmethod
+    def _old_names(cls, data):
+        return _renamed(data, "n_max", "label_n_max", "grid")
+
+
+SETTINGS: dict[str, type[RouteSettings]] = {"levels": LevelsSettings, "basis": BasisSettings,
+                                            "grid": GridSettings}
