@@ -14,7 +14,7 @@ x, ηF₀ along y; η = ±1 is circular±, η = 0 is x; in circular components
 ε = ½(1 + η)(1, i, 0) + ½(1 − η)(1, −i, 0)). Because f vanishes at both feet,
 ∫E dt = A(t_start) − A(t_end) = 0 exactly.
 Peak cycle-averaged intensity I = |ε|² F₀² in atomic units (I_au = 3.50945e16 W/cm², CODATA 2018),
-so circular light carries twice the intensity of linear light of the same F₀ (PHYSICS.md) and
+so circular light carries twice the intensity of linear light of the same F₀ (docs/physics.md) and
 elliptical light (1 + η²) times; an ``intensity`` key sets the total, F₀ = √(I/(1 + η²)).
 
 Envelopes (T = foot-to-foot length, s = t − t₀, the window is t₀ ± T/2):

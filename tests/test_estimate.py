@@ -39,7 +39,7 @@ def test_adk_general_state_against_the_formula_with_scipy_gamma():
 
 @pytest.mark.parametrize("field", [0.03, 0.05, 0.1])
 def test_ppt_tends_to_the_cycle_averaged_adk_rate_at_low_frequency(field):
-    # gamma -> 0: PPT (Perelomov, Popov & Terent'ev 1966) -> ADK (1986) times sqrt(3F/(pi F0)) (PHYSICS.md);
+    # gamma -> 0: PPT (Perelomov, Popov & Terent'ev 1966) -> ADK (1986) times sqrt(3F/(pi F0)) (docs/physics.md);
     # at gamma = 0.005 the g(gamma) correction, (2F0/3F) gamma^2/10, stays below 1e-4
     omega = 0.005 * field                                # gamma = omega sqrt(2 Ip)/F = 0.005
     expected = adk_rate(field, 0.5, 1) * math.sqrt(3 * field / math.pi)
@@ -64,7 +64,7 @@ def test_ppt_special_function_and_multiphoton_regime():
 
 def test_envelope_rate_matches_the_instantaneous_field_for_long_mid_infrared_pulses():
     # at gamma ~ 0.01 the cycle-averaged rate along the envelope equals ADK integrated over the
-    # instantaneous field (ADK 1986; the averaging is asymptotic in F/F0, PHYSICS.md)
+    # instantaneous field (ADK 1986; the averaging is asymptotic in F/F0, docs/physics.md)
     pulse = Pulse({"wavelength": "20 um", "peak_field": 0.05, "cycles": 40})
     c = pulse.components[0]
     t, w = quadrature(sorted(set(c.breakpoints)), 2 * math.pi / c.omega / 64)
@@ -102,7 +102,7 @@ def test_iso_intensity_volume_and_focal_count_against_scipy_quadrature():
 
 
 def test_pulse_energy_of_a_gaussian_pulse():
-    # I0 = 2 Ep/(pi w0^2) * 0.9394/tau for a Gaussian pulse of intensity FWHM tau (PHYSICS.md; common practice)
+    # I0 = 2 Ep/(pi w0^2) * 0.9394/tau for a Gaussian pulse of intensity FWHM tau (docs/physics.md; common practice)
     cfg = {**IR, "pulse": [{"envelope": "gaussian", "wavelength": "800 nm", "intensity": "1e14 W/cm^2",
                             "fwhm": "30 fs"}]}
     out = estimate(cfg, waist="25 um")
@@ -194,7 +194,7 @@ def test_cli_json_caution_and_one_line_errors(capsys):
 def test_peak_quantities_in_lab_units():
     out = estimate(IR)
     assert out["peak_intensity_Wcm2"] == pytest.approx(1e14, rel=1e-12)
-    assert out["peak_field_au"] == pytest.approx(0.05338, rel=1e-4)        # I = F0^2 * 3.50945e16 W/cm^2 (PHYSICS.md)
+    assert out["peak_field_au"] == pytest.approx(0.05338, rel=1e-4)        # I = F0^2 * 3.50945e16 W/cm^2 (docs/physics.md)
     assert out["keldysh"] == pytest.approx(1.067, rel=1e-3)                # 800 nm, 1e14 W/cm^2, H (common practice)
     assert out["barrier_suppression_Wcm2"] == pytest.approx(1.37e14, rel=3e-3)   # 4.00e9 Ip^4[eV]/Z^2 (Augst et al. 1989)
 

@@ -27,7 +27,7 @@ def propagate(pulse, solver, atom=Atom(1), every=None):
 
 def stobbe_sigma(omega, ip=0.5):
     """Hydrogen 1s photoionisation cross section (bohr^2), Stobbe's closed form
-    (Bethe & Salpeter (1957), section 71; PHYSICS.md)."""
+    (Bethe & Salpeter (1957), section 71; docs/physics.md)."""
     omega = np.asarray(omega, dtype=float)
     out = np.zeros_like(omega)
     above = omega > ip
@@ -56,7 +56,7 @@ def test_weak_pulse_yield_is_first_order_perturbation_theory(weak_run):
     p = Pulse(WEAK)
     w = np.linspace(0.5, 1.5, 4001)[1:]
     spectrum = p.field_spectrum(w)
-    # P = int sigma(w) c |E(w)|^2 / (4 pi^2 w) dw (PHYSICS.md, golden rule)
+    # P = int sigma(w) c |E(w)|^2 / (4 pi^2 w) dw (docs/physics.md, golden rule)
     p_first = np.trapezoid(stobbe_sigma(w) * C_AU * abs(spectrum) ** 2 / (4 * np.pi**2 * w), w)
     assert 1e-4 < p_first < 1e-3
     assert abs(weak_run.ionization / p_first - 1) < 0.01
@@ -84,7 +84,7 @@ def test_weak_pulse_agrees_with_basis_route(weak_run):
 
 
 def test_ehrenfest_acceleration_matches_dipole_curvature_as_dr_shrinks():
-    """d^2<z>/dt^2 from the propagated dipole against -<Z z/r^3> - E (Ehrenfest; PHYSICS.md).
+    """d^2<z>/dt^2 from the propagated dipole against -<Z z/r^3> - E (Ehrenfest; docs/physics.md).
     On the grid the two agree up to the discretisation near the nucleus, O(dr^2)."""
     p = Pulse({"wavelength": "800 nm", "peak_field": 0.02, "cycles": 1})
     errors = []

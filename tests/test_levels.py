@@ -137,7 +137,7 @@ def test_rwa_and_full_coupling_agree_for_every_polarisation(polarization):
 
 
 def test_ionization_rate_in_lab_units():
-    # rate = σ I/(ħω) with I = F0² · 3.50945e16 W/cm² (linear, cycle-averaged; PHYSICS.md)
+    # rate = σ I/(ħω) with I = F0² · 3.50945e16 W/cm² (linear, cycle-averaged; docs/physics.md)
     from driven_atom.atom.photoionization import cross_section
 
     F0, w, length, ramp = 0.0035, 0.375, 40000.0, 8000.0      # below barrier suppression of 2p (0.0039)

@@ -29,7 +29,7 @@ def _basis_route(F0):
 
 @pytest.mark.parametrize("F0", [1e-3, 1e-2])
 def test_basis_route_matches_golden_rule(F0):
-    golden = first_order_ionization(H, _pulse(F0))      # P = int sigma c|E(w)|^2/(4 pi^2 w) dw (PHYSICS.md)
+    golden = first_order_ionization(H, _pulse(F0))      # P = int sigma c|E(w)|^2/(4 pi^2 w) dw (docs/physics.md)
     result = _basis_route(F0)
     print(F0, "basis", result.ionization, "first order", golden)
     assert result.ionization == pytest.approx(golden, rel=0.01)

@@ -52,7 +52,7 @@ def test_intensity_to_field_uses_codata_atomic_unit():
 
 
 def test_circular_light_carries_twice_the_intensity():
-    # convention of PHYSICS.md: amplitude F0 in each of x and y -> I = 2 F0^2 (a.u.)
+    # convention of docs/physics.md: amplitude F0 in each of x and y -> I = 2 F0^2 (a.u.)
     lin = one(wavelength="800 nm", intensity="1e14 W/cm^2", cycles=4)
     circ = one(wavelength="800 nm", intensity="1e14 W/cm^2", cycles=4, polarization="circular+")
     assert circ.peak_field == pytest.approx(lin.peak_field / math.sqrt(2), rel=1e-14)
@@ -101,7 +101,7 @@ def test_gaussian_fluence_matches_time_integral_of_intensity():
         assert c.is_long == is_long
         expected = c.intensity * c.fwhm * factor * (1 + 2 * math.log(2) / (c.omega * c.fwhm) ** 2)
         assert c.fluence() == pytest.approx(expected, rel=1e-6)
-    assert factor == pytest.approx(1 / 0.9394, rel=1e-4)   # PHYSICS.md focus formula constant
+    assert factor == pytest.approx(1 / 0.9394, rel=1e-4)   # docs/physics.md focus formula constant
 
 
 # --- zero field area (no DC part) ------------------------------------------------------------------
@@ -273,7 +273,7 @@ def test_gaussian_time_bandwidth_product(fwhm):
 
 
 def test_spectrum_equals_i_omega_times_vector_potential_transform():
-    # Ẽ(ω) = iω Ã(ω) when A vanishes at both ends (PHYSICS.md); Ã by scipy's QAWO (weight cos/sin)
+    # Ẽ(ω) = iω Ã(ω) when A vanishes at both ends (docs/physics.md); Ã by scipy's QAWO (weight cos/sin)
     p = Pulse({"wavelength": "800 nm", "peak_field": 0.05, "cycles": 3, "cep": 0.3})
     c = p.components[0]
     a_z = lambda t: p.vector_potential([t])[0, 2]          # noqa: E731

@@ -8,7 +8,7 @@ from driven_atom.errors import InputError
 
 
 def test_atomic_unit_of_intensity():
-    # 3.50945e16 W/cm^2 = 1/2 c eps0 E_au^2 with CODATA 2018 E_au (CODATA; PHYSICS.md)
+    # 3.50945e16 W/cm^2 = 1/2 c eps0 E_au^2 with CODATA 2018 E_au (CODATA; docs/physics.md)
     assert units.AU_INTENSITY_WCM2 == pytest.approx(3.50945e16, rel=1e-5)
 
 

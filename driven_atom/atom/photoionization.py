@@ -1,7 +1,7 @@
 """Exact hydrogenic photoionisation cross sections sigma_nl(omega) for any bound n, l.
 
 One-photon ionisation of the level (n l), m-averaged, into the energy-normalised Coulomb continuum
-(Bethe & Salpeter 1957, §69-71; PHYSICS.md):
+(Bethe & Salpeter 1957, §69-71; docs/physics.md):
 
     sigma = (4 pi^2 alpha omega / 3) 1/(2l+1) sum_(L = l+-1) max(l, L) |I_L|^2,
     I_L = int R_nl(r) R_(E L)(r) r^3 dr,   R_(E L) = sqrt(2/(pi k)) F_L(eta, k r) / r,  eta = -1/k

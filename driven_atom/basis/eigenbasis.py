@@ -13,7 +13,7 @@ The velocity form is the matrix of p_z = iμ[H₀, z] in the same basis,
 ⟨a|p_z|b⟩ = iμ (E_a − E_b) ⟨a|z|b⟩ (exact for the full grid; for a truncated basis it is the usual
 dipole-velocity form, and its difference from the length form is a convergence check).
 
-Continuum states carry the box density of states ρ(E_k) ≈ 2/(E_{k+1} − E_{k−1}) (PHYSICS.md), so
+Continuum states carry the box density of states ρ(E_k) ≈ 2/(E_{k+1} − E_{k−1}) (docs/physics.md), so
 Σ_k |⟨k|z|0⟩|² ρ … turns sums over box states into energy integrals.
 
 A basis is identified by a content hash of its inputs (:func:`basis_hash`) and can be saved to
@@ -279,7 +279,7 @@ def box_cross_section(basis: Eigenbasis, state) -> tuple[np.ndarray, np.ndarray]
     """One-photon ionisation cross section of ``state`` (z polarisation, its m) from box states:
     σ(ω_k) = (4π²ω_k/c) Σ_{l'} |⟨k|z|0⟩|² ρ(E_k), ω_k = E_k − E_0, summed over l' at equal ω by
     interpolating each partial wave onto the photon energies of the lowest one (bohr², hartree).
-    For s states this is the m-averaged σ of PHYSICS.md.
+    For s states this is the m-averaged σ of docs/physics.md.
     """
     from driven_atom.units import ALPHA
 

@@ -324,7 +324,7 @@ def density_of_states(energies: np.ndarray) -> np.ndarray:
     """Density of box states ρ(E_k) ≈ 2/(E_{k+1} − E_{k−1}) (one-sided at the two ends).
 
     Energy-normalised continuum functions are u_E = u_k·√(ρ(E_k)/dr) for grid-normalised u_k
-    (PHYSICS.md). Needs at least two energies.
+    (docs/physics.md). Needs at least two energies.
 
     >>> density_of_states(np.array([0.0, 1.0, 3.0, 6.0]))
     array([1.        , 0.66666667, 0.4       , 0.33333333])

@@ -1,7 +1,7 @@
 """Gaussian focus: beam geometry, pulse energy and focal-volume averages (pure functions, SI or a.u.
 as named; lengths in the same unit throughout a call).
 
-Beam (PHYSICS.md; Siegman, *Lasers* (1986), ch. 17): w(z) = w₀√(1 + (z/z_R)²), z_R = π w₀²/(M² λ),
+Beam (docs/physics.md; Siegman, *Lasers* (1986), ch. 17): w(z) = w₀√(1 + (z/z_R)²), z_R = π w₀²/(M² λ),
 I(r, z) = I₀ (w₀/w)² exp(−2r²/w²). The power through any plane is P = (π w₀²/2) I₀, so a pulse of
 peak-intensity fluence Φ (J/cm², the time integral of the cycle-averaged intensity) carries
 E_p = (π w₀²/2) Φ; for a Gaussian pulse of intensity FWHM τ this is I₀ = 2E_p/(π w₀²) · 0.9394/τ.

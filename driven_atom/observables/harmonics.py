@@ -5,7 +5,7 @@ coordinate of a one-electron atom with reduced mass μ):
 
     μ d²⟨z⟩/dt² = −⟨Z z/r³⟩ − E(t)·⟨ψ|ψ⟩
 
-(PHYSICS.md, "Grid route"; Burnett et al., PRA 45, 3347 (1992) for its use in harmonic spectra).
+(docs/physics.md, "Grid route"; Burnett et al., PRA 45, 3347 (1992) for its use in harmonic spectra).
 The norm factor ⟨ψ|ψ⟩ matters only once an absorber has removed part of the wave function; for
 μ = 1 and unit norm this is the familiar −⟨Zz/r³⟩ − E(t). The emitted power per unit frequency is
 proportional to |ã(ω)|², ã(ω) = ∫ a(t) e^{iωt} dt (Larmor).

@@ -4,7 +4,7 @@ With Ẽ(ω) = ∫E(t) e^{iωt} dt, first-order time-dependent perturbation theo
 and an energy-normalised continuum gives P = ∫ dE |⟨E|ε·r|i⟩|² |Ẽ(E − E_i)|²; with the
 one-photon cross section σ(ω) = 4π²αω |⟨E|ε·r|i⟩|² (Bethe & Salpeter 1957, §69–71) this is
 
-    P = ∫_{I_n}^{∞} σ(ω) · c |Ẽ(ω)|² / (4π² ω) dω      (atomic units, c = 1/α; PHYSICS.md)
+    P = ∫_{I_n}^{∞} σ(ω) · c |Ẽ(ω)|² / (4π² ω) dω      (atomic units, c = 1/α; docs/physics.md)
 
 valid while P ≪ 1. σ is the m-averaged cross section of :mod:`driven_atom.atom.photoionization`, so for
 l > 0 the result is that of the m-averaged level; |Ẽ|² sums the x, y and z components.

@@ -1,7 +1,7 @@
 """Photoelectron energy spectra from populations of box-discretised continuum states.
 
 A box state k of partial wave l with population P_k stands for the energy interval 1/ρ(E_k),
-ρ the density of box states (PHYSICS.md), so the energy density of the yield is
+ρ the density of box states (docs/physics.md), so the energy density of the yield is
 
     dP_l/dE (E_k) = P_k · ρ_l(E_k),
 

@@ -6,7 +6,7 @@ along z (m = 0). One step of length dt with the field E at mid-step (Strang, sec
 
     U = A·B·C·B·A,  C: Crank–Nicolson for every H_l over dt;  A, B: exact 2×2 rotations
     exp(−i (dt/2) E r c_l σ_x) on the pairs (l, l+1) with l even (A) and odd (B),
-    c_l = (l+1)/√((2l+1)(2l+3)) (PHYSICS.md, "Grid route").
+    c_l = (l+1)/√((2l+1)(2l+3)) (docs/physics.md, "Grid route").
 
 Both pieces are exactly unitary, so norm is lost only in the absorber at the edge: after each step
 the wave function is multiplied by the mask cos^(p·dt/Δt_ref)(π/2·(r − r_a)/w) on the outer width w,
@@ -255,7 +255,7 @@ def window_spectrum(grid, atom, psi, energies, gamma) -> np.ndarray:
 
 
 def coupling_coefficients(l_max: int) -> np.ndarray:
-    """c_l = ⟨l 0|cosθ|l+1 0⟩ = (l+1)/√((2l+1)(2l+3)) for l = 0..l_max (PHYSICS.md).
+    """c_l = ⟨l 0|cosθ|l+1 0⟩ = (l+1)/√((2l+1)(2l+3)) for l = 0..l_max (docs/physics.md).
 
     >>> coupling_coefficients(1).round(6).tolist()
     [0.57735, 0.516398]
