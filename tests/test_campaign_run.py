@@ -368,7 +368,7 @@ def test_cluster_table_makes_a_valid_slurm_job_script():
 def test_killed_grid_job_resumes_from_its_checkpoint(tmp_path):
     cfg = {"atom": {"Z": 1, "nucleus": "H"},
            "pulse": [{"wavelength": "400 nm", "intensity": "5e13 W/cm^2", "cycles": 6}],
-           "solver": {"route": "grid", "r_max": 60.0, "dr": 0.3, "l_max": 6, "checkpoint_every": 256},
+           "solver": {"route": "grid", "r_max": 60.0, "dr": 0.2, "l_max": 6, "checkpoint_every": 256},
            "scan": {"pulse.0.cep": [0.0]}}
     cfg_path = tmp_path / "kestrel_grid.toml"
     cfg_path.write_text(tomli_w.dumps(cfg))

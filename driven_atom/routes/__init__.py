@@ -78,6 +78,13 @@ def build_route(cfg: RunConfig, *, cache_dir=None):
     return cls(atom, pulse, cfg.solver, initial=cfg.initial_states(), output=cfg.output, cache_dir=cache_dir)
 
 
+def preflight(cfg: RunConfig, *, max_hours: float | None = None) -> list:
+    """The checks a run of ``cfg`` makes before its first step (:mod:`driven_atom.routes.quality`),
+    without propagating: resources are estimated, the grid, basis or model is built, nothing is
+    written."""
+    return build_route(cfg).inspect(max_hours=max_hours)
+
+
 def propagate(atom, pulse, settings, *, initial, output=None, checkpoint=None, progress: bool = False,
               cache_dir=None):
     """Run the route of ``settings`` (a model of :mod:`driven_atom.settings`) on ready-made objects:
@@ -109,7 +116,7 @@ def default_cache_dir(cfg: RunConfig, path: Path):
     return Path(setting)
 
 
-def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None):
+def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, max_hours: float | None = None):
     """Propagate ``cfg`` and write its result to ``path``; returns the :class:`Result`.
 
     A checkpoint of the same physics beside ``path`` (``NAME.ckpt.h5``) is resumed; it is removed
@@ -122,7 +129,7 @@ def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None):
     config_text = cfg.to_toml()
     route = build_route(cfg, cache_dir=cache_dir if cache_dir is not None else default_cache_dir(cfg, path))
     checkpoint = Checkpoint(checkpoint_path(path), physics_hash=physics_hash, config=config_text)
-    result = route.run(checkpoint=checkpoint if route.resumable else None, progress=progress)
+    result = route.run(checkpoint=checkpoint if route.resumable else None, progress=progress, max_hours=max_hours)
     result.config = config_text
     write_result(path, result, attrs={"physics_hash": physics_hash, "hash_version": HASH_VERSION})
     checkpoint.clear()
@@ -131,4 +138,4 @@ def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None):
 
 
 __all__ = ["ROUTES", "SETTINGS", "route_class", "check_config", "load_config", "build_route", "run_config",
-           "propagate"]
+           "preflight", "propagate"]

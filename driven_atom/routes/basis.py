@@ -180,11 +180,32 @@ class BasisRoute(Route):
     name = "basis"
     Settings = BasisSettings
     spectra = ("photoelectron",)
+    tolerance_key = "solver.tolerance"
+    norm_tolerance = 1e-7           # each step is unitary to the Krylov accuracy (tolerance/2 per step)
 
     @classmethod
     def check(cls, atom, pulse, initial, cfg=None) -> None:
         super().check(atom, pulse, initial, cfg)
         _basis_m(initial)
+
+    resource_fix = "lower `solver.r_max` or raise `solver.dr`, or lower `solver.l_max`"
+
+    def estimate_resources(self):
+        """Building the basis diagonalises one dense N×N H_l per partial wave (N = r_max/dr grid
+        points): about 4·8·N² bytes at a time and N³ LAPACK operations each; the kept states
+        (bound ones and the box continuum up to e_max, about r_max·√(2μ e_max)/π per l) and their
+        dipole blocks follow."""
+        from driven_atom.routes.resources import DENSE_EIGH_NS_PER_N3
+
+        s = self.settings
+        n = s.r_max / (s.dr_min if s.dr_min is not None else s.dr)
+        if s.dr_min is not None:
+            n = min(n, s.r_stretch / s.dr_min + s.r_max / s.dr)
+        waves = s.l_max + 1
+        kept = s.r_max * np.sqrt(2 * self.atom.reduced_mass * s.e_max) / np.pi + np.sqrt(s.r_max)
+        memory = 8.0 * (4 * n * n + n * kept * 2 + waves * kept * kept * 2)
+        seconds = waves * n**3 * DENSE_EIGH_NS_PER_N3 * 1e-9
+        return float(memory), float(seconds)
 
     def _prepare(self) -> None:
         import time
@@ -198,8 +219,8 @@ class BasisRoute(Route):
                                      n_max=s.n_max, e_max=s.e_max, m=self.m, dr_min=s.dr_min,
                                      r_stretch=s.r_stretch)
         self.basis = basis
-        self.stats = {"basis_size": basis.size, "basis_key": basis.key, "basis_reused": reused,
-                      "basis_build_s": time.perf_counter() - started, "gauge": s.gauge}
+        self.stats.update({"basis_size": basis.size, "basis_key": basis.key, "basis_reused": reused,
+                           "basis_build_s": time.perf_counter() - started, "gauge": s.gauge})
         if s.gauge == "length":
             drive, coupling = pulse.field_z, basis.dipole
         else:
@@ -211,12 +232,33 @@ class BasisRoute(Route):
                                      scheme=s.scheme, groups=basis.l)
         self.t_start, self.t_end = pulse.t_start, pulse.t_end
         self.max_slice = SLICE_AU
+        self.population_soft = s.warn_population
         self.n_good = _hydrogenic_n(basis, atom)
         self.hist_idx = np.flatnonzero(basis.bound & (basis.n <= min(HISTORY_N_MAX, self.n_good)))
         self.cont = ~basis.bound
         self.top_l = basis.l == basis.l.max()
         e_cont = basis.energies[self.cont]
         self.near_emax = self.cont & (basis.energies >= 0.9 * float(e_cont.max() if e_cont.size else 0.0))
+
+    def preflight(self) -> list:
+        """The initial states' energies in this basis against the exact −Z²μ/(2n²) (Bethe &
+        Salpeter 1957): a box too small for the state or a grid too coarse shows here first."""
+        from driven_atom.routes.quality import assess
+
+        atom, s = self.atom, self.settings
+        worst, too_small = 0.0, False
+        for state, _ in self.initial:
+            exact = -atom.Z**2 * atom.reduced_mass / (2 * state.n**2)
+            energy = float(self.basis.energies[self.basis.index(state)])
+            worst = max(worst, abs(energy / exact - 1))
+            too_small |= s.r_max < 4 * state.n**2 / (atom.Z * atom.reduced_mass)   # twice the turning point
+        if too_small:
+            fix = f"raise `solver.r_max` (the state reaches beyond the box of {s.r_max:g} bohr)"
+        else:
+            fix = f"lower `solver.dr` to about {s.dr * (1e-5 / worst) ** 0.25:.3g} bohr" if worst > 0 else ""
+        return [assess("initial_energy_error", worst, soft=5e-4, hard=1e-3,
+                       key="solver.r_max" if too_small else "solver.dr",
+                       why="relative error of the initial state's energy in this basis", fix=fix)]
 
     def _initial(self):
         c = np.zeros(self.basis.size, dtype=complex)
@@ -268,10 +310,6 @@ class BasisRoute(Route):
         if s.gauge == "velocity" and abs(float(self.pulse.vector_potential_z(np.array([self.t_end]))[0])) > 1e-8:
             warnings.append("A(t) does not vanish at the end of the pulse (static field): velocity-gauge "
                             "amplitudes differ from length-gauge ones by the gauge phase; use gauge = \"length\"")
-        for key, setting in (("top_l_population", "l_max"), ("e_max_population", "e_max")):
-            if stats[key] > s.warn_population:
-                warnings.append(f"basis not converged: {key} = {stats[key]:.3g} > warn_population = "
-                                f"{s.warn_population:.3g}; raise `solver.{setting}`")
         return Outcome(populations={basis.label(i): float(pop[i]) for i in bound_idx},
                        ionization=float(pop[cont].sum()), norm=float(pop.sum()),
                        spectra={"photoelectron": {"energy": energy, "dP_dE": dP_dE, "dP_dE_l": dP_dE_l}},
