@@ -190,9 +190,11 @@ def test_collect_table_opens_with_xarray(tmp_path, standin, capsys):
         assert ds["harmonic_amplitude"].dtype.kind == "c" and ds["harmonic_amplitude"].values[1, 0, 2].imag == 1.0
         assert not [name for name in ds.variables if name.startswith("dipole_response")]
         assert "versions" in ds.attrs and "host" in ds.attrs and "[scan" in ds.attrs["config"]
-        assert (ds["status"].values == "done").all()
+        assert (ds["status"].values == "done").all() and (ds["trustworthy"].values == 1).all()
+        assert np.isnan(ds["ionization_err"].values).all()             # no error bars were asked for
     lines = Path(payload["csv"]).read_text().splitlines()
-    assert lines[0].startswith("pulse.0.intensity [W/cm^2],pulse.0.cep [rad],job_id,status,ionization")
+    assert lines[0].startswith("pulse.0.intensity [W/cm^2],pulse.0.cep [rad],job_id,status,trustworthy,"
+                               "ionization,ionization_err,norm")
     assert len(lines) == 5
 
 

@@ -105,6 +105,7 @@ class JobState:
     status: str
     wall_s: float | None = None
     error: str = ""
+    trustworthy: bool | None = None
 
 
 def job_state(folder, job_id: str) -> JobState:
@@ -136,7 +137,8 @@ def load_job(folder, job_id: str):
             result = read_result(path)
         except Exception as exc:  # noqa: BLE001
             return JobState(CORRUPT, error=f"unreadable: {exc}"), None
-        return JobState(DONE, wall_s=result.stats.get("wall_s")), result
+        return JobState(DONE, wall_s=result.stats.get("wall_s"),
+                        trustworthy=result.quality.get("trustworthy")), result
     if status == FAILED:
         return JobState(FAILED, error=error), None
     return JobState(CORRUPT, error="incomplete file that is no failure record"), None
@@ -342,7 +344,9 @@ def campaign_status(folder) -> dict:
         if status in (CHECKPOINTED, CORRUPT):
             counts[status] += 1
         counts[status if status in (DONE, RUNNING, FAILED) else PENDING] += 1
-        jobs.append({"id": job_id, "status": status, "wall_s": state.wall_s, "error": state.error})
+        jobs.append({"id": job_id, "status": status, "wall_s": state.wall_s, "error": state.error,
+                     "trustworthy": state.trustworthy})
     walls = [j["wall_s"] for j in jobs if j["wall_s"] is not None]
-    return {"folder": str(folder), "total": len(jobs), **counts, "scan_active": active,
-            "wall_s_total": float(sum(walls)), "jobs": jobs}
+    untrustworthy = sum(1 for j in jobs if j["status"] == DONE and j["trustworthy"] is False)
+    return {"folder": str(folder), "total": len(jobs), **counts, "untrustworthy": untrustworthy,
+            "scan_active": active, "wall_s_total": float(sum(walls)), "jobs": jobs}

@@ -116,13 +116,18 @@ def default_cache_dir(cfg: RunConfig, path: Path):
     return Path(setting)
 
 
-def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, max_hours: float | None = None):
+def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, max_hours: float | None = None,
+               error_estimate: bool | None = None):
     """Propagate ``cfg`` and write its result to ``path``; returns the :class:`Result`.
 
     A checkpoint of the same physics beside ``path`` (``NAME.ckpt.h5``) is resumed; it is removed
-    once the result is written.
+    once the result is written. With ``error_estimate`` (default: ``[output] error_estimate``) a
+    coarser companion run gives every scalar an error bar (:mod:`driven_atom.routes.error_bars`).
     """
+    import time
+
     from driven_atom.result import Checkpoint, checkpoint_path, write_result
+    from driven_atom.routes.error_bars import error_block, run_companion
 
     path = Path(path)
     physics_hash = cfg.physics_hash()
@@ -130,6 +135,14 @@ def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, 
     route = build_route(cfg, cache_dir=cache_dir if cache_dir is not None else default_cache_dir(cfg, path))
     checkpoint = Checkpoint(checkpoint_path(path), physics_hash=physics_hash, config=config_text)
     result = route.run(checkpoint=checkpoint if route.resumable else None, progress=progress, max_hours=max_hours)
+    if cfg.output.error_estimate if error_estimate is None else error_estimate:
+        started = time.perf_counter()
+        companion, factor, knobs = run_companion(type(route), route.atom, route.pulse, cfg.solver,
+                                                 route.initial, cfg.output, result)
+        result.stats["companion_s"] = time.perf_counter() - started
+        result.quality["errors"] = (error_block(result, companion, factor, knobs) if companion is not None
+                                    else {"method": "unavailable", "companion": knobs,
+                                          "why": "the coarser companion run was stopped by a guard"})
     result.config = config_text
     write_result(path, result, attrs={"physics_hash": physics_hash, "hash_version": HASH_VERSION})
     checkpoint.clear()

@@ -190,6 +190,15 @@ class BasisRoute(Route):
 
     resource_fix = "lower `solver.r_max` or raise `solver.dr`, or lower `solver.l_max`"
 
+    @classmethod
+    def companion(cls, settings, result):
+        """dr (and dr_min) stretched by √2 (Numerov energies ∝ dr⁴) and the step tolerance
+        loosened fourfold: K = 4."""
+        knobs = {"dr": settings.dr * 2**0.5, "tolerance": min(4 * settings.tolerance, 5e-3)}
+        if settings.dr_min is not None:
+            knobs["dr_min"] = settings.dr_min * 2**0.5
+        return settings.model_copy(update=dict(knobs, cache_dir=None)), 4.0, knobs
+
     def estimate_resources(self):
         """Building the basis diagonalises one dense N×N H_l per partial wave (N = r_max/dr grid
         points): about 4·8·N² bytes at a time and N³ LAPACK operations each; the kept states

@@ -439,6 +439,18 @@ class GridRoute(Route):
 
     resource_fix = "lower `solver.r_max` or `solver.l_max`, raise `solver.dr` or `solver.dt`, or shorten the pulse"
 
+    @classmethod
+    def companion(cls, settings, result):
+        """dt doubled (error ∝ dt²) and dr stretched by √2 (∝ dr⁴): K = 4; the box, the partial
+        waves and the absorber as the run used them; no photoelectron spectrum."""
+        s = result.stats
+        knobs = {"dt": 2 * s["dt"], "dr": s["dr"] * 2**0.5, "r_max": s["r_max"], "l_max": s["l_max"],
+                 "absorber_width": s["absorber_width"]}
+        update = dict(knobs, photoelectron=False)
+        if settings.absorber == "none":
+            update.pop("absorber_width")
+        return settings.model_copy(update=update), 4.0, knobs
+
     def _parameters(self) -> GridParameters:
         n0 = max(st.n for st, _ in self.initial)
         l0 = max(st.l for st, _ in self.initial)

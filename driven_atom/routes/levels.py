@@ -497,6 +497,14 @@ class LevelsRoute(Route):
                                                         coefficients=coefficients, max_step=max_step,
                                                         interaction=s.rwa)
 
+    @classmethod
+    def companion(cls, settings, result):
+        """The ODE tolerances and the sampling tolerance of the coefficients loosened 16-fold
+        (errors ∝ tolerance): K = 16. The kept states are not varied (a model choice)."""
+        knobs = {"rtol": 16 * settings.rtol, "atol": 16 * settings.atol,
+                 "sampling_tol": min(16 * settings.sampling_tol, 5e-3)}
+        return settings.model_copy(update=knobs), 16.0, knobs
+
     def preflight(self) -> list:
         """The rotating-wave approximation against its conditions (detuning and Rabi frequency
         ≪ ω_ul; Allen & Eberly 1975) and, for every carrier, the nearest transition of the model:
