@@ -275,6 +275,16 @@ class Route:
         return list(self.preflight())
 
     @classmethod
+    def explicit(cls, settings, result):
+        """``settings`` with every value the run derived (defaults from the pulse) made explicit."""
+        return settings
+
+    @classmethod
+    def knobs(cls, settings) -> list:
+        """The numerical knobs of a convergence study (:class:`driven_atom.convergence.Knob`)."""
+        return []
+
+    @classmethod
     def companion(cls, settings, result) -> tuple:
         """(coarser settings, K, knobs) for the error bar of ``result``: the knobs whose error
         grows by the factor K (see :mod:`driven_atom.routes.error_bars`)."""

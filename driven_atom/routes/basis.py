@@ -191,6 +191,17 @@ class BasisRoute(Route):
     resource_fix = "lower `solver.r_max` or raise `solver.dr`, or lower `solver.l_max`"
 
     @classmethod
+    def knobs(cls, settings) -> list:
+        """dr (energies ∝ dr⁴), the step tolerance (error ∝ tolerance), r_max, l_max and e_max."""
+        from driven_atom.convergence import Knob
+
+        return [Knob("dr", settings.dr, settings.dr / 2**0.5, settings.dr * 2**0.5, 4, 2.8),
+                Knob("tolerance", settings.tolerance, settings.tolerance / 2, min(2 * settings.tolerance, 5e-3), 1, 1.3),
+                Knob("r_max", settings.r_max, 1.5 * settings.r_max, None, None, 3.4),
+                Knob("l_max", settings.l_max, settings.l_max + max(2, settings.l_max // 2), None, None, 1.5),
+                Knob("e_max", settings.e_max, 1.5 * settings.e_max, None, None, 1.5)]
+
+    @classmethod
     def companion(cls, settings, result):
         """dr (and dr_min) stretched by √2 (Numerov energies ∝ dr⁴) and the step tolerance
         loosened fourfold: K = 4."""
@@ -219,14 +230,16 @@ class BasisRoute(Route):
     def _prepare(self) -> None:
         import time
 
-        from driven_atom.basis.eigenbasis import cached_basis
+        from driven_atom.basis.eigenbasis import cache_path, cached_basis
 
         s, pulse, atom = self.settings, self.pulse, self.atom
         started = time.perf_counter()
         self.m = _basis_m(self.initial)
-        basis, reused = cached_basis(atom, self.cache_dir, r_max=s.r_max, dr=s.dr, l_max=s.l_max,
-                                     n_max=s.n_max, e_max=s.e_max, m=self.m, dr_min=s.dr_min,
-                                     r_stretch=s.r_stretch)
+        spec = dict(r_max=s.r_max, dr=s.dr, l_max=s.l_max, n_max=s.n_max, e_max=s.e_max, m=self.m,
+                    dr_min=s.dr_min, r_stretch=s.r_stretch)
+        basis, reused = cached_basis(atom, self.cache_dir, save=False, **spec)
+        # saved once the preflight has passed (a refused basis is not kept)
+        self._unsaved = None if reused or self.cache_dir is None else cache_path(atom, self.cache_dir, **spec)
         self.basis = basis
         self.stats.update({"basis_size": basis.size, "basis_key": basis.key, "basis_reused": reused,
                            "basis_build_s": time.perf_counter() - started, "gauge": s.gauge})
@@ -270,6 +283,11 @@ class BasisRoute(Route):
                        why="relative error of the initial state's energy in this basis", fix=fix)]
 
     def _initial(self):
+        from driven_atom.basis.eigenbasis import save_basis
+
+        if self._unsaved is not None:
+            save_basis(self.basis, self._unsaved)
+            self._unsaved = None
         c = np.zeros(self.basis.size, dtype=complex)
         for state, amplitude in self.initial:
             c[self.basis.index(state)] += amplitude

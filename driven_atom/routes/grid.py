@@ -440,6 +440,24 @@ class GridRoute(Route):
     resource_fix = "lower `solver.r_max` or `solver.l_max`, raise `solver.dr` or `solver.dt`, or shorten the pulse"
 
     @classmethod
+    def explicit(cls, settings, result):
+        s = result.stats
+        update = {"dt": s["dt"], "dr": s["dr"], "l_max": s["l_max"], "r_max": s["r_max"]}
+        if settings.absorber != "none":
+            update["absorber_width"] = s["absorber_width"]
+        return settings.model_copy(update=update)
+
+    @classmethod
+    def knobs(cls, settings) -> list:
+        """dt (error ∝ dt²), dr (∝ dr⁴), l_max and r_max (faster than any power)."""
+        from driven_atom.convergence import Knob
+
+        return [Knob("dt", settings.dt, settings.dt / 2, 2 * settings.dt, 2, 2.0),
+                Knob("dr", settings.dr, settings.dr / 2**0.5, settings.dr * 2**0.5, 4, 2**0.5),
+                Knob("l_max", settings.l_max, math.ceil(1.5 * settings.l_max), None, None, 1.5),
+                Knob("r_max", settings.r_max, 1.5 * settings.r_max, None, None, 1.5)]
+
+    @classmethod
     def companion(cls, settings, result):
         """dt doubled (error ∝ dt²) and dr stretched by √2 (∝ dr⁴): K = 4; the box, the partial
         waves and the absorber as the run used them; no photoelectron spectrum."""

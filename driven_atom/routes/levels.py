@@ -498,6 +498,14 @@ class LevelsRoute(Route):
                                                         interaction=s.rwa)
 
     @classmethod
+    def knobs(cls, settings) -> list:
+        """The ODE tolerances (errors ∝ tolerance); the kept states are a model choice, not a knob."""
+        from driven_atom.convergence import Knob
+
+        return [Knob("rtol", settings.rtol, settings.rtol / 2, 2 * settings.rtol, 1, 1.2),
+                Knob("atol", settings.atol, settings.atol / 2, 2 * settings.atol, 1, 1.2)]
+
+    @classmethod
     def companion(cls, settings, result):
         """The ODE tolerances and the sampling tolerance of the coefficients loosened 16-fold
         (errors ∝ tolerance): K = 16. The kept states are not varied (a model choice)."""
