@@ -235,7 +235,7 @@ def test_a_lost_worker_fails_its_job_and_a_broken_pool_stops(tmp_path, standin, 
 
     from driven_atom.campaign import runner
 
-    def lost(job_id, config, folder):
+    def lost(job_id, config, folder, cache_dir=None):
         raise RuntimeError("worker vanished")
 
     monkeypatch.setattr(runner, "run_job", lost)
@@ -243,7 +243,7 @@ def test_a_lost_worker_fails_its_job_and_a_broken_pool_stops(tmp_path, standin, 
     (job,) = store.campaign_status(folder)["jobs"]
     assert job["status"] == "failed" and "worker vanished" in job["error"]
 
-    def broken(job_id, config, folder):
+    def broken(job_id, config, folder, cache_dir=None):
         raise BrokenExecutor("pool gone")
 
     monkeypatch.setattr(runner, "run_job", broken)

@@ -188,7 +188,8 @@ def collect(folder, csv: bool = False) -> Path:
     folder = Path(folder)
     ds = build_dataset(folder)
     path = folder / store.SUMMARY_FILE
-    with atomic_write(path) as tmp:               # a new temporary file: two collects never share one
+    size = sum(v.nbytes for v in ds.variables.values())
+    with atomic_write(path, size_hint=size) as tmp:   # a new temporary file: two collects never share one
         ds.to_netcdf(tmp, engine="h5netcdf")
     if csv:
         _write_csv(ds, folder / store.CSV_FILE)

@@ -105,7 +105,8 @@ def handle_state(args):
     out = state(args.state, Z=args.Z, nucleus=args.nucleus)
     if args.json:
         return out
-    lifetime = "no electric-dipole decay" if out["lifetime_s"] is None else f"{out['lifetime_s']:.6g} s"
+    lifetime = ("no electric-dipole decay" if out["lifetime_s"] is None and "note" not in out
+                else out.get("note", "") if out["lifetime_s"] is None else f"{out['lifetime_s']:.6g} s")
     items = [("energy", f"{out['energy_eV']:.6f} eV"), ("binding energy", f"{out['binding_eV']:.6f} eV"),
              ("radiative lifetime", lifetime), ("<r>", f"{out['r_mean_au']:.6g} bohr")]
     print(_pairs(f"state {args.state} ({_atom_label(args)})", items))

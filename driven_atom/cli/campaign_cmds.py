@@ -30,6 +30,9 @@ def register(subparsers) -> None:
     where.add_argument("--dask-local", type=int, metavar="N", default=None,
                        help="start a Dask LocalCluster of N single-threaded workers")
     p.add_argument("--retry-failed", action="store_true", help="run failed jobs again")
+    p.add_argument("--yes", action="store_true", help="run a scan of more than 10000 jobs")
+    p.add_argument("--cache-dir", metavar="DIR", default=None,
+                   help="basis-cache folder for every job (default: inside the campaign folder)")
     p.add_argument("--no-progress", action="store_true", help="no progress bar on stderr")
     add_common(p)
     p.set_defaults(handler=_scan)
@@ -70,7 +73,7 @@ def _scan(args):
         context = contextlib.nullcontext(None)
     with context as client:
         scan(cfg, folder, executor=client, workers=args.workers, retry_failed=args.retry_failed,
-             progress=not args.no_progress)
+             progress=not (args.no_progress or args.json), cache_dir=args.cache_dir, yes=args.yes)
     status = campaign_status(folder)
     payload = {key: status[key] for key in ("folder", "total", "done", "failed", "pending", "running",
                                             "untrustworthy")}

@@ -36,6 +36,8 @@ def register(subparsers) -> None:
                    help="refuse the run if its estimated time exceeds H hours")
     p.add_argument("--preflight", action="store_true",
                    help="only check the run (keys, resources, accuracy); compute and write nothing")
+    p.add_argument("--cache-dir", metavar="DIR", default=None,
+                   help="basis-cache folder (default: .basis-cache beside the result)")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
     add_common(p)
     p.set_defaults(handler=handle)
@@ -103,8 +105,8 @@ def handle(args):
     cfg = load_config(args.config)
     if args.preflight:
         return _preflight(cfg, args)
-    result = run(cfg, out=args.out, progress=not args.no_progress, name=Path(args.config).stem,
-                 error_estimate=True if args.error else None, max_hours=args.max_hours)
+    result = run(cfg, out=args.out, progress=not (args.no_progress or args.json), name=Path(args.config).stem,
+                 error_estimate=True if args.error else None, max_hours=args.max_hours, cache_dir=args.cache_dir)
     caution = has_lab_intensity(cfg)
     if args.json:
         if caution:

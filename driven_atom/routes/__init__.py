@@ -107,13 +107,19 @@ def propagate(atom, pulse, settings, *, initial, output=None, checkpoint=None, p
 
 
 def default_cache_dir(cfg: RunConfig, path: Path):
-    """The basis cache folder of a run writing ``path``: ``.basis-cache`` beside it for "auto"."""
+    """The basis cache folder of a run writing ``path``: ``.basis-cache`` beside it for "auto", a
+    named folder inside the result's folder (refused if it leads out of it, symlinks included)."""
     setting = getattr(cfg.solver, "cache_dir", None)
     if setting is None or str(setting).lower() == "none":
         return None
+    folder = Path(path).parent
     if setting == "auto":
-        return Path(path).parent / ".basis-cache"
-    return Path(setting)
+        return folder / ".basis-cache"
+    cache = folder / setting
+    if not cache.resolve().is_relative_to(folder.resolve()):
+        raise InputError(f"`solver.cache_dir` = {setting!r} leads out of the result's folder {str(folder)!r}; "
+                         f"give a folder elsewhere with --cache-dir")
+    return cache
 
 
 def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, max_hours: float | None = None,
@@ -126,11 +132,24 @@ def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, 
     """
     import time
 
-    from driven_atom.result import Checkpoint, checkpoint_path, write_result
+    from driven_atom.result import Checkpoint, checkpoint_path, read_result, stored_physics_hash, write_result
     from driven_atom.routes.error_bars import error_block, run_companion
 
     path = Path(path)
     physics_hash = cfg.physics_hash()
+    stored = stored_physics_hash(path)
+    if stored is not None:              # a complete result is never rewritten: reuse it, or refuse
+        if stored != physics_hash:
+            raise InputError(f"{str(path)!r} holds a complete result of other physics (job {stored}); "
+                             f"choose another file or folder (nothing is overwritten)")
+        try:
+            result = read_result(path)
+        except InputError:
+            pass                        # damaged: computed again below, the damaged file replaced
+        else:
+            result.metadata["file"] = str(path)
+            result.stats["reused"] = True
+            return result
     config_text = cfg.to_toml()
     route = build_route(cfg, cache_dir=cache_dir if cache_dir is not None else default_cache_dir(cfg, path))
     checkpoint = Checkpoint(checkpoint_path(path), physics_hash=physics_hash, config=config_text)

@@ -258,7 +258,8 @@ class BasisRoute(Route):
         self.n_good = _hydrogenic_n(basis, atom)
         self.hist_idx = np.flatnonzero(basis.bound & (basis.n <= min(HISTORY_N_MAX, self.n_good)))
         self.cont = ~basis.bound
-        self.top_l = basis.l == basis.l.max()
+        # the top partial wave tells of truncation only above the initial states' own waves
+        self.top_l = basis.l == basis.l.max() if basis.l.max() > max(s.l for s, _ in self.initial) else None
         e_cont = basis.energies[self.cont]
         self.near_emax = self.cont & (basis.energies >= 0.9 * float(e_cont.max() if e_cont.size else 0.0))
 
@@ -306,8 +307,9 @@ class BasisRoute(Route):
         pops = {self.basis.label(i): float(pop[i]) for i in self.hist_idx}
         series = {"norm": float(pop.sum()), "ionization": float(pop[self.cont].sum()),
                   "dipole_z": float(np.vdot(c, self.basis.dipole @ c).real),
-                  "top_l_population": float(pop[self.top_l].sum()),
                   "_near_e_max": float(pop[self.near_emax].sum())}
+        if self.top_l is not None:
+            series["top_l_population"] = float(pop[self.top_l].sum())
         return pops, series
 
     def _save(self, state):
@@ -331,7 +333,8 @@ class BasisRoute(Route):
         stats = dict(self.stats)
         stats.update({"box_rydberg_population": float(pop[basis.bound].sum() - pop[bound_idx].sum()),
                       "matvecs": self.prop.matvecs, "steps": self.prop.steps,
-                      "top_l_population": float(history.series["top_l_population"].max()),
+                      "top_l_population": float(history.series["top_l_population"].max())
+                      if "top_l_population" in history.series else 0.0,
                       "e_max_population": float(history.series["_near_e_max"].max())})
         warnings = []
         if s.gauge == "velocity" and abs(float(self.pulse.vector_potential_z(np.array([self.t_end]))[0])) > 1e-8:

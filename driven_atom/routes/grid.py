@@ -580,9 +580,11 @@ class GridRoute(Route):
         k = state["step"]
         obs = (_observables(self.stepper.state(), self.grid.r, coupling_coefficients(self.par.l_max))
                if k == 0 else self.per_step[k - 1])
-        top = float(np.sum(abs(self.stepper.column(self.n_l - 1)) ** 2))
-        return pops, {"norm": float(obs[0]), "ionization": 1.0 - total, "dipole_z": float(obs[1]),
-                      "top_l_population": top, "_cos_r2": float(obs[2])}
+        series = {"norm": float(obs[0]), "ionization": 1.0 - total, "dipole_z": float(obs[1]),
+                  "_cos_r2": float(obs[2])}
+        if self.n_l - 1 > max(st.l for st, _ in self.initial):     # the top wave tells of truncation
+            series["top_l_population"] = float(np.sum(abs(self.stepper.column(self.n_l - 1)) ** 2))
+        return pops, series
 
     def _save(self, state):
         return {"psi": self.stepper.state(), "per_step": self.per_step}, {"step": state["step"]}

@@ -565,8 +565,12 @@ class LevelsRoute(Route):
         return {"p": None, "qobj": start}
 
     def _step_pulse(self, state, t_next: float):
+        import warnings
+
         try:
-            qobj = self.solver.step(t_next)
+            with warnings.catch_warnings():      # the integrator's own complaints: our message says it
+                warnings.simplefilter("ignore", UserWarning)
+                qobj = self.solver.step(t_next)
         except Exception as exc:  # noqa: BLE001 - qutip's integrator errors are not a shared type
             raise InputError(f"the ODE solver stopped at t = {t_next:.6g} au: {str(exc).splitlines()[0][:200]} "
                              f"(raise `solver.nsteps` or loosen `solver.atol`/`solver.rtol`)") from None
