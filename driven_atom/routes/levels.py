@@ -279,6 +279,10 @@ def sample_coefficients(values, t0: float, t1: float, *, n_start: int, tol: floa
     """
     from scipy.interpolate import make_interp_spline
 
+    if not n_start <= max_points:
+        raise InputError(f"the field coefficients need more than {max_points} samples over {t1 - t0:.4g} au "
+                         f"(they oscillate {n_start / 16:.3g} times); use `solver.rwa` = true, a shorter pulse "
+                         f"or a carrier nearer the transitions")
     t = np.linspace(t0, t1, max(int(n_start), 4))
     h0 = t[1] - t[0]
     for b in breakpoints:    # joints of the envelopes, unless a sample is already (nearly) there
@@ -496,6 +500,29 @@ class LevelsRoute(Route):
             self.solver, self.stats["solver"] = _solver(self.model, terms, s, self.ket0,
                                                         coefficients=coefficients, max_step=max_step,
                                                         interaction=s.rwa)
+
+    resource_fix = "use `solver.rwa` = true, fewer `solver.states` or a shorter pulse"
+
+    def estimate_resources(self):
+        """The ODE solver follows every oscillation of its coefficients: the carrier (full
+        coupling) or the detunings and the chirp (RWA) over the pulse window, about 0.3 ms per
+        oscillation for a few sublevels, growing as the square of the model's size; then the
+        closed-form field-free part (negligible)."""
+        if self.pulse is None:
+            return None, None
+        window = self.pulse.t_end - self.pulse.t_start
+        fastest = max(c.omega + abs(c.chirp) * c.length / 2 for c in self.pulse.components)
+        if self.settings.rwa:          # the detuning from the nearest transition sets the pace
+            model = build_model(self.atom, self.settings.sublevels(), decay=False)
+            groups = _transitions(model)
+            fastest = 2 * math.pi / min(c.length for c in self.pulse.components)
+            for c in self.pulse.components:
+                near = nearest_transition(model, c, groups)
+                fastest = max(fastest, abs(c.chirp) * c.length / 2 + (abs(near[1]) if near else 0.0))
+        oscillations = max(1.0, window * fastest / (2 * math.pi))
+        size = len(self.settings.sublevels()) + 2
+        samples = max(257.0, 16 * oscillations)
+        return 16.0 * samples * 6 + 8.0 * size**4, 3e-4 * oscillations * (size / 6) ** 2
 
     @classmethod
     def knobs(cls, settings) -> list:
