@@ -215,6 +215,11 @@ class Route:
         allocates anything; None where the route cannot say (the default)."""
         return None, None
 
+    def samples_over(self, duration: float) -> float:
+        """How many history samples a run over ``duration`` (a.u.) takes under ``[output] every``."""
+        every = self.output.every_au if self.output is not None else None
+        return DEFAULT_SAMPLES + 1.0 if every is None else min(MAX_SAMPLES, duration / every + 2)
+
     def _check_resources(self, max_hours: float | None) -> None:
         from driven_atom.routes.resources import check_resources
 

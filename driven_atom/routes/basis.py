@@ -159,6 +159,8 @@ def _hydrogenic_n(basis, atom, rtol: float = 1e-3) -> int:
     """Largest n up to which every bound state of the basis has its hydrogenic energy within
     ``rtol``; higher box states are distorted by the wall and are reported only as a sum."""
     bound = basis.bound
+    if not bound.any():
+        return 0
     exact = -atom.Z**2 * atom.reduced_mass / (2.0 * basis.n[bound] ** 2)
     bad = basis.n[bound][np.abs(basis.energies[bound] / exact - 1) > rtol]
     return int(bad.min() - 1 if bad.size else basis.n[bound].max())
@@ -224,7 +226,7 @@ class BasisRoute(Route):
         waves = s.l_max + 1
         kept = s.r_max * np.sqrt(2 * self.atom.reduced_mass * s.e_max) / np.pi + np.sqrt(s.r_max)
         memory = 8.0 * (4 * n * n + n * kept * 2 + waves * kept * kept * 2)
-        seconds = waves * n**3 * DENSE_EIGH_NS_PER_N3 * 1e-9
+        seconds = waves * n * n * n * DENSE_EIGH_NS_PER_N3 * 1e-9      # float products: inf, never an error
         return float(memory), float(seconds)
 
     def _prepare(self) -> None:

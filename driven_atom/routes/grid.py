@@ -485,7 +485,9 @@ class GridRoute(Route):
         bound = math.sqrt(self.atom.Z * self.atom.reduced_mass * par.r_max / 2) + 5
         memory = 8.0 * (10 * n * waves + n * waves * bound + 5 * par.n_steps)
         eigen_s = waves * n * BOUND_STATES_S_PER_POINT           # shift-invert Lanczos per partial wave
-        return memory, n * waves * par.n_steps * GRID_NS_PER_POINT_STEP * 1e-9 + eigen_s
+        samples = min(self.samples_over(par.dt * par.n_steps), par.n_steps + 1.0)
+        sample_s = samples * n * waves * (bound + 2) * 2e-9      # projections on the bound states
+        return memory, n * waves * par.n_steps * GRID_NS_PER_POINT_STEP * 1e-9 + eigen_s + sample_s
 
     def _prepare(self) -> None:
         from driven_atom.basis.radial_grid import uniform_grid

@@ -522,7 +522,11 @@ class LevelsRoute(Route):
         oscillations = max(1.0, window * fastest / (2 * math.pi))
         size = len(self.settings.sublevels()) + 2
         samples = max(257.0, 16 * oscillations)
-        return 16.0 * samples * 6 + 8.0 * size**4, 3e-4 * oscillations * (size / 6) ** 2
+        s = self.settings
+        after = s.after or 0.0 if s.t_end is None else max(0.0, s.t_end - self.pulse.t_end)
+        history = self.samples_over(window + after)           # one solver step and one read-out each
+        seconds = 3e-4 * oscillations * (size / 6) ** 2 + 5e-5 * history * (size / 6) ** 2
+        return 16.0 * samples * 6 + 8.0 * size**4 + 8.0 * size * history, seconds
 
     @classmethod
     def knobs(cls, settings) -> list:
