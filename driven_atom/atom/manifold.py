@@ -120,8 +120,23 @@ def total_decay_rate(atom, upper: Component, I2: int = 0) -> float:
 
 
 # --- matrices over a list of m-resolved sublevels --------------------------------------------------
+# A sublevel is a Component with m, or a Bohr State with m (no spin: its expansion is |l m> alone).
 def _expansions(sublevels, I2):
-    return [uncoupled(c, I2 if c.F2 is not None else 0) for c in sublevels]
+    return [uncoupled(c, I2 if c.F2 is not None else 0) if isinstance(c, Component) else {(c.m, 0, 0): 1.0}
+            for c in sublevels]
+
+
+def whole_of(sublevel):
+    """The whole component (or Bohr level) a sublevel belongs to."""
+    return sublevel.whole if isinstance(sublevel, Component) else sublevel.level
+
+
+def _total_rate(atom, whole, I2: int) -> float:
+    if isinstance(whole, Component):
+        return total_decay_rate(atom, whole, I2)
+    from driven_atom.atom.dipoles import total_decay_rate as level_rate
+
+    return level_rate(atom, whole)
 
 
 def orbital_matrix(sublevels, I2: int, element) -> np.ndarray:
@@ -217,7 +232,7 @@ def decay_operators(atom, sublevels, I2: int, energies) -> tuple[list, np.ndarra
     dip = dipole_matrices(atom, sublevels, I2)
     groups: dict = {}
     for i, c in enumerate(sublevels):
-        groups.setdefault(c.whole, []).append(i)
+        groups.setdefault(whole_of(c), []).append(i)
     operators = []
     inside = np.zeros(len(sublevels))
     for U, us in groups.items():
@@ -238,7 +253,7 @@ def decay_operators(atom, sublevels, I2: int, energies) -> tuple[list, np.ndarra
                     inside += np.sum(op * op, axis=0)
     outside = np.zeros(len(sublevels))
     for U, us in groups.items():
-        total = total_decay_rate(atom, U, I2)
+        total = _total_rate(atom, U, I2)
         for u in us:
             outside[u] = max(total - inside[u], 0.0) if total - inside[u] > 1e-9 * total else 0.0
     return operators, outside

@@ -312,7 +312,7 @@ def coupling(atom, pulse, model: LevelModel, settings: LevelsSettings):
     """
     components = pulse.components
     terms = _rwa_terms(model, pulse) if settings.rwa else _full_terms(model, pulse)
-    if settings.ionization_loss:
+    if settings.photoionization:
         _add_ionization(terms, model, atom, pulse)
     t0, t1 = pulse.t_start, pulse.t_end
     window = t1 - t0
@@ -371,36 +371,45 @@ def _field_free_propagator(model: LevelModel):
     return propagator
 
 
-def _solver(model: LevelModel, terms: FieldTerms, settings: LevelsSettings, ket0, *, coefficients,
-            max_step: float, interaction: bool):
-    """The qutip solver of the pulse window: ``SESolver`` for a pure state with nothing
-    dissipating, else ``MESolver`` on the Liouvillian with the time-dependent loss terms."""
-    import qutip as qt
-    from scipy.sparse import csr_matrix
-
-    ts, vals = coefficients
-    n, dims = model.size, [[model.size], [model.size]]
-
-    def qobj(matrix):   # sparse (CSR): the Liouvillian of N levels is N² x N²
-        return qt.Qobj(csr_matrix(matrix), dims=dims)
-
+def _bohr_operators(model: LevelModel, settings: LevelsSettings, interaction: bool):
+    """H0 (lab frame: the energies; interaction picture: zero) and the collapse matrices of the Bohr
+    model: one per decay channel, then the dephasing projectors of each energy."""
+    n = model.size
     H0 = np.zeros((n, n), dtype=complex)
     if not interaction:
         H0[:len(model.states), :len(model.states)] = np.diag(model.energies)
-    H = qt.QobjEvo([qobj(H0)] + [[qobj(A), qt.coefficient(vals[r].conj() if conj else vals[r], tlist=ts)]
-                                   for A, r, conj in terms.hamiltonian])
     c_ops = []
     for i, j, rate in model.channels:
         L = np.zeros((n, n), dtype=complex)
         L[j, i] = math.sqrt(rate)
-        c_ops.append(qobj(L))
+        c_ops.append(L)
     gamma = settings.dephasing
     if gamma > 0 and len(np.unique(model.energies)) > 1:
         for E in np.unique(model.energies):
             P = np.zeros((n, n), dtype=complex)
             idx = np.nonzero(model.energies == E)[0]
             P[idx, idx] = math.sqrt(gamma)
-            c_ops.append(qobj(P))
+            c_ops.append(P)
+    return H0, c_ops
+
+
+def _solver(size: int, H0, c_ops, terms: FieldTerms, settings: LevelsSettings, ket0, *, coefficients,
+            max_step: float):
+    """The qutip solver of the pulse window for H = H0 + Σ c_r(t) H_r and the collapse matrices
+    ``c_ops``: ``SESolver`` for a pure state with nothing dissipating, else ``MESolver`` on the
+    Liouvillian with the time-dependent loss terms."""
+    import qutip as qt
+    from scipy.sparse import csr_matrix
+
+    ts, vals = coefficients
+    dims = [[size], [size]]
+
+    def qobj(matrix):   # sparse (CSR): the Liouvillian of N levels is N² x N²
+        return qt.Qobj(csr_matrix(matrix), dims=dims)
+
+    H = qt.QobjEvo([qobj(H0)] + [[qobj(A), qt.coefficient(vals[r].conj() if conj else vals[r], tlist=ts)]
+                                 for A, r, conj in terms.hamiltonian])
+    c_ops = [qobj(c) for c in c_ops]
     options = {"atol": settings.atol, "rtol": settings.rtol, "nsteps": settings.nsteps,
                "method": settings.method, "max_step": max_step, "store_states": False,
                "store_final_state": False, "normalize_output": False, "progress_bar": ""}
@@ -458,7 +467,7 @@ class LevelsRoute(Route):
         s = self.settings
         pulse = self.pulse
         components = tuple(pulse.components) if pulse is not None else ()
-        self.model = build_model(self.atom, s.sublevels(), decay=s.decay, ionization_sink=s.ionization_loss)
+        self.model = build_model(self.atom, s.sublevels(), decay=s.decay, ionization_sink=s.photoionization)
         t0 = pulse.t_start if components else 0.0
         self.t_pulse = pulse.t_end if components else t0
         if s.t_end is not None:
@@ -482,9 +491,9 @@ class LevelsRoute(Route):
             self.notes += terms.notes
             self.stats["coefficient_samples"] = int(len(coefficients[0]))
             max_step = s.max_step if s.max_step is not None else min(c.length for c in components) / 10
-            self.solver, self.stats["solver"] = _solver(self.model, terms, s, self.ket0,
-                                                        coefficients=coefficients, max_step=max_step,
-                                                        interaction=s.rwa)
+            H0, c_ops = _bohr_operators(self.model, s, interaction=s.rwa)
+            self.solver, self.stats["solver"] = _solver(self.model.size, H0, c_ops, terms, s, self.ket0,
+                                                        coefficients=coefficients, max_step=max_step)
 
     def _initial(self):
         import qutip as qt
