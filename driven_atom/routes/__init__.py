@@ -75,14 +75,17 @@ def build_route(cfg: RunConfig, *, cache_dir=None):
     atom = cfg.build_atom()
     pulse = build_pulse(cfg, atom)
     cls = route_class(cfg.route)
-    return cls(atom, pulse, cfg.solver, initial=cfg.initial_states(), output=cfg.output, cache_dir=cache_dir)
+    return cls(atom, pulse, cfg.solver, initial=cfg.initial_states(), output=cfg.output, cache_dir=cache_dir,
+               structure=cfg.atom.structure, fields=cfg.fields)
 
 
 def propagate(atom, pulse, settings, *, initial, output=None, checkpoint=None, progress: bool = False,
-              cache_dir=None):
+              cache_dir=None, structure: str = "bohr", fields=None):
     """Run the route of ``settings`` (a model of :mod:`driven_atom.settings`) on ready-made objects:
     an :class:`~driven_atom.atom.Atom`, a :class:`~driven_atom.pulse.Pulse` (or None), the initial
-    state as [(State, amplitude)]; no config and no file (a notebook's shortcut to one route).
+    state as [(State or Component, amplitude)], the level ``structure`` and static ``fields``
+    (a :class:`driven_atom.config.FieldsConfig`); no config and no file (a notebook's shortcut to one
+    route).
 
     >>> from driven_atom.atom import Atom, State
     >>> from driven_atom.settings import LevelsSettings
@@ -95,7 +98,7 @@ def propagate(atom, pulse, settings, *, initial, output=None, checkpoint=None, p
 
     cls = route_class(settings.route)
     route = cls(atom, pulse, settings, initial=initial, output=output if output is not None else OutputConfig(),
-                cache_dir=cache_dir)
+                cache_dir=cache_dir, structure=structure, fields=fields)
     return route.run(checkpoint=checkpoint if route.resumable else None, progress=progress)
 
 
