@@ -8,7 +8,7 @@ HDF5 layout of a result file (``NAME.h5``)::
             sha256 (checksum of the result's content, see :func:`content_digest`)
     /times                       history sample times (a.u.)
     /populations                 attrs label -> final population; dataset "labels"/"values"
-    /history/populations/<label> population at each sample time
+    /history/populations/<label> population at each sample time ("/" in a label, "2p3/2", written %2F)
     /history/series/<name>       other sampled series (norm, ionization, dipole_z, ...)
     /spectra/<name>/<array>      spectra, each a group of named arrays with a "units" attribute
 

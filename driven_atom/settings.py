@@ -73,7 +73,8 @@ class LevelsSettings(RouteSettings):
         "rotating-wave approximation: each pulse drives only the transitions nearest its carrier"))
     decay: Flag = Field(True, description="spontaneous decay with the Einstein A of each m->m' channel")
     dephasing: Quantity("rate", ge=0) = Field(0.0, description=(
-        'pure dephasing rate of coherences between different energies ("1 GHz" = 1e9 s^-1)'))
+        'pure dephasing rate of coherences between different energies ("1 GHz" = 1e9 s^-1); with '
+        '`atom.structure` "fine" or "hyperfine", between different shells n'))
     ionization_loss: Flag | None = Field(None, description=(
         "photoionisation loss of every level at the instantaneous intensity, into `ionization` "
         "(default: on with `two_photon`, off otherwise)"))

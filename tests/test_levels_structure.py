@@ -236,3 +236,26 @@ def test_kestrel_1s_2s_config_shows_the_shifted_line(tmp_path):
     assert line[1] > line[0] and line[1] > line[2]                  # the peak near +0.5 MHz (Stark-shifted)
     assert line[2] > line[0]                                         # the line leans to the blue
     assert (ds["ionization"].values > 1e-3).all()
+
+
+def test_component_labels_survive_the_result_file_and_the_figure(tmp_path):
+    config = {"atom": {"Z": 1, "nucleus": "H", "structure": "fine", "initial": "2p3/2 m=1/2"},
+              "solver": {"route": "levels", "states": ["1s", "2p3/2"], "after": "1 ns"}}
+    result = driven_atom.run(config, out=tmp_path, progress=False)
+    back = driven_atom.open_result(result.metadata["file"])
+    assert back.populations == result.populations and "2p3/2 m=1/2" in back.history_populations
+    assert np.array_equal(back.history_populations["2p3/2"], result.history_populations["2p3/2"])
+    from driven_atom.plotting import _levels_only, result_figure
+
+    assert sorted(_levels_only(back.populations)) == ["1s1/2", "2p3/2"]
+    result_figure(back, tmp_path / "fig.png")
+    assert (tmp_path / "fig.png").stat().st_size > 0
+
+
+def test_a_scan_over_the_static_field():
+    from driven_atom.campaign.scan import expand
+
+    plan = expand({"atom": {"Z": 1, "nucleus": "H", "structure": "fine", "initial": "2s1/2 m=1/2"},
+                   "solver": {"route": "levels", "states": ["1s", "2s", "2p"], "after": "1 us"},
+                   "scan": {"fields.electric": {"from": "1 V/cm", "to": "3 V/cm", "num": 3}}})
+    assert plan.shape == (3,) and plan.axes[0].units == "V/cm" and len({job.id for job in plan.jobs}) == 3

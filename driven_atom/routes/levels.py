@@ -26,6 +26,19 @@ Dissipation (Lindblad form, Gorini–Kossakowski–Sudarshan 1976; Lindblad 1976
   :func:`driven_atom.atom.photoionization.cross_section` at the carrier ω and the cycle-averaged
   intensity I(t) = c|ℰ(t)|²/(8π) (a.u.). The sink populations and the model add up to 1 (``norm``).
 
+Real level structure (``[atom] structure`` = "fine" or "hyperfine", or ``two_photon``; docs/physics.md):
+the sublevels |n l j m_j> or |n l j F m_F> with the energies of :mod:`driven_atom.atom.structure`, the
+apparatus' static fields (``[fields]``) and decay per component, built by
+:mod:`driven_atom.routes.structured_model`. The RWA then works in a frame rotating with one reference
+energy per shell n (the mean of the model's field-free energies there): the fine, hyperfine, Zeeman and
+Stark splittings stay in a static Hamiltonian, each pulse drives the pair of shells nearest its carrier
+(or, with ``two_photon``, twice its carrier: two-photon couplings and the ac Stark operator of every
+shell, :mod:`driven_atom.atom.twophoton`), and after the pulse the master equation is propagated in
+closed form, ρ(t) = exp(L t) ρ(0) (scipy.linalg.expm of the Liouvillian). Populations are those of the
+dressed states (the eigenstates of each shell in the static fields), labelled by the field-free
+sublevel each continues; "elsewhere" and "ionized" as above. Dephasing then damps coherences between
+shells.
+
 Time-dependent coefficients are sampled once on an adaptively refined grid (cubic splines, the
 interpolation qutip uses, checked at every interval midpoint against ``sampling_tol``), then qutip's
 ``MESolver`` (or ``SESolver`` when nothing dissipates) propagates over the pulse window. After the
