@@ -37,7 +37,7 @@ from driven_atom.atom.components import check_label
 from driven_atom.atom.species import Atom
 from driven_atom.errors import InputError, short, validation_message
 from driven_atom.io import read_regular_text
-from driven_atom.quantities import Integer, Number, Quantity
+from driven_atom.quantities import Flag, Integer, Number, Quantity
 from driven_atom.settings import SETTINGS, RouteSettings
 
 HASH_VERSION = 3                     # bump when the meaning of a hashed value changes
@@ -220,6 +220,8 @@ class OutputConfig(_Section):
 
     every: Quantity("time", gt=0) | None = Field(None, description="history sampling interval "
                                                  "(default: 200 samples over the run)")
+    error_estimate: Flag = Field(False, description="run a coarser companion and store an error bar "
+                                 "for every scalar (ionization_err, ...); costs about a third of the run")
 
     @property
     def every_au(self) -> float | None:

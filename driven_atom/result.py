@@ -186,7 +186,7 @@ def write_result(path, result: Result, *, attrs: dict | None = None) -> Path:
     from driven_atom.io import atomic_write
 
     path = Path(path)
-    with atomic_write(path) as tmp:
+    with atomic_write(path, size_hint=_size(result)) as tmp:
         with h5py.File(tmp, "w") as f:
             _write_body(f, result)
             _write_attrs(f, provenance())
@@ -199,6 +199,28 @@ def write_result(path, result: Result, *, attrs: dict | None = None) -> Path:
             f.attrs["sha256"] = content_digest(result)
             f.attrs["complete"] = True
     return path
+
+
+def _size(result: Result) -> float:
+    """Bytes the arrays of ``result`` take (the file takes about this plus its attributes)."""
+    arrays = [result.times, *result.history_populations.values(), *result.series.values()]
+    arrays += [a for group in result.spectra.values() for a in group.values()]
+    return float(sum(np.asarray(a).nbytes for a in arrays)) + 16 * len(result.populations)
+
+
+def stored_physics_hash(path) -> str | None:
+    """The physics hash of a complete result file (``None``: no complete result there)."""
+    import h5py
+
+    from driven_atom.io import is_complete as complete
+
+    if not complete(path):
+        return None
+    try:
+        with h5py.File(path, "r") as f:
+            return str(f.attrs.get("physics_hash", ""))
+    except (OSError, ValueError):
+        return None
 
 
 def is_complete(path) -> bool:

@@ -162,8 +162,9 @@ class BasisSettings(RouteSettings):
     warn_population: Number(gt=0, le=1) = Field(1e-4, description="warn when the population in "
                                                  "l = l_max or near e_max exceeds this")
     cache_dir: str | None = Field("auto", description="folder for the basis cache: \"auto\" = "
-                                  "`.basis-cache` beside the result file, \"none\" = no disk cache; "
-                                  "another folder only from the command line or the Python API")
+                                  "`.basis-cache` beside the result file, \"none\" = no disk cache, or a "
+                                  "folder name inside the result's folder; a folder elsewhere only from the "
+                                  "command line (--cache-dir) or the Python API")
     spectrum_points: Integer(ge=10, le=100_000) = Field(400, description="energies in the photoelectron spectrum")
     checkpoint_every: CheckpointCadence(steps_allowed=False) = Field(
         Cadence(seconds=60.0), description="wall-clock time between checkpoints (\"60 s\", \"10 min\")")
@@ -172,6 +173,21 @@ class BasisSettings(RouteSettings):
     @classmethod
     def _old_names(cls, data):
         return _renamed(data, "form", "gauge", "basis")
+
+    @field_validator("cache_dir")
+    @classmethod
+    def _confined(cls, value):
+        """Only a plain relative folder name: the cache stays inside the result's folder."""
+        if value is None or value in ("auto", "none"):
+            return value
+        from pathlib import PurePosixPath
+
+        path = PurePosixPath(value)
+        if path.is_absolute() or ".." in path.parts or "\\" in value or not value.strip():
+            raise ValueError('`solver.cache_dir` must be "auto", "none" or a folder name inside the result\'s '
+                             "folder (no absolute path, no \"..\"); give another folder on the command line "
+                             f"with --cache-dir, got {value[:80]!r}")
+        return value
 
 
 class GridSettings(RouteSettings):

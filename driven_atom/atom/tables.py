@@ -128,7 +128,8 @@ def transition(state_a, state_b, *, Z=None, nucleus=None, structure: str = "bohr
 
 def state(label, *, Z=None, nucleus=None, structure: str = "bohr") -> dict:
     """One level: ``energy_eV`` (E_n < 0), ``binding_eV`` (-E_n), ``lifetime_s`` (radiative,
-    all lower levels; ``None`` if there is no electric-dipole decay) and ``r_mean_au`` (<r>).
+    all lower levels; ``None`` if there is no electric-dipole decay, or for n above
+    :data:`~driven_atom.atom.dipoles.MAX_N_LIFETIME` with a ``note`` saying so) and ``r_mean_au`` (<r>).
 
     >>> out = state("3d")
     >>> round(out["lifetime_s"] * 1e9, 2), out["r_mean_au"] > 10.5
@@ -136,7 +137,7 @@ def state(label, *, Z=None, nucleus=None, structure: str = "bohr") -> dict:
 
     With ``structure`` "fine" or "hyperfine" see :func:`component_state`.
     """
-    from driven_atom.atom.dipoles import lifetime
+    from driven_atom.atom.dipoles import MAX_N_LIFETIME, lifetime
     from driven_atom.atom.levels import energy
     from driven_atom.atom.radial import expectation_r
 
@@ -145,12 +146,15 @@ def state(label, *, Z=None, nucleus=None, structure: str = "bohr") -> dict:
         return component_state(atom, label, structure)
     s = _label(label)
     e = float(energy(atom, s.n))
-    return {
+    out = {
         "energy_eV": e * HARTREE_EV,
         "binding_eV": -e * HARTREE_EV,
-        "lifetime_s": _finite(lifetime(atom, s) * AU_TIME_S),
+        "lifetime_s": _finite(lifetime(atom, s) * AU_TIME_S) if s.n <= MAX_N_LIFETIME else None,
         "r_mean_au": expectation_r(atom, s.n, s.l, 1),
     }
+    if s.n > MAX_N_LIFETIME:
+        out["note"] = f"lifetimes are summed exactly for n <= {MAX_N_LIFETIME}"
+    return out
 
 
 # --- fine and hyperfine structure ---------------------------------------------------------------

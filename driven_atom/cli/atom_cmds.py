@@ -128,7 +128,8 @@ def handle_state(args):
     out = state(args.state, Z=args.Z, nucleus=args.nucleus, structure=args.structure)
     if args.json:
         return out
-    lifetime = "no electric-dipole decay" if out["lifetime_s"] is None else f"{out['lifetime_s']:.6g} s"
+    lifetime = ("no electric-dipole decay" if out["lifetime_s"] is None and "note" not in out
+                else out.get("note", "") if out["lifetime_s"] is None else f"{out['lifetime_s']:.6g} s")
     digits = 6 if args.structure == "bohr" else 12
     items = [("energy", f"{out['energy_eV']:.{digits}f} eV"), ("binding energy", f"{out['binding_eV']:.{digits}f} eV"),
              ("radiative lifetime", lifetime), ("<r>", f"{out['r_mean_au']:.6g} bohr")]

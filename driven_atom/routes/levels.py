@@ -66,7 +66,8 @@ from driven_atom.units import C_AU
 
 ELSEWHERE = "elsewhere"
 IONIZED = "ionized"
-RWA_DETUNING_LIMIT = 0.1     # |ω - ω_ul|/ω_ul above which the RWA is reported invalid
+RWA_SOFT, RWA_HARD = 0.1, 0.5   # |ω − ω_ul|/ω_ul or Ω/ω_ul: the RWA is questionable / invalid
+RESONANCE_WIDTHS = 10.0         # a carrier farther than this many spectral widths drives nothing
 MAX_COEFFICIENT_VALUES = 20_000_000   # samples x terms kept in memory for the coefficients
 
 
@@ -181,10 +182,27 @@ def _transitions(model: LevelModel) -> dict[float, list[tuple[int, int]]]:
     return groups
 
 
+def _transition_names(model: LevelModel, groups) -> dict:
+    return {w: "/".join(sorted({f"{model.states[l].level.label}-{model.states[u].level.label}"
+                                for u, l in pairs})) for w, pairs in groups.items()}
+
+
+def nearest_transition(model: LevelModel, comp, groups=None):
+    """(ω_ul, detuning ω_ul − ω, peak Rabi frequency, name) of the model's dipole transition nearest
+    to the carrier of one pulse component, or None when no two states are coupled. The Rabi
+    frequency is |⟨u|ε·r|l⟩| F₀ at the peak (the chirp's largest instantaneous field included)."""
+    groups = _transitions(model) if groups is None else groups
+    if not groups or comp.omega == 0:
+        return None
+    w = min(groups, key=lambda w: abs(w - comp.omega))
+    e_q = spherical_coefficients(comp.jones)
+    peak = comp.peak_field * (1 + abs(comp.chirp) * comp.length / (2 * comp.omega))
+    rabi = peak * max(abs(model.dipoles[:, u, l] @ e_q) for u, l in groups[w])
+    return w, w - comp.omega, rabi, _transition_names(model, groups)[w]
+
+
 def _rwa_terms(model: LevelModel, pulse) -> FieldTerms:
     groups = _transitions(model)
-    names = {w: "/".join(sorted({f"{model.states[l].level.label}-{model.states[u].level.label}"
-                                 for u, l in pairs})) for w, pairs in groups.items()}
     hamiltonian, dissipators, rows, notes, warnings = [], [], [], [], []
     top = 0.0
     for k, comp in enumerate(pulse.components):
@@ -193,19 +211,10 @@ def _rwa_terms(model: LevelModel, pulse) -> FieldTerms:
         if not groups:
             warnings.append(f"pulse[{k}] drives nothing: no two states of the model are dipole-coupled")
             continue
-        w = min(groups, key=lambda w: abs(w - comp.omega))
-        detuning = w - comp.omega
-        notes.append(f"pulse[{k}] (ω = {comp.omega:.6g} au) drives {names[w]} "
+        w, detuning, _, name = nearest_transition(model, comp, groups)
+        notes.append(f"pulse[{k}] (ω = {comp.omega:.6g} au) drives {name} "
                      f"(ω_ul = {w:.6g} au, detuning {detuning:+.3g} au)")
-        if abs(detuning) > RWA_DETUNING_LIMIT * w:
-            warnings.append(f"RWA invalid: pulse[{k}] carrier {comp.omega:.4g} au is {abs(detuning) / w:.0%} "
-                            f"off the nearest transition in the model ({names[w]}, {w:.4g} au); use rwa = false")
         e_q = spherical_coefficients(comp.jones)
-        peak = comp.peak_field * (1 + abs(comp.chirp) * comp.length / (2 * comp.omega))
-        rabi = peak * max(abs(model.dipoles[:, u, l] @ e_q) for u, l in groups[w])
-        if rabi > RWA_DETUNING_LIMIT * w:
-            warnings.append(f"RWA questionable: pulse[{k}] Rabi frequency {rabi:.3g} au is "
-                            f"{rabi / w:.0%} of the transition frequency {w:.4g} au")
         for qi in range(3):
             if e_q[qi] == 0:
                 continue
@@ -409,7 +418,7 @@ def structured_terms(atom, pulse, model, settings: LevelsSettings, reference) ->
                     rows.append(("two", k, None, detuning))
                     notes.append(f"pulse[{k}] (ω = {comp.omega:.9g} au) drives shells {nl} -> {nu} by two photons "
                                  f"(ω_ul - 2ω = {detuning:+.4g} au)")
-                    if abs(detuning) > RWA_DETUNING_LIMIT * w:
+                    if abs(detuning) > RWA_SOFT * w:
                         warnings.append(f"RWA invalid: twice the carrier of pulse[{k}] is {abs(detuning) / w:.0%} off "
                                         f"the nearest two-photon interval in the model (shells {nl} -> {nu})")
                 else:
@@ -441,9 +450,6 @@ def structured_terms(atom, pulse, model, settings: LevelsSettings, reference) ->
         detuning = w - comp.omega
         notes.append(f"pulse[{k}] (ω = {comp.omega:.9g} au) drives shells {nl} -> {nu} "
                      f"(reference interval {w:.9g} au, detuning {detuning:+.3g} au)")
-        if abs(detuning) > RWA_DETUNING_LIMIT * w:
-            warnings.append(f"RWA invalid: pulse[{k}] carrier {comp.omega:.4g} au is {abs(detuning) / w:.0%} off the "
-                            f"nearest transition in the model (shells {nl} -> {nu}); use rwa = false")
         upper, lower = shells == nu, shells == nl
         mask = np.outer(upper, lower)
         for qi in range(3):
@@ -625,6 +631,7 @@ class LevelsRoute(Route):
     static_fields = True
     needs_pulse = False
     resumable = False
+    tolerance_key = "solver.rtol"
 
     @classmethod
     def check(cls, atom, pulse, initial, cfg=None) -> None:
@@ -686,8 +693,9 @@ class LevelsRoute(Route):
         self.model = build_model(self.atom, s.sublevels(), decay=s.decay, ionization_sink=s.photoionization)
         self._window()
         t0 = self.t_start
+        self.norm_tolerance = max(1e-6, 1e4 * s.rtol)      # the ODE solver keeps the trace to about this
         self.rho0, self.ket0 = _initial_density(self.model, self.initial, t0, interaction=s.rwa)
-        self.stats = {"n_sublevels": len(self.model.states), "solver": "closed form"}
+        self.stats.update({"n_sublevels": len(self.model.states), "solver": "closed form"})
         self.notes = []
         self.free = _field_free_propagator(self.model)
         self.solver = None
@@ -700,6 +708,80 @@ class LevelsRoute(Route):
             H0, c_ops = _bohr_operators(self.model, s, interaction=s.rwa)
             self.solver, self.stats["solver"] = _solver(self.model.size, H0, c_ops, terms, s, self.ket0,
                                                         coefficients=coefficients, max_step=max_step)
+
+    @classmethod
+    def knobs(cls, settings) -> list:
+        """The ODE tolerances (errors ∝ tolerance); the kept states are a model choice, not a knob."""
+        from driven_atom.convergence import Knob
+
+        return [Knob("rtol", settings.rtol, settings.rtol / 2, 2 * settings.rtol, 1, 1.2),
+                Knob("atol", settings.atol, settings.atol / 2, 2 * settings.atol, 1, 1.2)]
+
+    @classmethod
+    def companion(cls, settings, result):
+        """The ODE tolerances and the sampling tolerance of the coefficients loosened 16-fold
+        (errors ∝ tolerance): K = 16. The kept states are not varied (a model choice)."""
+        knobs = {"rtol": 16 * settings.rtol, "atol": 16 * settings.atol,
+                 "sampling_tol": min(16 * settings.sampling_tol, 5e-3)}
+        return settings.model_copy(update=knobs), 16.0, knobs
+
+    def preflight(self) -> list:
+        """The rotating-wave approximation against its conditions (detuning and Rabi frequency
+        ≪ ω_ul; Allen & Eberly 1975) and, for every carrier, the nearest transition of the model:
+        a carrier farther than 10 spectral widths from every line is reported with the line, its
+        wavelength, the detuning and the pulse area."""
+        from driven_atom.routes.quality import assess
+        from driven_atom.units import AU_TIME_S, photon_energy_to_wavelength_nm
+
+        checks = []
+        if self.pulse is None:
+            return checks
+        if self.settings.two_photon:
+            self._two_photon_preflight()
+            return checks
+        groups = _transitions(self.model)
+        for k, comp in enumerate(self.pulse.components):
+            near = nearest_transition(self.model, comp, groups)
+            if near is None:
+                continue
+            w, detuning, rabi, name = near
+            if self.settings.rwa:
+                checks.append(assess(f"rwa_detuning_pulse{k}", abs(detuning) / w, soft=RWA_SOFT, hard=RWA_HARD,
+                                     key="solver.rwa", why=f"pulse {k}: detuning over the transition frequency "
+                                                           f"of {name} (the RWA needs it small)",
+                                     fix="set `solver.rwa` = false"))
+                checks.append(assess(f"rwa_rabi_pulse{k}", rabi / w, soft=RWA_SOFT, hard=RWA_HARD, key="solver.rwa",
+                                     why=f"pulse {k}: Rabi frequency over the transition frequency of {name}",
+                                     fix="set `solver.rwa` = false"))
+            width = 2 * math.pi / (comp.fwhm or comp.length)
+            if abs(detuning) > RESONANCE_WIDTHS * width:
+                t, wq = comp._quadrature(abs(comp.chirp) * comp.length / 2)
+                area = rabi / comp.peak_field * float(wq @ np.linalg.norm(comp.complex_envelope(t), axis=1)) \
+                    if comp.peak_field > 0 else 0.0
+                self.warnings.append(
+                    f"pulse {k}: nothing is resonant within {RESONANCE_WIDTHS:g} spectral widths; nearest line "
+                    f"{name} at {photon_energy_to_wavelength_nm(w):.7g} nm, detuning {detuning:+.4g} au "
+                    f"({detuning / (2 * math.pi * AU_TIME_S) / 1e9:+.4g} GHz), pulse area {area:.3g} rad")
+        return checks
+
+    def _two_photon_preflight(self) -> None:
+        """For every carrier, the two-photon line of the model (states of equal parity in different
+        shells) nearest 2ω; one farther than 10 spectral widths is reported with its detuning."""
+        from driven_atom.units import AU_TIME_S
+
+        model = self.model
+        pairs = [(model.energies[u] - model.energies[l], f"{model.states[l].label} -> {model.states[u].label}")
+                 for u, su in enumerate(model.states) for l, sl in enumerate(model.states)
+                 if su.n > sl.n and (su.l - sl.l) % 2 == 0 and abs(su.l - sl.l) <= 2]
+        for k, comp in enumerate(self.pulse.components):
+            if not pairs or comp.omega == 0:
+                continue
+            w, name = min(pairs, key=lambda p: abs(p[0] - 2 * comp.omega))
+            detuning = w - 2 * comp.omega
+            if abs(detuning) > RESONANCE_WIDTHS * 2 * math.pi / (comp.fwhm or comp.length):
+                self.warnings.append(f"pulse {k}: no two-photon line within {RESONANCE_WIDTHS:g} spectral widths; "
+                                     f"nearest {name}, 2ω off by {detuning:+.4g} au "
+                                     f"({detuning / (2 * math.pi * AU_TIME_S) / 1e9:+.4g} GHz)")
 
     def _initial(self):
         import qutip as qt
@@ -719,8 +801,12 @@ class LevelsRoute(Route):
         return {"p": None, "qobj": start}
 
     def _step_pulse(self, state, t_next: float):
+        import warnings
+
         try:
-            qobj = self.solver.step(t_next)
+            with warnings.catch_warnings():      # the integrator's own complaints: our message says it
+                warnings.simplefilter("ignore", UserWarning)
+                qobj = self.solver.step(t_next)
         except Exception as exc:  # noqa: BLE001 - qutip's integrator errors are not a shared type
             raise InputError(f"the ODE solver stopped at t = {t_next:.6g} au: {str(exc).splitlines()[0][:200]} "
                              f"(raise `solver.nsteps` or loosen `solver.atol`/`solver.rtol`)") from None
@@ -805,7 +891,8 @@ class LevelsRoute(Route):
         free_H = np.zeros((size, size), dtype=complex)
         free_H[:N, :N] = model.static - np.diag(shell_frame)      # after the pulses: always the shell frame
         self.free = _liouvillian_propagator(free_H, c_ops)
-        self.stats = {"n_sublevels": N, "solver": "closed form"}
+        self.norm_tolerance = max(1e-6, 1e4 * s.rtol)      # the ODE solver keeps the trace to about this
+        self.stats.update({"n_sublevels": N, "solver": "closed form"})
         self.notes, self.details, self.solver = [], [], None
         if components:
             H0 = np.zeros((size, size), dtype=complex)
