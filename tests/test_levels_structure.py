@@ -259,3 +259,13 @@ def test_a_scan_over_the_static_field():
                    "solver": {"route": "levels", "states": ["1s", "2s", "2p"], "after": "1 us"},
                    "scan": {"fields.electric": {"from": "1 V/cm", "to": "3 V/cm", "num": 3}}})
     assert plan.shape == (3,) and plan.axes[0].units == "V/cm" and len({job.id for job in plan.jobs}) == 3
+
+
+def test_error_bars_run_the_companion_on_the_same_structure(tmp_path):
+    config = {"atom": {"Z": 1, "nucleus": "H", "structure": "hyperfine", "initial": "2p3/2 F=2 m=2"},
+              "fields": {"magnetic": "10 G"},
+              "solver": {"route": "levels", "states": ["1s", "2p3/2"], "after": "1 ns"}}
+    result = driven_atom.run(config, out=tmp_path, progress=False, error_estimate=True)
+    errors = result.quality["errors"]
+    assert errors["method"] == "richardson" and "2p3/2 F=2 m=2" in errors["populations"]
+    assert errors["populations"]["2p3/2 F=2 m=2"] < 1e-6 * result.populations["2p3/2 F=2 m=2"] + 1e-12

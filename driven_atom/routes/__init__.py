@@ -160,7 +160,8 @@ def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, 
     if cfg.output.error_estimate if error_estimate is None else error_estimate:
         started = time.perf_counter()
         companion, factor, knobs = run_companion(type(route), route.atom, route.pulse, cfg.solver,
-                                                 route.initial, cfg.output, result)
+                                                 route.initial, cfg.output, result, structure=route.structure,
+                                                 fields=route.fields)
         result.stats["companion_s"] = time.perf_counter() - started
         result.quality["errors"] = (error_block(result, companion, factor, knobs) if companion is not None
                                     else {"method": "unavailable", "companion": knobs,
