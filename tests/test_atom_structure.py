@@ -41,7 +41,8 @@ def test_lamb_shift_2s_2p():
 
 
 def test_2s_2p3_2_interval():
-    assert interval_hz(H, "2p3/2", "2s1/2") == pytest.approx(9911.200e6, rel=1e-5)  # Hagley & Pipkin, PRL 72, 1172 (1994)
+    # Hagley & Pipkin, PRL 72, 1172 (1994)
+    assert interval_hz(H, "2p3/2", "2s1/2") == pytest.approx(9911.200e6, rel=1e-5)
 
 
 def test_1s_2s_hyperfine_centroid():
@@ -52,7 +53,7 @@ def test_1s_2s_hyperfine_centroid():
 
 def test_1s_2s_isotope_shift_h_d():
     shift = interval_hz(D, "2s1/2", "1s1/2") - interval_hz(H, "2s1/2", "1s1/2")
-    assert shift == pytest.approx(670_994_334.606e3, rel=1e-6)      # Parthey et al., PRL 104, 233001 (2010) (from memory)
+    assert shift == pytest.approx(670_994_334.606e3, rel=1e-6)   # Parthey et al., PRL 104, 233001 (2010) (from memory)
 
 
 def test_he_plus_lamb_shift():
@@ -63,7 +64,8 @@ def test_he_plus_lamb_shift():
 @pytest.mark.parametrize("nucleus, upper, lower, reference, rel", [
     ("H", "F=1", "F=0", 1420.405751768e6, 1e-4),     # hydrogen maser (Hellwig et al., IEEE Trans. IM 19, 200 (1970))
     ("D", "F=3/2", "F=1/2", 327.384352522e6, 2e-4),  # Wineland & Ramsey, PRA 5, 821 (1972)
-    ("T", "F=1", "F=0", 1516.701470773e6, 1e-4),     # Mathur, Crampton, Kleppner & Ramsey, Phys. Rev. 158, 14 (1967) (from memory)
+    # Mathur, Crampton, Kleppner & Ramsey, Phys. Rev. 158, 14 (1967) (from memory)
+    ("T", "F=1", "F=0", 1516.701470773e6, 1e-4),
 ])
 def test_ground_state_hyperfine_splitting(nucleus, upper, lower, reference, rel):
     atom = Atom.from_name(nucleus)
@@ -81,7 +83,8 @@ def test_2s_hyperfine_splitting():
 
 
 def test_2p_fine_structure():
-    assert interval_hz(H, "2p3/2", "2p1/2") == pytest.approx(10969.04e6, rel=1e-5)   # Horbatsch & Hessels, PRA 93, 022513 (2016) (from memory)
+    # Horbatsch & Hessels, PRA 93, 022513 (2016) (from memory)
+    assert interval_hz(H, "2p3/2", "2p1/2") == pytest.approx(10969.04e6, rel=1e-5)
 
 
 def test_hyperfine_centroid_is_the_fine_level():
@@ -105,7 +108,8 @@ def test_manifold_label_is_the_weighted_centroid():
 def test_lande_g_factors():
     assert lande_g(0, 1) == pytest.approx(-sc.physical_constants["electron g factor"][0], rel=1e-12)  # CODATA via scipy
     a = ELECTRON_ANOMALY
-    assert lande_g(1, 3) == pytest.approx(4 / 3 + 2 * a / 3, rel=1e-12)    # Landé formula with g_s = 2(1 + a_e) (common practice)
+    # Landé formula with g_s = 2(1 + a_e), g_L = 1 (common practice)
+    assert lande_g(1, 3) == pytest.approx(4 / 3 + 2 * a / 3, rel=1e-12)
     assert lande_g(1, 1) == pytest.approx(2 / 3 - 2 * a / 3, rel=1e-12)
     assert lande_g(2, 5) == pytest.approx(6 / 5 + 2 * a / 5, rel=1e-12)
 
@@ -229,5 +233,6 @@ def test_lines_table_lists_components():
     uppers = {(r["upper"], r["lower"]) for r in out["lines"]}
     assert ("3d5/2", "2p3/2") in uppers and ("3s1/2", "2p1/2") in uppers and len(uppers) == 7
     h_alpha = max(out["lines"], key=lambda r: r["A_s"])
-    assert h_alpha["upper"] == "3d5/2" and h_alpha["air_nm"] == pytest.approx(656.2852, rel=1e-6)  # NIST ASD (air) (from memory)
+    assert h_alpha["upper"] == "3d5/2"
+    assert h_alpha["air_nm"] == pytest.approx(656.2852, rel=1e-6)        # NIST ASD (air) (from memory)
     assert photon_energy_to_wavelength_nm(1.0) > 0 and AU_TIME_S > 0

@@ -142,7 +142,8 @@ def test_structure_labels_are_checked_at_load():
     with pytest.raises(InputError, match="repeats sublevel"):
         load_config({**base, "solver": {**base["solver"], "states": ["2p", "2p3/2"]}})
     with pytest.raises(InputError, match="m_l sublevel"):
-        load_config({**base, "atom": {**base["atom"], "initial": "2p0"}, "solver": {**base["solver"], "states": ["2p"]}})
+        load_config({**base, "atom": {**base["atom"], "initial": "2p0"},
+                     "solver": {**base["solver"], "states": ["2p"]}})
     with pytest.raises(InputError, match="F must be one of 1/2, 3/2"):
         load_config({"atom": {"nucleus": "D", "structure": "hyperfine"},
                      "solver": {"route": "levels", "after": 1.0, "states": ["1s1/2 F=1"]}})

@@ -8,13 +8,13 @@ Formulas of the CODATA adjustment (Mohr, Taylor & Newell, Rev. Mod. Phys. 84, 15
 "MTN" below), with m_e c^2 = 1/alpha^2 hartree, mu = m_r/m_e, M the nuclear mass in m_e,
 kappa = (-1)^(j - l + 1/2) (j + 1/2) and L = ln (Z alpha)^-2:
 
-* Dirac + recoil (MTN eq. 26): E_M = [f - 1] mu c^2 - [f - 1]^2 mu^2 c^2/(2(1 + M))
+* Dirac + recoil (MTN): E_M = [f - 1] mu c^2 - [f - 1]^2 mu^2 c^2/(2(1 + M))
   + (1 - d_l0)/(kappa (2l+1)) (Z alpha)^4 mu^3 c^2/(2 n^3 M^2),
   f = [1 + (Z alpha)^2/(n - delta)^2]^(-1/2), delta = j + 1/2 - sqrt((j + 1/2)^2 - (Z alpha)^2);
-* relativistic recoil (Salpeter; MTN eq. 27): E_S = mu^3/M (Z alpha)^5/(pi n^3) c^2
+* relativistic recoil (Salpeter; MTN): E_S = mu^3/M (Z alpha)^5/(pi n^3) c^2
   {d_l0 L/3 - 8/3 ln k0(n, l) - d_l0/9 - 7/3 a_n - 2 d_l0 [M^2 ln(1/mu) - ln(M/mu)]/(M^2 - 1)},
   a_n = -2 [ln(2/n) + sum_(i<=n) 1/i + 1 - 1/(2n)] d_l0 + (1 - d_l0)/(l(l+1)(2l+1));
-* one-loop self-energy (MTN eqs. 29-33): (alpha/pi)(Z alpha)^4/n^3 c^2 [mu^3 F + mu^2 A_mag],
+* one-loop self-energy (MTN): (alpha/pi)(Z alpha)^4/n^3 c^2 [mu^3 F + mu^2 A_mag],
   F = A41 ln(mu^-1 (Z alpha)^-2) + A40 + A50 (Z alpha) + (Z alpha)^2 (A62 L^2 + A61 L + G_SE),
   A41 = 4/3 d_l0, A40 = -4/3 ln k0 + 10/9 d_l0, A_mag = -(1 - d_l0)/(2 kappa (2l+1)),
   A50 = (139/32 - 2 ln 2) pi d_l0, A62 = -d_l0,
@@ -22,15 +22,15 @@ kappa = (-1)^(j - l + 1/2) (j + 1/2) and L = ln (Z alpha)^-2:
         + (1 - 1/n^2)(2/15 + d_j,1/2 /3) d_l1 + [96 n^2 - 32 l(l+1)](1 - d_l0)/(3 n^2 (2l-1)(2l)(2l+1)(2l+2)(2l+3));
   G_SE(Z alpha): hydrogen's values for n = 1, 2 (Jentschura, Mohr & Soff, PRL 82, 53 (1999)), used
   for every Z (G_SE changes slowly with Z: -30.29 at Z = 1, -29.77 at Z = 2 for 1S) and zero for n > 2;
-* vacuum polarisation (MTN eqs. 38-42; Kotochigova & Mohr 2005): (alpha/pi)(Z alpha)^4/n^3 c^2 mu^3
+* vacuum polarisation (MTN; Kotochigova & Mohr 2005): (alpha/pi)(Z alpha)^4/n^3 c^2 mu^3
   [-4/15 + 5 pi/48 (Z alpha) - 2/15 (Z alpha)^2 L + (19/45 - pi^2/27)(Z alpha)^2] d_l0;
-* two loops (MTN eqs. 46-48): (alpha/pi)^2 (Z alpha)^4/n^3 c^2 mu^3 [B40 + B50 (Z alpha)],
+* two loops (MTN): (alpha/pi)^2 (Z alpha)^4/n^3 c^2 mu^3 [B40 + B50 (Z alpha)],
   B40 = [3 pi^2/2 ln 2 - 10 pi^2/27 - 2179/648 - 9/4 zeta(3)] d_l0
         + [pi^2 ln 2/2 - pi^2/12 - 197/144 - 3 zeta(3)/4] (1 - d_l0)/(kappa (2l+1)),  B50 = -21.55447 d_l0;
-* nuclear size (MTN eq. 59): 2/3 mu^3 (Z alpha)^4/n^3 c^2 (r_N / lambda_C)^2 d_l0, lambda_C = alpha bohr.
+* nuclear size (MTN): 2/3 mu^3 (Z alpha)^4/n^3 c^2 (r_N / lambda_C)^2 d_l0, lambda_C = alpha bohr.
 
 Bethe logarithms ln k0(n, l) for n <= 4 (Drake & Swainson, PRA 41, 1243 (1990), as tabulated in
-MTN Table XI); above n = 4 the n = 4 value of the same l is used (ln k0 changes by < 0.02 beyond,
+MTN); above n = 4 the n = 4 value of the same l is used (ln k0 changes by < 0.02 beyond,
 a few hundred kHz at n = 5 in hydrogen). Coefficients of the (Z alpha)^6 and two-loop terms, and the
 Bethe logarithms, were recalled from memory and checked by the tests against measured intervals
 (Lamb shift, 1S-2S, 2S-2P3/2); the expansion in Z alpha is meant for light ions (H ... He+).
@@ -67,7 +67,7 @@ ELECTRON_ANOMALY = 1.15965218046e-3      # a_e, CODATA 2022 (Mohr et al., RMP 97
 PROTON_ELECTRON_MASS_RATIO = 1836.152673426   # CODATA 2022 (nuclear magneton mu_N = (m_e/m_p) mu_B)
 ZETA3 = 1.2020569031595942               # Riemann zeta(3)
 
-# ln k0(n, l): Drake & Swainson, PRA 41, 1243 (1990) (from memory; MTN Table XI)
+# ln k0(n, l): Drake & Swainson, PRA 41, 1243 (1990) (from memory; also tabulated in MTN)
 BETHE_LOG = {
     (1, 0): 2.984128555765,
     (2, 0): 2.811769893120, (2, 1): -0.030016708630,
@@ -75,9 +75,9 @@ BETHE_LOG = {
     (4, 0): 2.749811840454, (4, 1): -0.041954894598, (4, 2): -0.006740938876, (4, 3): -0.001733661482,
 }
 # G_SE(alpha) of hydrogen (Z = 1) by (n, l, 2j): Jentschura, Mohr & Soff, PRL 82, 53 (1999) and
-# Jentschura & Mohr (2004) (from memory; MTN Table XII)
+# Jentschura & Mohr for the P states (from memory; also tabulated in MTN)
 SELF_ENERGY_REMAINDER_H = {(1, 0, 1): -30.29024, (2, 0, 1): -31.18515, (2, 1, 1): -0.97350, (2, 1, 3): -0.48650}
-B50 = -21.55447                          # two-loop (Z alpha)^5 coefficient (Pachucki 1994; Eides & Shelyuto 1995)
+B50 = -21.55447        # two-loop (Z alpha)^5 coefficient (Pachucki 1994; Eides & Shelyuto 1995) (from memory)
 
 
 def _check(n: int, l: int, j2: int) -> None:
@@ -108,7 +108,7 @@ def _harmonic(n: int) -> float:
 
 
 def dirac_recoil_energy(atom, n: int, l: int, j2: int) -> float:
-    """E_M - M c^2 of MTN eq. 26 (Dirac energy with reduced mass and recoil), hartree.
+    """E_M - M c^2 of MTN (Dirac energy with reduced mass and recoil), hartree.
 
     >>> from driven_atom.atom import Atom
     >>> round(dirac_recoil_energy(Atom(1), 1, 0, 1) / -0.5 - 1, 8)      # (Z alpha)^2/4 above Bohr
@@ -130,7 +130,7 @@ def dirac_recoil_energy(atom, n: int, l: int, j2: int) -> float:
 
 
 def recoil_energy(atom, n: int, l: int) -> float:
-    """Salpeter's relativistic recoil E_S (MTN eq. 27), hartree; 0 for an infinitely heavy nucleus."""
+    """Salpeter's relativistic recoil E_S (MTN), hartree; 0 for an infinitely heavy nucleus."""
     M = atom.nuclear_mass
     if not math.isfinite(M):
         return 0.0
@@ -145,7 +145,7 @@ def recoil_energy(atom, n: int, l: int) -> float:
 
 
 def self_energy(atom, n: int, l: int, j2: int) -> float:
-    """One-loop self-energy (MTN eqs. 29-33), hartree."""
+    """One-loop self-energy (MTN), hartree."""
     za = atom.Z * ALPHA
     mu = atom.reduced_mass
     s = 1.0 if l == 0 else 0.0
@@ -166,7 +166,7 @@ def self_energy(atom, n: int, l: int, j2: int) -> float:
 
 
 def vacuum_polarization(atom, n: int, l: int) -> float:
-    """Electron vacuum polarisation, Uehling and Wichmann-Kroll leading terms (MTN eqs. 38-42), hartree."""
+    """Electron vacuum polarisation, Uehling and Wichmann-Kroll leading terms (MTN), hartree."""
     if l > 0:
         return 0.0
     za = atom.Z * ALPHA
@@ -176,7 +176,7 @@ def vacuum_polarization(atom, n: int, l: int) -> float:
 
 
 def two_loop(atom, n: int, l: int, j2: int) -> float:
-    """Two-loop corrections B40 + B50 Z alpha (MTN eqs. 46-48), hartree."""
+    """Two-loop corrections B40 + B50 Z alpha (MTN), hartree."""
     za = atom.Z * ALPHA
     if l == 0:
         b = (1.5 * math.pi**2 * math.log(2) - 10 * math.pi**2 / 27 - 2179.0 / 648 - 2.25 * ZETA3
@@ -188,7 +188,7 @@ def two_loop(atom, n: int, l: int, j2: int) -> float:
 
 
 def nuclear_size(atom, n: int, l: int) -> float:
-    """Finite nuclear charge radius (MTN eq. 59), hartree; 0 without a known radius."""
+    """Finite nuclear charge radius (MTN), hartree; 0 without a known radius."""
     from driven_atom.atom.nuclei import nuclear_data
     from driven_atom.units import BOHR_M
 

@@ -149,10 +149,6 @@ def orbital_second_order(atom, bra: tuple[int, int, int], ket: tuple[int, int, i
     return total
 
 
-def _orbital_key(state):
-    return state.level
-
-
 def _expansion(state, I2: int):
     from driven_atom.atom.components import Component, uncoupled
 
