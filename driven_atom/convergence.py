@@ -105,7 +105,8 @@ def converge(cfg, *, tol: float = 0.01, observable: str = "ionization", rounds: 
         if progress is not None:
             progress(why)
         started = time.perf_counter()
-        route = cls(atom, pulse, settings, initial=initial, output=cfg.output)
+        route = cls(atom, pulse, settings, initial=initial, output=cfg.output, structure=cfg.atom.structure,
+                    fields=cfg.fields)
         result = route.run(strict=False)
         wall = time.perf_counter() - started
         value = _observable(result, observable)

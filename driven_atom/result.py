@@ -8,7 +8,7 @@ HDF5 layout of a result file (``NAME.h5``)::
             sha256 (checksum of the result's content, see :func:`content_digest`)
     /times                       history sample times (a.u.)
     /populations                 attrs label -> final population; dataset "labels"/"values"
-    /history/populations/<label> population at each sample time
+    /history/populations/<label> population at each sample time ("/" in a label, "2p3/2", written %2F)
     /history/series/<name>       other sampled series (norm, ionization, dipole_z, ...)
     /spectra/<name>/<array>      spectra, each a group of named arrays with a "units" attribute
 
@@ -101,6 +101,20 @@ def _write_attrs(h5obj, attrs: dict) -> None:
         h5obj.attrs[key] = value
 
 
+def _h5_name(label: str) -> str:
+    """A label as an HDF5 member name: "/" (which HDF5 reads as a path, "2p3/2") and "%" escaped.
+
+    >>> _h5_name("2p3/2 m=1/2"), _label("2p3%2F2 m=1%2F2")
+    ('2p3%2F2 m=1%2F2', '2p3/2 m=1/2')
+    """
+    return label.replace("%", "%25").replace("/", "%2F")
+
+
+def _label(name: str) -> str:
+    """Inverse of :func:`_h5_name`."""
+    return name.replace("%2F", "/").replace("%25", "%") if "%" in name else name
+
+
 def _write_body(f, result: Result) -> None:
     f.create_dataset("times", data=np.asarray(result.times, dtype=float))
     pops = f.create_group("populations")
@@ -110,10 +124,10 @@ def _write_body(f, result: Result) -> None:
     hist = f.create_group("history")
     hp = hist.create_group("populations", track_order=True)
     for label, values in result.history_populations.items():
-        hp.create_dataset(label, data=np.asarray(values))
+        hp.create_dataset(_h5_name(label), data=np.asarray(values))
     hs = hist.create_group("series", track_order=True)
     for name, values in result.series.items():
-        hs.create_dataset(name, data=np.asarray(values))
+        hs.create_dataset(_h5_name(name), data=np.asarray(values))
     spec = f.create_group("spectra")
     for name, arrays in result.spectra.items():
         g = spec.create_group(name)
@@ -243,8 +257,8 @@ def read_result(path) -> Result:
                 ionization=float(f.attrs["ionization"]),
                 norm=float(f.attrs["norm"]),
                 times=f["times"][()],
-                history_populations={k: v[()] for k, v in f["history/populations"].items()},
-                series={k: v[()] for k, v in f["history/series"].items()},
+                history_populations={_label(k): v[()] for k, v in f["history/populations"].items()},
+                series={_label(k): v[()] for k, v in f["history/series"].items()},
                 spectra={name: {k: v[()] for k, v in g.items()} for name, g in f["spectra"].items()},
                 stats=_json_attr(f, "stats", {}),
                 warnings=_json_attr(f, "warnings", []),

@@ -39,7 +39,7 @@ from typing import Any
 
 from driven_atom.errors import InputError
 
-_SECTIONS = ("atom", "pulse", "solver", "output")
+_SECTIONS = ("atom", "fields", "pulse", "solver", "output")
 _RANGE_KEYS = {"from", "to", "num", "spacing"}
 # setting one of these in a pulse drops its alternatives, so a scan over `intensity` works on a
 # base pulse written with `peak_field` (and likewise for the other alternatives)
@@ -133,7 +133,7 @@ def _convert(magnitude: float, unit: str, target: str, name: str) -> float:
 def _plain_units(path: str, route: str) -> str:
     """The unit of a plain number on this key: atomic units for quantities (the unit kind comes
     with the field's type), radians for cep, "1" else."""
-    from driven_atom.config import AtomConfig, OutputConfig, PulseConfig
+    from driven_atom.config import AtomConfig, FieldsConfig, OutputConfig, PulseConfig
     from driven_atom.quantities import unit_kind
     from driven_atom.settings import SETTINGS
 
@@ -141,7 +141,7 @@ def _plain_units(path: str, route: str) -> str:
     if leaf == "cep":
         return "rad"
     section = path.split(".", 1)[0]
-    model = {"pulse": PulseConfig, "atom": AtomConfig, "output": OutputConfig,
+    model = {"pulse": PulseConfig, "atom": AtomConfig, "output": OutputConfig, "fields": FieldsConfig,
              "solver": SETTINGS.get(route)}.get(section)
     return "au" if model is not None and unit_kind(model, leaf) is not None else "1"
 

@@ -213,7 +213,8 @@ def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None
     if len(initial) != 1:
         raise InputError("`atom.initial`: an estimate needs one initial state, not a superposition")
     state = initial[0][0]
-    state = state if state.m is not None else State(state.n, state.l, 0)
+    component = state if not isinstance(state, State) else None      # a fine- or hyperfine-structure label
+    state = state if component is None and state.m is not None else State(state.n, state.l, 0)
     w0_m, length_m, n_cm3 = _lab_inputs(waist, length, m2, density, pressure, temperature)
     ip = atom.Z**2 * atom.reduced_mass / (2.0 * state.n**2)
     lasers = [c for c in pulse.components if c.omega > 0]
@@ -227,6 +228,9 @@ def estimate(config, *, waist=None, m2: float = 1.0, density=None, pressure=None
     i_bs = ip**4 / (16 * atom.Z**2)
 
     regime, exponent, notes = _ionization_model(atom, pulse, state, ip, keldysh, lasers)
+    if component is not None:
+        notes.append(f"initial {component.label}: the estimate uses the Bohr level {state.level.label} "
+                     f"(no fine or hyperfine structure, no static fields)")
     if i0 > i_bs:
         notes.append("peak intensity above barrier suppression: over-the-barrier ionisation, outside the "
                      "range of the rate formulas (the atoms ionise early in the pulse)")

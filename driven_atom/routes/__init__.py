@@ -75,7 +75,8 @@ def build_route(cfg: RunConfig, *, cache_dir=None):
     atom = cfg.build_atom()
     pulse = build_pulse(cfg, atom)
     cls = route_class(cfg.route)
-    return cls(atom, pulse, cfg.solver, initial=cfg.initial_states(), output=cfg.output, cache_dir=cache_dir)
+    return cls(atom, pulse, cfg.solver, initial=cfg.initial_states(), output=cfg.output, cache_dir=cache_dir,
+               structure=cfg.atom.structure, fields=cfg.fields)
 
 
 def preflight(cfg: RunConfig, *, max_hours: float | None = None) -> list:
@@ -86,10 +87,12 @@ def preflight(cfg: RunConfig, *, max_hours: float | None = None) -> list:
 
 
 def propagate(atom, pulse, settings, *, initial, output=None, checkpoint=None, progress: bool = False,
-              cache_dir=None):
+              cache_dir=None, structure: str = "bohr", fields=None):
     """Run the route of ``settings`` (a model of :mod:`driven_atom.settings`) on ready-made objects:
     an :class:`~driven_atom.atom.Atom`, a :class:`~driven_atom.pulse.Pulse` (or None), the initial
-    state as [(State, amplitude)]; no config and no file (a notebook's shortcut to one route).
+    state as [(State or Component, amplitude)], the level ``structure`` and static ``fields``
+    (a :class:`driven_atom.config.FieldsConfig`); no config and no file (a notebook's shortcut to one
+    route).
 
     >>> from driven_atom.atom import Atom, State
     >>> from driven_atom.settings import LevelsSettings
@@ -102,7 +105,7 @@ def propagate(atom, pulse, settings, *, initial, output=None, checkpoint=None, p
 
     cls = route_class(settings.route)
     route = cls(atom, pulse, settings, initial=initial, output=output if output is not None else OutputConfig(),
-                cache_dir=cache_dir)
+                cache_dir=cache_dir, structure=structure, fields=fields)
     return route.run(checkpoint=checkpoint if route.resumable else None, progress=progress)
 
 
@@ -157,7 +160,8 @@ def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, 
     if cfg.output.error_estimate if error_estimate is None else error_estimate:
         started = time.perf_counter()
         companion, factor, knobs = run_companion(type(route), route.atom, route.pulse, cfg.solver,
-                                                 route.initial, cfg.output, result)
+                                                 route.initial, cfg.output, result, structure=route.structure,
+                                                 fields=route.fields)
         result.stats["companion_s"] = time.perf_counter() - started
         result.quality["errors"] = (error_block(result, companion, factor, knobs) if companion is not None
                                     else {"method": "unavailable", "companion": knobs,

@@ -143,15 +143,26 @@ class Route:
     name: ClassVar[str] = ""
     Settings: ClassVar[type[RouteSettings]] = RouteSettings
     polarizations: ClassVar[tuple[str, ...]] = ("z",)      # light the route can treat
+    structures: ClassVar[tuple[str, ...]] = ("bohr",)      # level structures ([atom] structure) it models
+    static_fields: ClassVar[bool] = False                  # whether it takes the [fields] section
     needs_pulse: ClassVar[bool] = True
     resumable: ClassVar[bool] = True
     spectra: ClassVar[tuple[str, ...]] = ()                # spectra the route can store
     counts_steps: ClassVar[bool] = False                   # a plain checkpoint_every counts steps
 
-    def __init__(self, atom, pulse, settings, *, initial, output=None, cache_dir=None):
+    def __init__(self, atom, pulse, settings, *, initial, output=None, cache_dir=None, structure: str = "bohr",
+                 fields=None):
+        if structure not in self.structures:
+            raise InputError(f"`atom.structure` = {structure!r} needs route \"levels\" (route {self.name!r} models "
+                             f"{' and '.join(self.structures)} levels)")
+        if fields is not None and fields.any and not self.static_fields:
+            raise InputError(f"`fields` apply to route \"levels\" only (route {self.name!r} has no static fields; a "
+                             f"DC field here is a [[pulse]] with envelope = \"static\")")
         self.atom = atom
         self.pulse = pulse
         self.settings = settings
+        self.structure = structure
+        self.fields = fields
         self.initial = list(initial)
         self.output = output
         self.cache_dir = cache_dir
@@ -166,8 +177,16 @@ class Route:
     @classmethod
     def check(cls, atom, pulse, initial, cfg=None) -> None:
         """Refuse (one line naming the key) what this route cannot treat: no pulse where one is
-        needed, light of a polarisation it does not handle. Called when a config is loaded
-        (``cfg`` given, to name its keys) and again when a route runs."""
+        needed, light of a polarisation it does not handle, a level structure or static fields it
+        does not model. Called when a config is loaded (``cfg`` given, to name its keys) and again
+        when a route runs."""
+        if cfg is not None:
+            if cfg.atom.structure not in cls.structures:
+                raise InputError(f"`atom.structure` = {cfg.atom.structure!r} needs route \"levels\" (route "
+                                 f"{cls.name!r} models {' and '.join(cls.structures)} levels)")
+            if cfg.fields.any and not cls.static_fields:
+                raise InputError(f"`fields` apply to route \"levels\" only (route {cls.name!r} has no static "
+                                 f"fields; a DC field here is a [[pulse]] with envelope = \"static\")")
         if pulse is None:
             if cls.needs_pulse:
                 raise InputError(f"`pulse` is required for route {cls.name!r}: add a [[pulse]] table "

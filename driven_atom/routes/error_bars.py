@@ -37,11 +37,13 @@ def error_block(result, companion, factor: float, knobs: dict) -> dict:
             "populations": populations}
 
 
-def run_companion(route_cls, atom, pulse, settings, initial, output, result):
+def run_companion(route_cls, atom, pulse, settings, initial, output, result, *, structure: str = "bohr",
+                  fields=None):
     """Run the coarser companion of ``result`` (not strict: its preflight limits are not enforced,
-    it is coarse on purpose); (companion result or None when it fails, K, knobs)."""
+    it is coarse on purpose) on the same level ``structure`` and static ``fields``; (companion
+    result or None when it fails, K, knobs)."""
     coarse, factor, knobs = route_cls.companion(settings, result)
-    route = route_cls(atom, pulse, coarse, initial=initial, output=output)
+    route = route_cls(atom, pulse, coarse, initial=initial, output=output, structure=structure, fields=fields)
     try:
         return route.run(strict=False), factor, knobs
     except GuardStop:
