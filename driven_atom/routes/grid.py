@@ -441,11 +441,10 @@ class GridRoute(Route):
 
     @classmethod
     def explicit(cls, settings, result):
+        """dt, dr, l_max and r_max as the run used them; the absorber keeps its rule (the user's width,
+        else a fifth of the box), so a larger box gets a wider, less reflecting absorber."""
         s = result.stats
-        update = {"dt": s["dt"], "dr": s["dr"], "l_max": s["l_max"], "r_max": s["r_max"]}
-        if settings.absorber != "none":
-            update["absorber_width"] = s["absorber_width"]
-        return settings.model_copy(update=update)
+        return settings.model_copy(update={"dt": s["dt"], "dr": s["dr"], "l_max": s["l_max"], "r_max": s["r_max"]})
 
     @classmethod
     def knobs(cls, settings) -> list:
