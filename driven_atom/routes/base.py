@@ -137,6 +137,32 @@ def slice_ends(times: np.ndarray, max_slice: float | None, quantum: float | None
     return ends
 
 
+@dataclass(frozen=True)
+class Knob:
+    """One numerical setting: its current value, the refined and coarsened values (refinement by a
+    factor 2 in the error's variable), the order p of its error (None: faster than any power) and
+    the cost of the refined run relative to the current one."""
+
+    name: str
+    value: float
+    refine: float
+    coarsen: float | None
+    order: float | None
+    cost: float
+
+    def predicted_error(self, change: float) -> float:
+        """Error at the current value from the change on refinement: change/(1 − 2^−p)."""
+        if self.order is None:
+            return abs(change)
+        return abs(change) / (1 - 2.0 ** -self.order)
+
+    def coarse_error(self, change: float) -> float | None:
+        """Predicted error at the coarsened value (known order only): error·2^p."""
+        if self.order is None or self.coarsen is None:
+            return None
+        return self.predicted_error(change) * 2.0**self.order
+
+
 class Route:
     """Base class of the propagation routes (see the module docstring for the contract)."""
 
@@ -305,7 +331,7 @@ class Route:
 
     @classmethod
     def knobs(cls, settings) -> list:
-        """The numerical knobs of a convergence study (:class:`driven_atom.convergence.Knob`)."""
+        """The numerical knobs of a convergence study (:class:`Knob`; :mod:`driven_atom.convergence`)."""
         return []
 
     @classmethod

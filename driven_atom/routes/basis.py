@@ -41,7 +41,7 @@ from __future__ import annotations
 import numpy as np
 
 from driven_atom.errors import InputError
-from driven_atom.routes.base import Outcome, Route
+from driven_atom.routes.base import Knob, Outcome, Route
 from driven_atom.routes.krylov import Coupling, KrylovFailure
 from driven_atom.settings import BasisSettings
 
@@ -195,8 +195,6 @@ class BasisRoute(Route):
     @classmethod
     def knobs(cls, settings) -> list:
         """dr (energies ∝ dr⁴), the step tolerance (error ∝ tolerance), r_max, l_max and e_max."""
-        from driven_atom.convergence import Knob
-
         return [Knob("dr", settings.dr, settings.dr / 2**0.5, settings.dr * 2**0.5, 4, 2.8),
                 Knob("tolerance", settings.tolerance, settings.tolerance / 2, min(2 * settings.tolerance, 5e-3), 1, 1.3),
                 Knob("r_max", settings.r_max, 1.5 * settings.r_max, None, None, 3.4),

@@ -46,7 +46,7 @@ import numpy as np
 
 from driven_atom.atom.states import State
 from driven_atom.errors import InputError
-from driven_atom.routes.base import Outcome, Route
+from driven_atom.routes.base import Knob, Outcome, Route
 from driven_atom.routes.quality import assess
 from driven_atom.settings import GridSettings
 
@@ -449,8 +449,6 @@ class GridRoute(Route):
     @classmethod
     def knobs(cls, settings) -> list:
         """dt (error ∝ dt²), dr (∝ dr⁴), l_max and r_max (faster than any power)."""
-        from driven_atom.convergence import Knob
-
         return [Knob("dt", settings.dt, settings.dt / 2, 2 * settings.dt, 2, 2.0),
                 Knob("dr", settings.dr, settings.dr / 2**0.5, settings.dr * 2**0.5, 4, 2**0.5),
                 Knob("l_max", settings.l_max, math.ceil(1.5 * settings.l_max), None, None, 1.5),

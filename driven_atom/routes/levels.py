@@ -58,7 +58,7 @@ import numpy as np
 from driven_atom.atom.dipoles import spherical_coefficients
 from driven_atom.atom.states import State
 from driven_atom.errors import InputError
-from driven_atom.routes.base import Outcome, Route
+from driven_atom.routes.base import Knob, Outcome, Route
 from driven_atom.routes.structured_model import (build_structured_model, dressed_populations, expand_states,
                                                  initial_density, is_structured)
 from driven_atom.settings import LevelsSettings
@@ -743,8 +743,6 @@ class LevelsRoute(Route):
     @classmethod
     def knobs(cls, settings) -> list:
         """The ODE tolerances (errors ∝ tolerance); the kept states are a model choice, not a knob."""
-        from driven_atom.convergence import Knob
-
         return [Knob("rtol", settings.rtol, settings.rtol / 2, 2 * settings.rtol, 1, 1.2),
                 Knob("atol", settings.atol, settings.atol / 2, 2 * settings.atol, 1, 1.2)]
 
