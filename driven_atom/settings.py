@@ -198,7 +198,7 @@ class GridSettings(RouteSettings):
 
     route: Literal["grid"] = Field("grid", description="propagation route")
     r_max: Quantity("length", gt=0) | None = Field(None, description=(
-        "radial box size (bohr); default: room for the initial state (40 n²/(Zμ)), 3 quiver radii + "
+        "radial box size (bohr); default: room for the initial state (40 n²/(Zμ)), 5 quiver radii + "
         "20 bohr and, for a static field F, the tunnel exit I_p/F twice + 40 bohr; plus the absorber"))
     dr: Quantity("length", gt=0) | None = Field(None, description=(
         "grid spacing (bohr); default min(0.1/Z, 0.5/k_max), which puts the grid 1s energy within "

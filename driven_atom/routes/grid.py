@@ -51,6 +51,8 @@ from driven_atom.routes.quality import assess
 from driven_atom.settings import GridSettings
 
 L_FACTOR = 1.6                # default l_max: this many times the returning angular momentum
+QUIVER_RADII = 5.0            # default inner box: this many quiver radii + 20 bohr (slow, Rydberg-bound electrons
+                              # wander out several quiver radii: at 3 the 800 nm, 1e14 W/cm^2 yield moves ~1 %)
 MASK_DT_REF = 0.05          # a.u. time: the mask exponent p is per this much time
 CHUNK_MAX = 256             # longest kernel call in steps (granularity of checkpoints and stop signals)
 SMALL_GRID = 600            # below this many points the bound states come from the dense solver
@@ -111,7 +113,7 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
         width = (settings.absorber_width if settings.absorber_width is not None
                  else min(max(20.0, 0.2 * r_max), 0.5 * r_max))
     else:
-        inner = max(40.0 * n_initial**2 / (Z * mu), 3 * alpha0 + 20.0)
+        inner = max(40.0 * n_initial**2 / (Z * mu), QUIVER_RADII * alpha0 + 20.0)
         if f_static > 0:
             inner = max(inner, 2 * ip / f_static + 40.0)    # beyond the tunnel exit I_p/F
         if settings.photoelectron:
@@ -544,7 +546,7 @@ class GridRoute(Route):
         if par.quiver_radius > 0:
             checks.append(assess("quiver_over_inner_radius", par.quiver_radius / r_abs, soft=0.5, hard=1.0,
                                  key="solver.r_max", why="quiver radius F/ω² over the radius where the absorber starts",
-                                 fix=f"raise `solver.r_max` to at least {3 * par.quiver_radius + 20 + par.absorber_width:.0f} bohr"))
+                                 fix=f"raise `solver.r_max` to at least {QUIVER_RADII * par.quiver_radius + 20 + par.absorber_width:.0f} bohr"))
             needed = returning_l(par.quiver_radius, par.up, mu)
             checks.append(assess("returning_l_over_l_max", needed / par.l_max, soft=1.0, hard=2.5, key="solver.l_max",
                                  why="angular momentum of the returning electron over l_max",
