@@ -352,10 +352,12 @@ class Route:
         self._check_resources(max_hours)
         with stopping.stop_on_signals():
             self._prepare()
+            checked = time.perf_counter()
             checks = list(self.preflight())
             if strict:
                 refuse_if_hard(checks, when="before the run")
             prepared = time.perf_counter()
+            self.stats["preflight_s"] = prepared - checked
             self._stop_if_asked(None, None, 0, self.t_start, None, None)
             every = self.output.every_au if self.output is not None else None
             times = sample_times(self.t_start, self.t_end, every, self.time_quantum)
