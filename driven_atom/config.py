@@ -193,7 +193,8 @@ class OutputConfig(_Section):
 
 class RunConfig(_Section):
     """A whole run: ``[atom]``, ``[[pulse]]``, ``[solver]``, ``[output]``, optional ``[scan]`` and
-    ``[cluster]`` (checked by the campaign)."""
+    ``[cluster]`` (checked by the campaign) and ``[lab]`` (the lab numbers of ``driven-atom
+    estimate``, checked by :mod:`driven_atom.lab`; a run does not use them)."""
 
     atom: AtomConfig
     pulse: list[PulseConfig] = Field(default_factory=list)
@@ -201,6 +202,7 @@ class RunConfig(_Section):
     output: OutputConfig = Field(default_factory=OutputConfig)
     scan: dict[str, Any] | None = None
     cluster: dict[str, Any] | None = None
+    lab: dict[str, Any] | None = None
     _source: dict = PrivateAttr(default_factory=dict)
 
     @model_validator(mode="wrap")
