@@ -16,7 +16,7 @@ dephasing — a laser of Lorentzian linewidth δν (FWHM, phase diffusion) gives
 practice). Population leaving g + e is ionised (rate γᵢ) or decays elsewhere (rate (1 − b)Γ).
 
 Propagation: piecewise-constant coefficients at the step midpoints and the exact exponential of
-each step's 4×4 generator (Taylor series of order 12 with scaling and squaring, for every atom at
+each step's generator (4×4, and a fifth row accumulating the ionised population) (Taylor series of order 12 with scaling and squaring, for every atom at
 once), so the step follows the envelope (12 per FWHM by default) and not the Rabi frequency: the
 populations are exact up to the staircase approximation of Ω(t), Δ(t), γᵢ(t).
 
@@ -87,12 +87,9 @@ def propagate_bloch(envelope, *, rabi, detuning, rabi_power: float = 0.5, shift=
     mid = 0.5 * (edges[1:] + edges[:-1])
     h = np.diff(edges)
     f = envelope.intensity(mid)
-    state = np.zeros((n, 4))
+    state = np.zeros((n, 5))                    # g, e, x, y and the ionised population
     state[:, 0] = 1.0
-    ionized = np.zeros(n)
-    elsewhere = np.zeros(n)
-    A = np.zeros((n, 4, 4))
-    out_rate = (1.0 - back) * decay
+    A = np.zeros((n, 5, 5))
     for fk, hk in zip(f, h):
         if fk < 1e-14 and decay == 0.0:
             continue                            # no field and nothing decays: nothing happens
@@ -110,11 +107,8 @@ def propagate_bloch(envelope, *, rabi, detuning, rabi_power: float = 0.5, shift=
         A[:, 3, 0] = -0.5 * omega
         A[:, 3, 1] = 0.5 * omega
         A[:, 3, 3] = -perp
-        before = state[:, 0] + state[:, 1]
+        A[:, 4, 1] = gamma_i                    # accumulated, so that tiny yields keep their digits
         state = np.einsum("nij,nj->ni", _expm(A * hk), state)
-        lost = np.maximum(before - state[:, 0] - state[:, 1], 0.0)
-        total = gamma_i + out_rate
-        share = np.divide(gamma_i, total, out=np.zeros(n), where=total > 0)
-        ionized += lost * share
-        elsewhere += lost * (1.0 - share)
+    ionized = state[:, 4]
+    elsewhere = np.maximum(1.0 - state[:, 0] - state[:, 1] - ionized, 0.0)
     return {"ground": state[:, 0], "excited": state[:, 1], "ionized": ionized, "elsewhere": elsewhere}

@@ -183,8 +183,9 @@ class ProbabilityTable:
         pa, pb, dl = self.p[:-1], self.p[1:], np.diff(self.log_s)
         with np.errstate(divide="ignore", invalid="ignore"):
             k = np.log(pb / pa) / dl
-            power = (pb - pa) / k
-        steps = np.where((pa > 0) & (pb > 0) & (np.abs(k) > 1e-9), power, 0.5 * (pa + pb) * dl)
+        self.power_law = (pa > 0) & (pb > 0) & (np.abs(k) > 1e-9)
+        self.k = np.where(self.power_law, k, 0.0)
+        steps = np.where(self.power_law, (pb - pa) / np.where(self.power_law, self.k, 1.0), 0.5 * (pa + pb) * dl)
         self.G = self.p[0] / self.slope + np.concatenate([[0.0], np.cumsum(steps)])
 
     def __call__(self, s) -> np.ndarray:
@@ -199,7 +200,13 @@ class ProbabilityTable:
         s = np.asarray(s, dtype=float)
         ls = np.log(np.maximum(s, 1e-300))
         below = self.p[0] * np.exp(self.slope * (ls - self.log_s[0])) / self.slope
-        inside = np.interp(ls, self.log_s, self.G)
+        i = np.clip(np.searchsorted(self.log_s, ls) - 1, 0, self.s.size - 2)
+        x = ls - self.log_s[i]
+        pa = self.p[i]
+        # within a segment: ∫ P d ln s of the interpolant (a power law, or linear where P = 0)
+        power = (self(s) - pa) / np.where(self.power_law[i], self.k[i], 1.0)
+        linear = pa * x + 0.5 * (self.p[i + 1] - pa) * x**2 / (self.log_s[i + 1] - self.log_s[i])
+        inside = self.G[i] + np.where(self.power_law[i], power, linear)
         above = self.G[-1] + self.p[-1] * (ls - self.log_s[-1])
         return np.where(ls < self.log_s[0], below, np.where(ls > self.log_s[-1], above, inside))
 

@@ -98,19 +98,21 @@ def choose_model(case) -> Model:
         return model
     if gamma < 1:
         return _ppt_model(case, ip, i0, gamma, regime="tunnelling")
-    resonant = _resonance(case, ip, i0)
-    if resonant is not None:
-        return resonant
-    up = i0 / (4 * omega**2)
     from driven_atom.observables.multiphoton import photon_order
 
+    up = i0 / (4 * omega**2)
     N = photon_order(ip, omega)
-    if gamma >= LOPT_MIN_KELDYSH and N <= LOPT_MAX_PHOTONS and up < omega / 4:
-        return _lopt_model(case, ip, i0, gamma, N)
+    perturbative = gamma >= LOPT_MIN_KELDYSH and up < omega / 4
+    if perturbative:
+        resonant = _resonance(case, ip, i0)
+        if resonant is not None:
+            return resonant
+        if N <= LOPT_MAX_PHOTONS:
+            return _lopt_model(case, ip, i0, gamma, N)
     model = _ppt_model(case, ip, i0, gamma, regime="multiphoton")
-    model.why = (f"{N} photons, Keldysh gamma {gamma:.3g}: between the regimes (perturbation theory needs "
-                 f"gamma >= {LOPT_MIN_KELDYSH:g}, N <= {LOPT_MAX_PHOTONS} and Up < omega/4; Up = "
-                 f"{up * HARTREE_EV:.3g} eV)")
+    model.why = (f"{N} photons, Keldysh gamma {gamma:.3g}: between the regimes (perturbation theory, and the "
+                 f"resonance model, need gamma >= {LOPT_MIN_KELDYSH:g}, Up < omega/4 and N <= {LOPT_MAX_PHOTONS}; "
+                 f"Up = {up * HARTREE_EV:.3g} eV)")
     return model
 
 
@@ -335,13 +337,16 @@ def _resonance(case, ip: float, i0: float) -> Model | None:
         coupling = _coupling(case, line)
         if coupling is None:
             continue
-        width = math.sqrt(cheap**2 + coupling[2] ** 2 + coupling[3] ** 2)
-        if detuning <= RESONANCE_WIDTHS * width and (best is None or detuning / width < best[0]):
-            best = (detuning / width, line, coupling)
+        width = math.sqrt(cheap**2 + coupling[2] ** 2)
+        shifted = line.detuning / AU_TIME_S + coupling[3]          # the detuning at the peak, light-shifted
+        swept = line.detuning * shifted < 0                        # the light shift sweeps it through zero
+        closest = 0.0 if swept else min(detuning, abs(shifted))
+        if closest <= RESONANCE_WIDTHS * width and (best is None or closest / width < best[0]):
+            best = (closest / width, line, coupling)
     if best is None:
         return None
     data = _line_data(case, best[1], best[2])
-    return _resonant_model(case, ip, data, _widths(case, data))
+    return _resonant_model(case, ip, data, _widths(case, data), best[0])
 
 
 def _doppler_nodes(case, data: _Line, homogeneous: np.ndarray, detuning: float):
@@ -373,7 +378,7 @@ def _doppler_nodes(case, data: _Line, homogeneous: np.ndarray, detuning: float):
     return D, W
 
 
-def _resonant_model(case, ip: float, data: _Line, widths: dict) -> Model:
+def _resonant_model(case, ip: float, data: _Line, widths: dict, in_widths: float) -> Model:
     from driven_atom.lab.bloch import propagate_bloch
     from driven_atom.lab.focus import ProbabilityTable
 
@@ -410,13 +415,14 @@ def _resonant_model(case, ip: float, data: _Line, widths: dict) -> Model:
                  "natural_width_GHz": data.decay * ghz, "upper_lifetime_s": data.lifetime,
                  "ionization_rate_peak_s": data.ionization, "ionized_by": data.ionization_note,
                  "light_shift_GHz": data.shift * ghz if data.photons == 2 else None,
-                 "detuning_in_widths": abs(detuning) / math.sqrt(sum(w * w for w in widths.values()))}
+                 "detuning_in_widths": in_widths}
     scheme = f"{data.photons}+{data.ionization_photons}"
     model = Model("resonant", f"resonant {scheme}: optical Bloch equations for {line.label} (Rabi frequency, "
                   f"detuning, Doppler profile, laser linewidth, decay) with ionisation of "
                   f"{line.uppers[0].label} by {data.ionization_note}",
-                  f"the {data.photons}-photon line {line.label} is {resonance['detuning_in_widths']:.2g} widths "
-                  f"from the laser ({line.detuning_GHz:+.4g} GHz)",
+                  f"the {data.photons}-photon line {line.label} is {in_widths:.2g} of its widths (Fourier, Doppler, "
+                  f"laser, Rabi) from the laser ({line.detuning_GHz:+.4g} GHz"
+                  + (", light-shifted through resonance)" if in_widths == 0 else ")"),
                   "the Bloch equations agree with the master equation (levels route) within 1 % for atoms at "
                   "rest; two-level model: other levels, direct ionisation of the lower level"
                   + (" and the one-photon light shift" if data.photons == 1 else "") + " are left out",
