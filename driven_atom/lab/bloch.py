@@ -82,7 +82,7 @@ def propagate_bloch(envelope, *, rabi, detuning, rabi_power: float = 0.5, shift=
     peak = float(np.max(np.sqrt(rabi**2 + (np.abs(detuning) + np.abs(shift)) ** 2))) if n else 0.0
     phase = peak * (t1 - t0)
     coherent = (0.5 * decay + dephasing) * (t1 - t0) < 3.0
-    resolve = min(phase, MAX_WORK / max(n, 1)) if coherent and phase < MAX_RESOLVED_PHASE else 0
+    resolve = min(4 * phase, MAX_WORK / max(n, 1)) if coherent and phase < MAX_RESOLVED_PHASE else 0
     edges = envelope.steps(steps_per_fwhm, at_least=resolve)
     mid = 0.5 * (edges[1:] + edges[:-1])
     h = np.diff(edges)
