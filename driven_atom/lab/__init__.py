@@ -79,6 +79,20 @@ def _statement(case, model, ions, s_sat, slope: float) -> str:
     return f"saturated across the {focus.profile} beam: the ion count grows as {grows} from here"
 
 
+def _saturation_scale(function, table):
+    """s where P(s) = 1 − 1/e: from the table, refined by bisection in ln s on an analytic model."""
+    from driven_atom.lab.focus import ProbabilityTable
+
+    guess = table.crossing(SATURATION)
+    if guess is None or isinstance(function, ProbabilityTable):
+        return guess
+    lo, hi = math.log(guess / 1.5), math.log(guess * 1.5)
+    for _ in range(50):
+        mid = 0.5 * (lo + hi)
+        lo, hi = (mid, hi) if float(function(np.array([math.exp(mid)]))[0]) < SATURATION else (lo, mid)
+    return math.exp(0.5 * (lo + hi))
+
+
 def _counts(case, ions, excited) -> dict:
     """Focal averages for the case (module docstring); empty without focus, gas or region."""
     if case.focus is None or case.density is None or (case.length is None and case.volume is None):
@@ -152,7 +166,7 @@ def estimate(config=None, *, lab: dict | None = None, table=None, check: bool = 
                     "notes": case.notes + model.notes, "caution": None})
         return out
     i0_au = case.peak_intensity / AU_INTENSITY_WM2
-    s_sat = ions.crossing(SATURATION)
+    s_sat = _saturation_scale(model.ionization, ions)
     out.update({
         "peak_intensity_Wcm2": case.peak_intensity * 1e-4,
         "peak_field_au": math.sqrt(i0_au),

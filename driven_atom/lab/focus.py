@@ -118,13 +118,13 @@ class Focus:
         if self.profile == "top-hat":
             atoms = density * math.pi * self.waist**2 * length
             p = float(table(np.array([1.0]))[0])
-            return {"atoms_in_beam": atoms, "count_in_beam": atoms * p, "count": atoms * p}
+            return {"atoms_in_beam": float(atoms), "count_in_beam": float(atoms * p), "count": float(atoms * p)}
         x = np.linspace(0.0, 4 * self.waist, 801)
         p = table(np.exp(-2 * (x / self.waist) ** 2))
         inside = x <= self.waist
         plane = density * self.height * length * 2
-        return {"atoms_in_beam": plane * self.waist, "count_in_beam": plane * _trapezoid(p[inside], x[inside]),
-                "count": plane * _trapezoid(p, x)}
+        return {"atoms_in_beam": float(plane * self.waist), "count_in_beam": float(plane * _trapezoid(p[inside], x[inside])),
+                "count": float(plane * _trapezoid(p, x))}
 
 
 def _gaussian_counts(table, density, waist, z_r, length, volume) -> dict:
@@ -152,7 +152,7 @@ def _gaussian_counts(table, density, waist, z_r, length, volume) -> dict:
         count = density * _trapezoid(0.5 * math.pi * w2 * G(s_z), z)
         inside = density * _trapezoid(0.5 * math.pi * w2 * (G(s_z) - G(s_z * math.exp(-2))), z)
         atoms = density * _trapezoid(math.pi * w2, z)
-    return {"atoms_in_beam": atoms, "count_in_beam": inside, "count": count}
+    return {"atoms_in_beam": float(atoms), "count_in_beam": float(inside), "count": float(count)}
 
 
 class ProbabilityTable:

@@ -30,7 +30,7 @@ from functools import partial
 from pathlib import Path
 from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError, model_validator
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from driven_atom.errors import InputError, short, validation_message
 from driven_atom.quantities import LabQuantity, Number
@@ -110,6 +110,31 @@ class LabInput(BaseModel):
     volume: LabQuantity("volume", gt=0) | None = Field(None, description="detection volume (a sphere at the focus)")
     linewidth: LabQuantity("frequency", ge=0) | None = Field(None, description="laser linewidth (FWHM) beyond "
                                                              "the transform limit")
+
+    @field_validator("species")
+    @classmethod
+    def _species(cls, value):
+        from driven_atom.atom import Atom
+        from driven_atom.atom.species import NUCLEI
+
+        if value is None:
+            return value
+        try:
+            Atom.from_name(value)
+        except InputError:
+            names = [n for n in NUCLEI if n != "infinite"] + ["He+", "Li2+", "Be3+", "..."]
+            raise ValueError(f"`species` must be a hydrogen-like atom or ion ({', '.join(names)}), "
+                             f"got {short(repr(value))}") from None
+        return value
+
+    @field_validator("state")
+    @classmethod
+    def _state(cls, value):
+        from driven_atom.atom import parse_state
+
+        if value is not None:
+            parse_state(value, name="state")
+        return value
 
     @model_validator(mode="after")
     def _fit_together(self):

@@ -46,7 +46,7 @@ def _converted(ds, name: str, kind: str) -> np.ndarray:
     values = np.asarray(ds[name].values, dtype=float)
     if units in ("", "au", "a.u."):
         return values
-    return np.array([to_au(f"{v!r} {units}", kind, name=name) for v in values])
+    return np.array([to_au(f"{float(v)!r} {units}", kind, name=name) for v in values])
 
 
 def table_model(case, model, folder):
