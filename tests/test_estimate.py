@@ -293,7 +293,7 @@ def test_lyman_alpha_1_plus_1_against_the_levels_route(intensity):
     from driven_atom.atom import Atom, State
     from driven_atom.atom.photoionization import cross_section, cross_section_sublevel
     from driven_atom.lab.inputs import lab_case
-    from driven_atom.lab.physics import _line_data, _coupling, _resonance
+    from driven_atom.lab.physics import _coupling, _line_data
     from driven_atom.atom.resonance import nearest_lines
     from driven_atom.lab.bloch import propagate_bloch
     from driven_atom.units import wavelength_nm_to_photon_energy

@@ -30,8 +30,6 @@ populations are exact up to the staircase approximation of Ω(t), Δ(t), γᵢ(t
 """
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
 TAYLOR_ORDER = 8                # with ‖A‖ ≤ 1/4 after scaling: truncation 1e-11 per step

@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from functools import partial
 from pathlib import Path
 from typing import Annotated, Any, Literal
 
@@ -302,7 +301,7 @@ def _resolve(lab: LabInput, run: dict, given: dict) -> LabCase:
     from driven_atom.atom import Atom, State, parse_state
     from driven_atom.lab.focus import Focus, waist_from_fwhm, waist_from_lens
     from driven_atom.lab.temporal import Envelope
-    from driven_atom.units import (AU_INTENSITY_WM2, AU_TIME_S, HARTREE_EV, photon_energy_to_wavelength_nm,
+    from driven_atom.units import (AU_INTENSITY_WM2, AU_TIME_S, photon_energy_to_wavelength_nm,
                                    wavelength_nm_to_photon_energy)
 
     notes: list = []
@@ -461,10 +460,4 @@ def _echo(case: LabCase, lab: LabInput, given: dict, durations: list) -> dict:
     return out
 
 
-def describe_keys() -> list[tuple[str, str]]:
-    """(key, description) of every ``[lab]`` key, for the command's help."""
-    return [(name, f.description or "") for name, f in LabInput.model_fields.items()]
-
-
-__all__ = ["LabInput", "EstimateConfig", "LabCase", "lab_case", "read_source", "describe_keys", "GROUPS",
-           "short", "partial"]
+__all__ = ["LabInput", "EstimateConfig", "LabCase", "lab_case", "read_source", "GROUPS"]
