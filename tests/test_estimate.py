@@ -379,21 +379,30 @@ def test_table_from_a_campaign_replaces_the_formulas(tmp_path):
     import driven_atom
 
     config = {"atom": {"nucleus": "H", "initial": "1s"},
-              "pulse": [{"envelope": "gaussian", "wavelength": LYMAN, "intensity": "1e7 W/cm^2", "fwhm": "0.5 ns"}],
+              "pulse": [{"envelope": "gaussian", "wavelength": LYMAN, "intensity": "1e8 W/cm^2", "fwhm": "50 ps"}],
               "solver": {"route": "levels", "states": ["1s", "2p"], "ionization_loss": True},
-              "scan": {"pulse.0.intensity": {"from": "1e7 W/cm^2", "to": "1e10 W/cm^2", "num": 4, "spacing": "log"}}}
+              "scan": {"pulse.0.intensity": {"from": "1e8 W/cm^2", "to": "1e10 W/cm^2", "num": 3, "spacing": "log"},
+                       "pulse.0.wavelength": ["121.5680 nm", "121.5689 nm"]}}
+    from concurrent.futures import ThreadPoolExecutor
+
     folder = tmp_path / "camp"
-    driven_atom.scan(config, folder, progress=False)
+    with ThreadPoolExecutor(1) as pool:                     # in this process: no worker start-up
+        driven_atom.scan(config, folder, executor=pool, progress=False)
     ds = driven_atom.open_campaign(folder)
-    lab = {"species": "H", "wavelength": LYMAN, "fwhm": "0.5 ns", "temperature": "0 K", "waist": "20 um",
+    jobs = ds["ionization"].sel({"pulse.0.intensity": 1e9}, method="nearest").values
+    lab = {"species": "H", "fwhm": "50 ps", "temperature": "0 K", "intensity": "1e9 W/cm^2", "waist": "20 um",
            "density": "1e10 cm^-3", "length": "2 mm"}
-    out = estimate(lab=lab, intensity="1e9 W/cm^2", table=folder)
-    assert out["method"].startswith("campaign table")
-    # at a scanned intensity the table returns the job's own numbers (interpolation through the nodes)
-    job = float(ds["ionization"].sel({"pulse.0.intensity": 1e9}, method="nearest"))
-    assert out["probability_peak"] == pytest.approx(job, rel=1e-9)
-    formulas = estimate(lab=lab, intensity="1e9 W/cm^2")
-    assert out["ions_per_shot"] == pytest.approx(formulas["ions_per_shot"], rel=0.4)      # sublevel vs averaged sigma
+    # at a scanned point the table returns the job's own number (interpolation through the nodes) ...
+    out = estimate(lab=lab, wavelength="121.5680 nm", table=folder)
+    assert out["method"].startswith("campaign table") and out["probability_peak"] == pytest.approx(jobs[0], rel=1e-9)
+    # ... between two wavelengths the linear interpolation in photon energy (the midpoint within 1e-6)
+    mid = estimate(lab=lab, wavelength="121.56845 nm", table=folder)
+    assert mid["probability_peak"] == pytest.approx(0.5 * (jobs[0] + jobs[1]), rel=1e-4)
+    assert mid["ions_per_shot"] > 0 and any("interpolated to the laser's photon energy" in n for n in mid["notes"])
+    from driven_atom.errors import InputError
+
+    with pytest.raises(InputError, match="the campaign covers photon energies"):
+        estimate(lab=lab, wavelength="121.6 nm", table=folder)
 
 
 def test_check_runs_the_route_the_regime_calls_for(capsys):

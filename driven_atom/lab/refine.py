@@ -10,8 +10,10 @@ formulas (``--table``), or one short run at the peak intensity (``--check``).
   twin, with ``ionization_loss``) for resonant pulses longer than ``LEVELS_ABOVE``, ``basis`` for
   weak fields (one-photon, perturbative, resonant short pulses), ``grid`` for strong fields — run
   on one atom at rest at the peak intensity. Pulses too long for the basis and grid routes are
-  replaced by a Gaussian of ``SHORT_CYCLES`` optical cycles (FWHM) at the same peak intensity, and
-  the estimate is recomputed for exactly that pulse: the two numbers printed describe one case.
+  replaced by a Gaussian of ``SHORT_CYCLES`` optical cycles (FWHM) at the same peak intensity (the
+  basis route's box must hold the photoelectron during the pulse, 2R > v·T: shorter still when that
+  box would pass BOX_CAP), and the estimate is recomputed for exactly that pulse: the two numbers
+  printed describe one case.
 """
 from __future__ import annotations
 
@@ -26,6 +28,8 @@ from driven_atom.errors import InputError
 LEVELS_ABOVE = 100e-12          # resonant pulses longer than this (s FWHM) are checked on the levels route
 SHORT_CYCLES = 20               # the check's replacement pulse: this many cycles FWHM
 MAX_SHORT_FWHM = 2e-12          # basis/grid checks run pulses up to this FWHM (s)
+BOX_CAP = 600.0                 # largest basis-route box of a check (bohr × Zμ) ...
+MIN_CYCLES = 4                  # ... the pulse is shortened to fit it, to no fewer cycles (FWHM)
 
 
 # -- --table ----------------------------------------------------------------------------------------------
@@ -135,27 +139,59 @@ def _pulse_table(case, envelope_fwhm_s: float, polarization: str) -> dict:
             "polarization": pol}
 
 
-def _route_settings(case, model):
-    """(settings, route name) for the check (module docstring)."""
+def _route(case, model) -> str:
+    """The route the regime calls for (module docstring)."""
+    if model.regime == "resonant" and case.envelope.fwhm > LEVELS_ABOVE:
+        return "levels"
+    if model.regime in ("tunnelling", "above the barrier") or (model.regime == "multiphoton" and "PPT" in model.method):
+        return "grid"
+    return "basis"
+
+
+def _basis_box(case, model, fwhm: float) -> tuple[float, float]:
+    """(box radius, FWHM) for a basis-route check: the box holds the photoelectron over the pulse
+    (a reflection must not come back before the pulse ends: R > k v_window/4 with margin), the pulse
+    shortened (to no less than MIN_CYCLES) when that box would pass BOX_CAP."""
+    from driven_atom.lab.physics import binding_energy
+    from driven_atom.pulse import gaussian_window
+    from driven_atom.units import AU_TIME_S
+
+    scale = case.atom.Z * case.atom.reduced_mass
+    ip = binding_energy(case.atom, case.state)
+    energy = max((model.photons or 1) * case.photon_energy - ip, 0.05 * scale**2)
+    k = math.sqrt(2 * case.atom.reduced_mass * energy)
+    period = 2 * math.pi / case.photon_energy * AU_TIME_S
+
+    def radius(width):
+        return 1.5 * k * gaussian_window(width / AU_TIME_S) / 4 + 40.0 / scale
+
+    if radius(fwhm) > BOX_CAP / scale:
+        fwhm = max((BOX_CAP / scale - 40.0 / scale) * 4 / (1.5 * k) / (gaussian_window(1.0)) * AU_TIME_S,
+                   MIN_CYCLES * period)
+    return max(radius(fwhm), 100.0 / scale), fwhm
+
+
+def _settings(case, model, route: str, box: float | None):
+    """The ``[solver]`` model of the check's route."""
     from driven_atom.settings import BasisSettings, GridSettings, LevelsSettings
     from driven_atom.units import AU_TIME_S
 
-    if model.regime == "resonant" and case.envelope.fwhm > LEVELS_ABOVE:
+    if route == "levels":
         res = model.resonance
         lower = case.state.level.label
         uppers = sorted({u.rstrip("-0123456789") for u in res["upper"].split("/")})
         return LevelsSettings(states=[lower, *uppers], rwa=True, decay=True, ionization_loss=True,
-                              dephasing=res["photons"] ** 2 * math.pi * case.linewidth * AU_TIME_S), "levels"
-    if model.regime in ("tunnelling", "above the barrier") or (model.regime == "multiphoton" and "PPT" in model.method):
-        return GridSettings(), "grid"
+                              dephasing=res["photons"] ** 2 * math.pi * case.linewidth * AU_TIME_S)
+    if route == "grid":
+        return GridSettings()
     from driven_atom.lab.physics import binding_energy
 
-    ip = binding_energy(case.atom, case.state)
-    photons = model.photons or 1
     scale = case.atom.Z * case.atom.reduced_mass
-    e_max = max(1.0, photons * case.photon_energy - ip + 1.0) * scale / max(scale, 1.0)
-    return BasisSettings(r_max=150.0 / scale, dr=0.1 / scale, l_max=min(photons + 2, 10), e_max=e_max,
-                         cache_dir=None), "basis"
+    photons = model.photons or 1
+    e_max = max(1.0 * scale**2, photons * case.photon_energy - binding_energy(case.atom, case.state) + 1.0 * scale**2)
+    dr = min(0.25, 0.5 / math.sqrt(2 * e_max)) / scale
+    return BasisSettings(r_max=box, dr=dr, dr_min=min(0.08 / scale, dr / 2), l_max=min(photons + 2, 10),
+                         e_max=e_max, cache_dir=None)
 
 
 def check(case, model) -> dict:
@@ -172,13 +208,17 @@ def check(case, model) -> dict:
     if case.static is not None:
         raise InputError("`--check` takes a laser pulse; this configuration's pulse is a static field "
                          "(run it with `driven-atom run`)")
-    settings, route = _route_settings(case, model)
+    route = _route(case, model)
     fwhm = case.envelope.fwhm
     period = photon_energy_to_wavelength_nm(case.photon_energy) * 1e-9 / 299792458.0
-    note = "atoms at rest"
     if route != "levels" and fwhm > MAX_SHORT_FWHM:
         fwhm = SHORT_CYCLES * period
-        note = f"a {SHORT_CYCLES}-cycle Gaussian pulse at the same peak intensity, atoms at rest"
+    box = None
+    if route == "basis":
+        box, fwhm = _basis_box(case, model, fwhm)
+    note = ("atoms at rest" if fwhm == case.envelope.fwhm else
+            f"a {fwhm / period:.3g}-cycle Gaussian pulse at the same peak intensity, atoms at rest")
+    settings = _settings(case, model, route, box)
     same = dataclasses.replace(case, envelope=Envelope("gaussian", fwhm), doppler_fwhm=0.0)
     reference = choose_model(same)
     pulse = Pulse(_pulse_table(case, fwhm, case.polarization), atom=case.atom)
