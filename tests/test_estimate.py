@@ -189,11 +189,15 @@ def test_every_input_is_echoed_converted_and_flags_override_the_file(tmp_path):
     ({"pressure": "3 kg"}, "`--pressure`: must be a pressure"),
     ({"density": "1e12 cm^-3", "pressure": "1 mbar"}, "exclude each other"),
     ({"m2": 0.5}, "`--m2`"),
+    ({"photon_energy": "2 mJ"}, "past the dipole approximation"),        # the key an old hint led to
+    ({"waist": "0.1 um"}, "relativistic"),
 ])
 def test_bad_lab_input_is_one_line(keys, fragment):
     from driven_atom.errors import InputError
 
     base = {"species": "H", "wavelength": "800 nm", "pulse_energy": "1 mJ", "fwhm": "30 fs", "waist": "25 um"}
+    if "photon_energy" in keys:
+        base.pop("wavelength")
     with pytest.raises(InputError) as info:
         estimate(**{**base, **keys})
     assert fragment in str(info.value) and "\n" not in str(info.value)

@@ -339,6 +339,14 @@ def _resolve(lab: LabInput, run: dict, given: dict) -> LabCase:
         omega = component.omega
     else:
         raise InputError("`wavelength` (or `photon_energy`) is required, e.g. --wavelength \"243 nm\"")
+    if omega > 1.0:                             # X-rays: the run configuration's limit (dipole, one electron)
+        from driven_atom.config import MAX_PHOTON_ENERGY_AU
+        from driven_atom.units import HARTREE_EV
+
+        if omega > MAX_PHOTON_ENERGY_AU:
+            key = "wavelength" if lab.wavelength is not None else "photon_energy"
+            raise InputError(f"`{key}`: photons above {MAX_PHOTON_ENERGY_AU * HARTREE_EV / 1e3:.3g} keV reach past "
+                             f"the dipole approximation and the one-electron picture; got {omega * HARTREE_EV / 1e3:.3g} keV")
     # the pulse in time
     durations = [k for k in GROUPS["duration"] if getattr(lab, k) is not None]
     if durations:
@@ -376,6 +384,12 @@ def _resolve(lab: LabInput, run: dict, given: dict) -> LabCase:
         raise InputError("`pulse_energy` (or `power` with `rep_rate`, or the peak `intensity`) is required")
     if lab.intensity is not None and focus is not None:
         pulse_energy = peak * focus.area * envelope.integral(1.0)
+    from driven_atom.pulse import MAX_INTENSITY_WCM2
+
+    if peak * 1e-4 > MAX_INTENSITY_WCM2:
+        key = next((k for k in ("pulse_energy", "power", "intensity") if getattr(lab, k) is not None), "intensity")
+        raise InputError(f"`{key}`: the peak intensity {peak * 1e-4:.3g} W/cm^2 exceeds {MAX_INTENSITY_WCM2:.0e} "
+                         f"W/cm^2, where the electron turns relativistic and the estimate's physics fails")
     # the gas
     temperature = lab.temperature if lab.temperature is not None else ROOM_TEMPERATURE_K
     density = None
