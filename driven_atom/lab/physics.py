@@ -8,9 +8,10 @@ Regimes, tried in this order (``RESONANCE_WIDTHS``, ``LOPT_MIN_KELDYSH``, ``LOPT
 2. **above the barrier** (I₀ > I_BS = Iₚ⁴/(16Z²), Augst et al., PRL 63, 2212 (1989)): flagged; the
    PPT rate is used (it ionises the atom on the rising edge).
 3. **tunnelling** (Keldysh γ < 1): PPT (:mod:`driven_atom.lab.rates`), depleting the ground state.
-4. **resonant**: a one- or two-photon line (:func:`driven_atom.atom.resonance.nearest_lines`)
-   within RESONANCE_WIDTHS of its width (Fourier, Doppler, laser, natural and ionisation widths,
-   Rabi frequency and light shift added in quadrature): optical Bloch equations
+4. **resonant** (a perturbative field: γ ≥ LOPT_MIN_KELDYSH, Uₚ < ω/4): a one- or two-photon line
+   (:func:`driven_atom.atom.resonance.nearest_lines`) within RESONANCE_WIDTHS of its Fourier, Doppler
+   and laser widths, or within the peak Rabi frequency (power broadening), or swept through by the
+   light shift: optical Bloch equations
    (:mod:`driven_atom.lab.bloch`) over the Doppler profile, then ionisation of the upper level by
    the next photon(s) — one photon with the sublevel's cross section (1+1, 2+1), several by
    lowest-order perturbation theory (1+2, ...).
@@ -159,7 +160,8 @@ def _lopt_model(case, ip: float, i0: float, gamma: float, N: int) -> Model:
         return -np.expm1(-exponent * np.asarray(s, dtype=float) ** N)
 
     model = Model("multiphoton", f"{N}-photon ionisation in lowest-order perturbation theory (sums over "
-                  f"the atom's bound and continuum states), sigma_{N} = {sigma_cgs:.3g} cm^{2 * N} s^{N - 1}, "
+                  f"the atom's bound and continuum states), sigma_{N} = {sigma_cgs:.3g} cm^{2 * N} "
+                  f"{'s' if N == 2 else f's^{N - 1}'}, "
                   f"depleting as 1 - exp(-int W dt)",
                   f"{N} photons of {omega * HARTREE_EV:.4g} eV below the ionisation potential "
                   f"({ip * HARTREE_EV:.4g} eV), Keldysh gamma {gamma:.3g} >= {LOPT_MIN_KELDYSH:g}, no line "
@@ -337,12 +339,14 @@ def _resonance(case, ip: float, i0: float) -> Model | None:
         coupling = _coupling(case, line)
         if coupling is None:
             continue
-        width = math.sqrt(cheap**2 + coupling[2] ** 2)
         shifted = line.detuning / AU_TIME_S + coupling[3]          # the detuning at the peak, light-shifted
         swept = line.detuning * shifted < 0                        # the light shift sweeps it through zero
         closest = 0.0 if swept else min(detuning, abs(shifted))
-        if closest <= RESONANCE_WIDTHS * width and (best is None or closest / width < best[0]):
-            best = (closest / width, line, coupling)
+        # resonant: within RESONANCE_WIDTHS of the Fourier, Doppler and laser widths, or power-broadened
+        # over the detuning (farther out the perturbative sums, with every intermediate state, do better)
+        measure = closest / max(RESONANCE_WIDTHS * cheap, coupling[2], 1e-300)
+        if measure <= 1 and (best is None or measure < best[0]):
+            best = (closest / math.hypot(cheap, coupling[2]), line, coupling)
     if best is None:
         return None
     data = _line_data(case, best[1], best[2])
@@ -421,7 +425,7 @@ def _resonant_model(case, ip: float, data: _Line, widths: dict, in_widths: float
                   f"detuning, Doppler profile, laser linewidth, decay) with ionisation of "
                   f"{line.uppers[0].label} by {data.ionization_note}",
                   f"the {data.photons}-photon line {line.label} is {in_widths:.2g} of its widths (Fourier, Doppler, "
-                  f"laser, Rabi) from the laser ({line.detuning_GHz:+.4g} GHz"
+                  f"laser and Rabi, in quadrature) from the laser ({line.detuning_GHz:+.4g} GHz"
                   + (", light-shifted through resonance)" if in_widths == 0 else ")"),
                   "the Bloch equations agree with the master equation (levels route) within 1 % for atoms at "
                   "rest; two-level model: other levels, direct ionisation of the lower level"
