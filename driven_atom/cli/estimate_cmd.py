@@ -117,7 +117,8 @@ def report(out: dict) -> str:
     if out.get("saturation"):
         lines.append(out["saturation"])
     if out.get("ions_per_shot") is not None:
-        lines.append(f"per shot: {_g(out['atoms_in_volume'])} atoms in the beam, {_g(out['ions_per_shot'])} ions "
+        lines.append(f"per shot (gas {_g(inputs.get('density_cm3'))} cm^-3): {_g(out['atoms_in_volume'])} atoms in "
+                     f"the beam, {_g(out['ions_per_shot'])} ions "
                      f"(ionised fraction in the beam {_g(out['fraction_volume_averaged'])})"
                      + (f", {_g(out['excited_per_shot'])} excited" if out.get("excited_per_shot") is not None else ""))
         if out.get("ions_per_second") is not None:
@@ -129,8 +130,16 @@ def report(out: dict) -> str:
         lines.append(f"check with the {check['route']} route ({check['pulse']}): {check['comparison']}")
     given = inputs.get("given", {})
     if given:
-        echo = ", ".join(f"{k} {v}" for k, v in given.items() if isinstance(v, str))
-        lines.append(f"inputs: {echo}")
+        echo = []
+        for key, value in given.items():
+            converted = next(((k, inputs[k]) for k in inputs if k.startswith(key + "_") and k != "duration_given_as"),
+                             None)
+            if converted is not None and isinstance(value, str) and isinstance(converted[1], float):
+                unit = converted[0][len(key) + 1:].replace("cm3", "cm^-3").replace("cm2s", "cm^-2 s^-1").replace("ms", "m/s")
+                echo.append(f"{key} {value} = {converted[1]:.6g} {unit}")
+            else:
+                echo.append(f"{key} {value}")
+        lines.append("inputs: " + "; ".join(echo))
     lines += [f"warning: {w}" for w in out.get("warnings", [])]
     lines += [f"note: {n}" for n in out.get("notes", [])]
     if out.get("caution"):

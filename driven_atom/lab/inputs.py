@@ -15,6 +15,7 @@ group replaces the whole group (``--pulse-energy`` replaces a configured ``inten
   gaussian | top-hat | sheet (``sheet_height``);
 * gas: ``density`` | ``pressure`` (with ``temperature``, default 20 °C) | ``beam_flux`` with
   ``beam_velocity`` (an atomic beam: n = flux/velocity; ``beam_divergence`` sets its Doppler width);
+  ``temperature`` also sets the Doppler width of a gas ("0 K": atoms at rest);
 * region: ``length`` (along the laser) | ``volume`` (a detection sphere at the focus).
 
 >>> case = lab_case(lab={"species": "H", "wavelength": "121.5684 nm", "intensity": "1e8 W/cm^2",
@@ -35,14 +36,16 @@ from driven_atom.errors import InputError, short, validation_message
 from driven_atom.quantities import LabQuantity, Number
 from driven_atom.units import BOLTZMANN_JK, SPEED_OF_LIGHT_MS, UnitError, convert
 
-GROUPS = {
-    "colour": ("wavelength", "photon_energy"),
-    "pulse": ("pulse_energy", "power", "intensity"),
-    "duration": ("fwhm", "field_fwhm", "rms", "field_rms"),
-    "focus": ("waist", "focus_fwhm", "beam_diameter", "focal_length"),
-    "gas": ("density", "pressure", "beam_flux", "beam_velocity"),
-    "region": ("length", "volume"),
+# group -> its alternatives (keys that go together); one alternative per source
+ALTERNATIVES = {
+    "colour": (("wavelength",), ("photon_energy",)),
+    "pulse": (("pulse_energy",), ("power",), ("intensity",)),
+    "duration": (("fwhm",), ("field_fwhm",), ("rms",), ("field_rms",)),
+    "focus": (("waist",), ("focus_fwhm",), ("beam_diameter", "focal_length")),
+    "gas": (("density",), ("pressure",), ("beam_flux", "beam_velocity", "beam_divergence")),
+    "region": (("length",), ("volume",)),
 }
+GROUPS = {group: tuple(k for alt in alts for k in alt) for group, alts in ALTERNATIVES.items()}
 ROOM_TEMPERATURE_K = 293.15
 ATOMIC_MASS_UNIT_KG = 1.66053906892e-27
 
@@ -137,11 +140,11 @@ class LabInput(BaseModel):
 
     @model_validator(mode="after")
     def _fit_together(self):
-        for group, keys in GROUPS.items():
-            given = [k for k in keys if getattr(self, k) is not None]
-            pairs = {("power",), ("beam_diameter", "focal_length"), ("beam_flux", "beam_velocity")}
-            if len(given) > 1 and tuple(given) not in pairs:
-                raise ValueError(f"`{given[0]}` and `{given[1]}` exclude each other; give one")
+        for group, alternatives in ALTERNATIVES.items():
+            given = [k for alt in alternatives for k in alt if getattr(self, k) is not None]
+            if given and not any(set(given) <= set(alt) for alt in alternatives):
+                other = next(k for k in given[1:] if not any({given[0], k} <= set(alt) for alt in alternatives))
+                raise ValueError(f"`{given[0]}` and `{other}` exclude each other; give one")
         if self.power is not None and self.rep_rate is None:
             raise ValueError("`power` (average) needs `rep_rate`")
         if (self.beam_diameter is None) != (self.focal_length is None):
