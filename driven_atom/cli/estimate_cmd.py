@@ -136,7 +136,7 @@ def report(out: dict) -> str:
                              None)
             if converted is not None and isinstance(value, str) and isinstance(converted[1], float):
                 unit = converted[0][len(key) + 1:].replace("cm3", "cm^-3").replace("cm2s", "cm^-2 s^-1").replace("ms", "m/s")
-                echo.append(f"{key} {value} = {converted[1]:.6g} {unit}")
+                echo.append(f"{key} {value} = {converted[1]:.10g} {unit}")
             else:
                 echo.append(f"{key} {value}")
         lines.append("inputs: " + "; ".join(echo))
