@@ -47,7 +47,6 @@ ALTERNATIVES = {
 }
 GROUPS = {group: tuple(k for alt in alts for k in alt) for group, alts in ALTERNATIVES.items()}
 ROOM_TEMPERATURE_K = 293.15
-ATOMIC_MASS_UNIT_KG = 1.66053906892e-27
 
 
 def _photon_energy(value):
@@ -193,13 +192,6 @@ class LabCase:
     inputs: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
     warnings: list = field(default_factory=list)
-
-    @property
-    def wavelength(self) -> float:
-        """Vacuum wavelength in m."""
-        from driven_atom.units import photon_energy_to_wavelength_nm
-
-        return photon_energy_to_wavelength_nm(self.photon_energy) * 1e-9
 
 
 # -- reading -----------------------------------------------------------------------------------------

@@ -151,7 +151,7 @@ def _lopt_model(case, ip: float, i0: float, gamma: float, N: int) -> Model:
     from driven_atom.units import BOHR2_CM2
 
     omega, env = case.photon_energy, case.envelope
-    _, K = rate_coefficient(case.atom, case.state, omega, N, _polarization_name(case))
+    _, K = rate_coefficient(case.atom, case.state, omega, N, case.polarization)
     exponent = K * i0**N * env.integral(N) / AU_TIME_S
     sigma = K * (8 * math.pi * omega / C_AU) ** N              # σ_N = K_N (8πω/c)^N (a.u.)
     sigma_cgs = sigma * BOHR2_CM2**N * AU_TIME_S ** (N - 1)
@@ -174,10 +174,6 @@ def _lopt_model(case, ip: float, i0: float, gamma: float, N: int) -> Model:
     except (ValueError, OverflowError, ArithmeticError):
         pass
     return model
-
-
-def _polarization_name(case) -> str:
-    return {"linear": "linear", "circular+": "circular+", "circular-": "circular-"}[case.polarization]
 
 
 # -- PPT ---------------------------------------------------------------------------------------------------
@@ -260,7 +256,7 @@ def _coupling(case, line) -> tuple | None:
     uppers = [State(s.n, s.l, m_up) for s in line.uppers if abs(m_up) <= s.l]
     if not uppers:
         return None
-    pol = _polarization_name(case)
+    pol = case.polarization
     if line.photons == 1:
         couplings = [abs(dipole_matrix_element(atom, u, lower, q)) for u in uppers]
         rabi = math.sqrt(i0 * sum(c * c for c in couplings)) / AU_TIME_S
@@ -302,7 +298,7 @@ def _line_data(case, line, coupling) -> _Line:
         rate = sigma * BOHR_M**2 * photon_flux(case.peak_intensity, omega)
         note = f"one photon (sigma = {sigma * BOHR_M**2 * 1e4:.3g} cm^2)"
     else:
-        K = sum(w * rate_coefficient(atom, u, omega, m_ion, _polarization_name(case))[1]
+        K = sum(w * rate_coefficient(atom, u, omega, m_ion, case.polarization)[1]
                 for w, u in zip(weights, uppers))
         rate = K * i0**m_ion / AU_TIME_S
         note = f"{m_ion} photons (lowest-order perturbation theory)"
