@@ -430,6 +430,8 @@ def test_demo_report_and_json_contract(capsys, tmp_path):
                 "laser_linewidth_GHz"):
         assert key in data["resonance"]
     assert data["saturated"] and data["ions_per_shot"] > 0 and data["excited_per_shot"] > 0
+    assert 0 < data["excited_fraction_volume_averaged"] < 1 and 0 < data["fraction_volume_averaged"] < 1
+    assert data["ions_per_second"] == pytest.approx(10 * data["ions_per_shot"], rel=1e-9)     # 10 Hz
     assert data["caution"] in captured.err and "not a safety assessment" in data["caution"]
     assert (tmp_path / "yield.png").stat().st_size > 0 and "curve" not in data
     assert main(["estimate", str(DEMO)]) == 0

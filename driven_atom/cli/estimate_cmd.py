@@ -120,7 +120,9 @@ def report(out: dict) -> str:
         lines.append(f"per shot (gas {_g(inputs.get('density_cm3'))} cm^-3): {_g(out['atoms_in_volume'])} atoms in "
                      f"the beam, {_g(out['ions_per_shot'])} ions "
                      f"(ionised fraction in the beam {_g(out['fraction_volume_averaged'])})"
-                     + (f", {_g(out['excited_per_shot'])} excited" if out.get("excited_per_shot") is not None else ""))
+                     + (f", {_g(out['excited_per_shot'])} excited (fraction in the beam "
+                        f"{_g(out.get('excited_fraction_volume_averaged'))})"
+                        if out.get("excited_per_shot") is not None else ""))
         if out.get("ions_per_second") is not None:
             lines.append(f"  {_g(out['ions_per_second'])} ions per second")
     if out.get("slope") is not None:

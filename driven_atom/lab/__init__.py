@@ -17,8 +17,9 @@ floats whose keys name their units:
   ``saturation_intensity_Wcm2`` (where the ionisation reaches 1 − 1/e), ``saturated`` and the plain
   ``saturation`` statement, ``resonance`` (line, detuning, Rabi frequency, pulse area, widths);
 * with a focus and a gas: ``atoms_in_volume`` (inside the 1/e² radius along the interaction
-  region), ``fraction_volume_averaged`` (ionised fraction of those), ``ions_per_shot``,
-  ``excited_per_shot`` (focal averages, :mod:`driven_atom.lab.focus`), ``slope`` (d ln N/d ln E_p);
+  region), ``fraction_volume_averaged`` (ionised fraction of those; ``excited_fraction_volume_averaged``
+  likewise), ``ions_per_shot``, ``excited_per_shot`` (focal averages, :mod:`driven_atom.lab.focus`),
+  ``ions_per_second`` with a repetition rate, ``slope`` (d ln N/d ln E_p at the operating point);
 * ``inputs`` (every input converted, the user's spelling under ``given``), ``warnings``, ``notes``,
   ``caution`` (:mod:`driven_atom.lab.caution`, null when none applies);
 * ``table``: a campaign folder whose collected yields replace the formulas, ``check``: one short
@@ -101,8 +102,9 @@ def _counts(case, ions, excited) -> dict:
     out = {"atoms_in_volume": ion["atoms_in_beam"], "ions_per_shot": ion["count"],
            "fraction_volume_averaged": ion["count_in_beam"] / ion["atoms_in_beam"] if ion["atoms_in_beam"] else None}
     if excited is not None:
-        out["excited_per_shot"] = case.focus.counts(excited, case.density, length=case.length,
-                                                    volume=case.volume)["count"]
+        exc = case.focus.counts(excited, case.density, length=case.length, volume=case.volume)
+        out["excited_per_shot"] = exc["count"]
+        out["excited_fraction_volume_averaged"] = exc["count_in_beam"] / exc["atoms_in_beam"] if exc["atoms_in_beam"] else None
     return out
 
 
