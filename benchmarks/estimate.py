@@ -1,10 +1,10 @@
-"""Cold start of ``driven-atom estimate`` on the demo lab case (configs/kestrel_lab_lyman_alpha.toml).
+"""Cold start of ``driven-atom estimate`` on the demo lab case (configs/lab/kestrel_lyman_alpha.toml).
 
 Both commands run as whole fresh processes, interleaved, several times; the script prints one JSON
 object with the median wall times and their ratio:
 
 * ``python -c "import numpy, scipy"`` (the floor any numpy/scipy program pays),
-* ``python -m driven_atom estimate configs/kestrel_lab_lyman_alpha.toml --json``.
+* ``python -m driven_atom estimate configs/lab/kestrel_lyman_alpha.toml --json``.
 
 The issue's target is an answer in under 0.5 s on the machine where the baseline takes about 0.15 s;
 ratios, not absolute times, are the result (the machine may be shared).
@@ -24,8 +24,8 @@ from pathlib import Path
 REPO = Path(__file__).resolve().parents[1]
 COMMANDS = {
     "baseline": [sys.executable, "-c", "import numpy, scipy"],
-    "estimate": [sys.executable, "-m", "driven_atom", "estimate", str(REPO / "configs" / "kestrel_lab_lyman_alpha.toml"),
-                 "--json"],
+    "estimate": [sys.executable, "-m", "driven_atom", "estimate",
+                 str(REPO / "configs" / "lab" / "kestrel_lyman_alpha.toml"), "--json"],
 }
 
 

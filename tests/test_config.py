@@ -12,9 +12,7 @@ from driven_atom.routes import load_config
 from driven_atom.settings import LevelsSettings
 from driven_atom.units import AU_TIME_S
 
-SHIPPED = sorted((Path(__file__).resolve().parent.parent / "configs").glob("*.toml"))
-LAB_ONLY = [p for p in SHIPPED if set(__import__("tomllib").loads(p.read_text())) == {"lab"}]   # estimate inputs
-CONFIGS = [p for p in SHIPPED if p not in LAB_ONLY]
+CONFIGS = sorted((Path(__file__).resolve().parent.parent / "configs").glob("*.toml"))
 BASE = {"atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
         "pulse": [{"envelope": "sin2", "wavelength": "800 nm", "intensity": "1e13 W/cm^2", "cycles": 4}],
         "solver": {"route": "grid"}}
@@ -41,17 +39,6 @@ def drop(path):
 def test_demo_and_scenarios_are_present():
     names = {p.name for p in CONFIGS}
     assert "demo.toml" in names and len([n for n in names if n.startswith("kestrel_")]) >= 2
-
-
-@pytest.mark.parametrize("path", LAB_ONLY, ids=lambda p: p.name)
-def test_shipped_lab_tables_are_estimate_inputs_in_lab_units(path):
-    from driven_atom.lab.inputs import lab_case
-
-    case = lab_case(path)
-    given = case.inputs["given"]
-    assert all(isinstance(v, str) for k, v in given.items() if k not in ("species", "state", "polarization"))
-    with pytest.raises(InputError, match="is required"):
-        load_config(path)                          # a lab table is not a run (no [atom], no [solver])
 
 
 @pytest.mark.parametrize("path", CONFIGS, ids=lambda p: p.name)

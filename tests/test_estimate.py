@@ -18,7 +18,7 @@ from driven_atom.lab.rates import _w_m, adk_rate, ppt_exponent, ppt_rate
 from driven_atom.lab.temporal import Envelope
 
 REPO = Path(__file__).resolve().parents[1]
-DEMO = REPO / "configs" / "kestrel_lab_lyman_alpha.toml"
+DEMO = REPO / "configs" / "lab" / "kestrel_lyman_alpha.toml"
 LYMAN = "121.5684456 nm"          # the model's 1s-2p line (Bohr levels, proton reduced mass)
 
 
@@ -437,6 +437,22 @@ def test_demo_report_and_json_contract(capsys, tmp_path):
     assert main(["estimate", str(DEMO)]) == 0
     text = capsys.readouterr().out
     assert "method: resonant 1+1" in text and "resonance 1s-2p" in text and "saturated at the focus centre" in text
+
+
+@pytest.mark.parametrize("path", sorted((REPO / "configs" / "lab").glob("*.toml")), ids=lambda p: p.name)
+def test_shipped_lab_tables_hold_only_lab_numbers(path):
+    # configs/lab: estimate inputs, kept apart from the run configurations of configs/
+    import tomllib
+
+    from driven_atom.errors import InputError
+    from driven_atom.routes import load_config
+
+    assert set(tomllib.loads(path.read_text())) == {"lab"}
+    out = estimate(path)
+    assert all(isinstance(v, str) for k, v in out["inputs"]["given"].items() if k not in ("species", "state",
+                                                                                          "polarization"))
+    with pytest.raises(InputError, match="is required"):
+        load_config(path)                          # a lab table is not a run (no [atom], no [solver])
 
 
 def test_caution_depends_on_the_numbers():
