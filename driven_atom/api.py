@@ -37,20 +37,25 @@ def ensure_writable(path: Path) -> None:
         raise InputError(f"`--out` {str(path)!r} cannot be written: {exc.strerror or exc}") from None
 
 
-def run(config, *, out=None, progress: bool = True, name: str | None = None) -> Result:
+def run(config, *, out=None, progress: bool = True, name: str | None = None, error_estimate: bool | None = None,
+        max_hours: float | None = None, cache_dir=None) -> Result:
     """Propagate one configuration with its route and write the HDF5 result.
 
     ``config`` is a path, a dict or a :class:`~driven_atom.config.RunConfig`; the result goes to
     ``out`` (a folder or a ``.h5`` path; default ``runs/``). A run whose checkpoint file holds the
-    same physics resumes from it. The returned :class:`Result` carries the file path in
-    ``metadata["file"]``.
+    same physics resumes from it. ``error_estimate`` overrides ``[output] error_estimate`` (an
+    error bar on every scalar, in ``result.quality["errors"]``); ``max_hours`` refuses a run
+    estimated to take longer; ``cache_dir`` puts the basis cache anywhere (the config may only name a
+    folder inside the result's). The returned :class:`Result` carries the file path in
+    ``metadata["file"]`` and its ``quality`` block (checks made, ``trustworthy``).
     """
     if name is None and isinstance(config, (str, Path)):
         name = Path(config).stem
     cfg = load_config(config)
     path = result_path(cfg, out, name=name or "run")
     ensure_writable(path)
-    return run_config(cfg, path, progress=progress)
+    return run_config(cfg, path, progress=progress, error_estimate=error_estimate, max_hours=max_hours,
+                      cache_dir=cache_dir)
 
 
 def open_result(path) -> Result:

@@ -33,14 +33,14 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError, field_validator, model_validator
 
+from driven_atom.atom.components import check_label
 from driven_atom.atom.species import Atom
-from driven_atom.atom.states import parse_state
 from driven_atom.errors import InputError, short, validation_message
 from driven_atom.io import read_regular_text
-from driven_atom.quantities import Integer, Number, Quantity
+from driven_atom.quantities import Flag, Integer, Number, Quantity
 from driven_atom.settings import SETTINGS, RouteSettings
 
-HASH_VERSION = 2                     # bump when the meaning of a hashed value changes
+HASH_VERSION = 3                     # bump when the meaning of a hashed value changes
 MAX_NESTING = 24                     # deepest table/list nesting a config may have
 SIGNIFICANT = 12                     # digits of a float that enter a job id
 
@@ -58,12 +58,17 @@ class WeightedState(_Section):
 
 
 class AtomConfig(_Section):
-    """``[atom]``: nuclear charge, nucleus (name or mass) and initial state."""
+    """``[atom]``: nuclear charge, nucleus (name or mass), level structure and initial state."""
 
     Z: Integer(ge=1, le=118) | None = Field(None, description="nuclear charge")
     nucleus: str = Field("infinite", description="nucleus name (H, D, T, He3, He, Li, ...), ion name "
                          "(He+, Li2+, ...), \"infinite\" or a mass with units (\"1.00728 u\")")
-    initial: str | list[WeightedState] = Field("1s", description="state label, or a list of weighted "
+    structure: Literal["bohr", "fine", "hyperfine"] = Field("bohr", description=(
+        "level structure: bohr (reduced-mass Bohr levels), fine (Dirac energies with recoil and the Lamb "
+        "shift; states |n l j m_j>) or hyperfine (also the magnetic hyperfine structure; states |n l j F m_F>); "
+        "fine and hyperfine need route \"levels\""))
+    initial: str | list[WeightedState] = Field("1s", description="state label (\"1s\", or a component such as "
+                                               "\"1s1/2 F=1 m=0\" with structure), or a list of weighted "
                                                "states ({state, weight, phase}; a plain label has weight 1)")
 
     @field_validator("initial", mode="before")
@@ -73,36 +78,67 @@ class AtomConfig(_Section):
             return [{"state": item} if isinstance(item, str) else item for item in value]
         return value
 
-    @field_validator("initial")
-    @classmethod
-    def _labels(cls, value):
-        labels = [value] if isinstance(value, str) else [c.state for c in value]
+    @model_validator(mode="after")
+    def _labels(self):
+        labels = [self.initial] if isinstance(self.initial, str) else [c.state for c in self.initial]
         if not labels:
-            raise ValueError("must name at least one state")
+            raise ValueError("`atom.initial` must name at least one state")
         seen = set()
         for label in labels:
-            state = parse_state(label, name="atom.initial")
+            state = check_label(label, self.structure, name="atom.initial")
             if state in seen:
                 raise ValueError(f"`atom.initial` lists {state.label} twice (the norm would not be 1); "
                                  f"give each state once with its weight")
             seen.add(state)
-        return value
+        return self
 
     @model_validator(mode="after")
     def _atom(self):
-        self.build_atom()
+        atom = self.build_atom()
+        if self.structure == "hyperfine":
+            from driven_atom.atom.structure import nuclear_spin2
+
+            nuclear_spin2(atom)           # refuses a nucleus without spin and magnetic moment
         return self
 
     def build_atom(self) -> Atom:
         return Atom.from_name(self.nucleus, Z=self.Z)
 
     def initial_states(self) -> list:
-        """The initial state as a normalised list of (State, complex amplitude)."""
+        """The initial state as a normalised list of (State or Component, complex amplitude)."""
         if isinstance(self.initial, str):
-            return [(parse_state(self.initial, name="atom.initial"), 1.0 + 0j)]
+            return [(check_label(self.initial, self.structure, name="atom.initial"), 1.0 + 0j)]
         total = sum(c.weight for c in self.initial)
-        return [(parse_state(c.state, name="atom.initial"),
+        return [(check_label(c.state, self.structure, name="atom.initial"),
                  math.sqrt(c.weight / total) * cmath.exp(1j * c.phase)) for c in self.initial]
+
+
+MAX_MAGNETIC_T = 10.0                # the diamagnetic term (left out) reaches ~30 MHz at n = 2 there
+
+
+class FieldsConfig(_Section):
+    """``[fields]``: static fields of the apparatus, along z (the quantisation axis), present the whole
+    run. They are part of the level structure: Zeeman and Stark couplings within each shell n of the
+    model, diagonalised (route "levels" with ``atom.structure`` = "fine" or "hyperfine"). A ramped DC
+    field that is part of the experiment is a [[pulse]] with envelope = "static" instead."""
+
+    magnetic: Quantity("magnetic field") = Field(0.0, description=(
+        "static magnetic field along z (\"5 G\", \"0.3 mT\"; the sign gives its direction), |B| <= 10 T"))
+    electric: Quantity("field") = Field(0.0, description=(
+        "static electric field along z (\"10 V/cm\"; the sign gives its direction)"))
+
+    @model_validator(mode="after")
+    def _range(self):
+        from driven_atom.units import AU_MAGNETIC_T
+
+        if abs(self.magnetic) * AU_MAGNETIC_T > MAX_MAGNETIC_T:
+            raise ValueError(f"`fields.magnetic` must be within +-{MAX_MAGNETIC_T:g} T (the model leaves out the "
+                             f"diamagnetic term), got {self.magnetic * AU_MAGNETIC_T:.4g} T")
+        return self
+
+    @property
+    def any(self) -> bool:
+        return self.magnetic != 0.0 or self.electric != 0.0
 
 
 _EXCLUSIVE = (("wavelength", "photon_energy"), ("intensity", "peak_field"))
@@ -184,6 +220,8 @@ class OutputConfig(_Section):
 
     every: Quantity("time", gt=0) | None = Field(None, description="history sampling interval "
                                                  "(default: 200 samples over the run)")
+    error_estimate: Flag = Field(False, description="run a coarser companion and store an error bar "
+                                 "for every scalar (ionization_err, ...); costs about a third of the run")
 
     @property
     def every_au(self) -> float | None:
@@ -192,11 +230,12 @@ class OutputConfig(_Section):
 
 
 class RunConfig(_Section):
-    """A whole run: ``[atom]``, ``[[pulse]]``, ``[solver]``, ``[output]``, optional ``[scan]`` and
-    ``[cluster]`` (checked by the campaign) and ``[lab]`` (the lab numbers of ``driven-atom
-    estimate``, checked by :mod:`driven_atom.lab`; a run does not use them)."""
+    """A whole run: ``[atom]``, optional ``[fields]``, ``[[pulse]]``, ``[solver]``, ``[output]``,
+    optional ``[scan]`` and ``[cluster]`` (checked by the campaign) and ``[lab]`` (the lab numbers of
+    ``driven-atom estimate``, checked by :mod:`driven_atom.lab`; a run does not use them)."""
 
     atom: AtomConfig
+    fields: FieldsConfig = Field(default_factory=FieldsConfig)
     pulse: list[PulseConfig] = Field(default_factory=list)
     solver: RouteSettings
     output: OutputConfig = Field(default_factory=OutputConfig)
@@ -230,6 +269,16 @@ class RunConfig(_Section):
         except ValidationError as exc:      # one line, keys and suggestions from the route's model
             raise ValueError(validation_message(exc, prefix="solver", model=SETTINGS[route])) from None
 
+    @model_validator(mode="after")
+    def _structure_fits(self):
+        structure = self.atom.structure
+        if self.fields.any and structure == "bohr":
+            raise ValueError("`fields` need `atom.structure` = \"fine\" or \"hyperfine\" (the Bohr model has no "
+                             "spin: no Zeeman effect, and its 2s and 2p are degenerate)")
+        for label in getattr(self.solver, "states", None) or ():
+            check_label(label, structure, name="solver.states")
+        return self
+
     # -- derived objects (the pulse is built one floor up: driven_atom.pulse.build_pulse) ------------
     @property
     def route(self) -> str:
@@ -258,7 +307,9 @@ class RunConfig(_Section):
         atom = self.build_atom()
         initial = [[s.label, a.real, a.imag] for s, a in self.initial_states()]
         return _canonical({"hash_version": HASH_VERSION,
-                           "atom": {"Z": atom.Z, "nuclear_mass": atom.nuclear_mass, "initial": initial},
+                           "atom": {"Z": atom.Z, "nuclear_mass": atom.nuclear_mass, "initial": initial,
+                                    "structure": self.atom.structure},
+                           "fields": self.fields.model_dump(mode="json"),
                            "pulse": [p.physics() for p in self.pulse],
                            "solver": self.solver.physics()})
 

@@ -51,6 +51,15 @@ def short(text, limit: int = MESSAGE_ECHO) -> str:
     return text if len(text) <= limit else f"{text[:limit]}...[{len(text)} chars]"
 
 
+def one_line(text) -> str:
+    r"""``text`` with its line breaks and other control characters escaped: a message stays one line.
+
+    >>> one_line("bad\n0")
+    'bad\\n0'
+    """
+    return "".join(ch if ch.isprintable() or ch == " " else ch.encode("unicode_escape").decode() for ch in str(text))
+
+
 def suggest(word: str, options) -> str:
     """`` (did you mean `x`?)`` for the closest of ``options``, or ``""``.
 

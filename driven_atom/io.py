@@ -66,7 +66,7 @@ def free_space(path) -> str:
 
 def storage_error(path, exc: OSError) -> StorageError:
     """A :class:`StorageError` with one line for ``exc`` raised while writing ``path``."""
-    if exc.errno in _NO_SPACE:
+    if exc.errno in _NO_SPACE or "No space left" in str(exc):
         why = "the disk is full" if exc.errno == errno.ENOSPC else "the quota or file size limit is reached"
     elif exc.errno in _READ_ONLY:
         why = "the folder is read-only or not writable"
@@ -113,11 +113,18 @@ def _fsync_dir(folder: Path) -> None:
         os.close(fd)
 
 
+def _is_full(exc: OSError) -> bool:
+    """A write failed for lack of room (errno, or the text of libraries that lose the errno)."""
+    return exc.errno in _NO_SPACE or "No space left" in str(exc) or "Disk quota" in str(exc)
+
+
 @contextmanager
-def atomic_write(path, *, sync: bool = True):
+def atomic_write(path, *, sync: bool = True, size_hint: float | None = None):
     """Context manager yielding a temporary path to fill; on success it replaces ``path``.
 
     ``sync``: fsync the file and its folder (turn off only for throw-away markers).
+    ``size_hint``: bytes the file will take; a disk without that room (and 1 MiB) is refused
+    before anything is written (some writers crash rather than fail on a full disk).
 
     >>> import tempfile, pathlib
     >>> with tempfile.TemporaryDirectory() as d:
@@ -130,9 +137,11 @@ def atomic_write(path, *, sync: bool = True):
     path = Path(path)
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
+        if size_hint is not None and shutil.disk_usage(path.parent).free < 1.1 * size_hint + (1 << 20):
+            raise OSError(errno.ENOSPC, "No space left on device")
         tmp = temp_path(path)
     except OSError as exc:
-        if exc.errno in _NO_SPACE | _READ_ONLY:
+        if exc.errno in _READ_ONLY or _is_full(exc):
             raise storage_error(path, exc) from None
         raise
     try:
@@ -146,7 +155,7 @@ def atomic_write(path, *, sync: bool = True):
         tmp.unlink(missing_ok=True)
         if isinstance(exc, StorageError):
             raise
-        if exc.errno in _NO_SPACE | _READ_ONLY:
+        if exc.errno in _READ_ONLY or _is_full(exc):
             raise storage_error(path, exc) from None
         raise
     except BaseException:

@@ -134,7 +134,21 @@ def _is_level(label: str) -> bool:
 
 
 def _levels_only(populations: dict) -> dict:
-    """The entries of the levels (labels without m); all entries if there is no level label."""
+    """The entries of the levels (labels without m); all entries if there is no level label.
+    With fine or hyperfine components, the finest whole components ("2p3/2", or "1s1/2 F=1")."""
+    from driven_atom.atom.components import Component, parse_label
+
+    components = {}
+    for k in populations:
+        try:
+            item = parse_label(k)
+        except InputError:
+            continue
+        if isinstance(item, Component) and item.m2 is None:
+            components[k] = item
+    if components:
+        refined = {c.fine for c in components.values() if c.F2 is not None}
+        return {k: populations[k] for k, c in components.items() if c not in refined}
     levels = {k: v for k, v in populations.items() if _is_level(k)}
     return levels or dict(populations)
 

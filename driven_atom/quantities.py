@@ -32,7 +32,7 @@ from driven_atom.units import AU_TIME_S, SI_KINDS, UnitError, convert, kind_phra
 
 AU_UNIT_NAME = {"energy": "hartree", "length": "bohr", "time": "au of time", "intensity": "au",
                 "field": "au", "rate": "au", "mass": "electron masses", "area": "bohr^2",
-                "fluence": "au", "density": "bohr^-3", "chirp": "au"}
+                "fluence": "au", "density": "bohr^-3", "chirp": "au", "magnetic field": "au"}
 
 
 @dataclass(frozen=True)

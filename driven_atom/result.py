@@ -8,7 +8,7 @@ HDF5 layout of a result file (``NAME.h5``)::
             sha256 (checksum of the result's content, see :func:`content_digest`)
     /times                       history sample times (a.u.)
     /populations                 attrs label -> final population; dataset "labels"/"values"
-    /history/populations/<label> population at each sample time
+    /history/populations/<label> population at each sample time ("/" in a label, "2p3/2", written %2F)
     /history/series/<name>       other sampled series (norm, ionization, dipole_z, ...)
     /spectra/<name>/<array>      spectra, each a group of named arrays with a "units" attribute
 
@@ -101,6 +101,20 @@ def _write_attrs(h5obj, attrs: dict) -> None:
         h5obj.attrs[key] = value
 
 
+def _h5_name(label: str) -> str:
+    """A label as an HDF5 member name: "/" (which HDF5 reads as a path, "2p3/2") and "%" escaped.
+
+    >>> _h5_name("2p3/2 m=1/2"), _label("2p3%2F2 m=1%2F2")
+    ('2p3%2F2 m=1%2F2', '2p3/2 m=1/2')
+    """
+    return label.replace("%", "%25").replace("/", "%2F")
+
+
+def _label(name: str) -> str:
+    """Inverse of :func:`_h5_name`."""
+    return name.replace("%2F", "/").replace("%25", "%") if "%" in name else name
+
+
 def _write_body(f, result: Result) -> None:
     f.create_dataset("times", data=np.asarray(result.times, dtype=float))
     pops = f.create_group("populations")
@@ -110,10 +124,10 @@ def _write_body(f, result: Result) -> None:
     hist = f.create_group("history")
     hp = hist.create_group("populations", track_order=True)
     for label, values in result.history_populations.items():
-        hp.create_dataset(label, data=np.asarray(values))
+        hp.create_dataset(_h5_name(label), data=np.asarray(values))
     hs = hist.create_group("series", track_order=True)
     for name, values in result.series.items():
-        hs.create_dataset(name, data=np.asarray(values))
+        hs.create_dataset(_h5_name(name), data=np.asarray(values))
     spec = f.create_group("spectra")
     for name, arrays in result.spectra.items():
         g = spec.create_group(name)
@@ -172,7 +186,7 @@ def write_result(path, result: Result, *, attrs: dict | None = None) -> Path:
     from driven_atom.io import atomic_write
 
     path = Path(path)
-    with atomic_write(path) as tmp:
+    with atomic_write(path, size_hint=_size(result)) as tmp:
         with h5py.File(tmp, "w") as f:
             _write_body(f, result)
             _write_attrs(f, provenance())
@@ -185,6 +199,28 @@ def write_result(path, result: Result, *, attrs: dict | None = None) -> Path:
             f.attrs["sha256"] = content_digest(result)
             f.attrs["complete"] = True
     return path
+
+
+def _size(result: Result) -> float:
+    """Bytes the arrays of ``result`` take (the file takes about this plus its attributes)."""
+    arrays = [result.times, *result.history_populations.values(), *result.series.values()]
+    arrays += [a for group in result.spectra.values() for a in group.values()]
+    return float(sum(np.asarray(a).nbytes for a in arrays)) + 16 * len(result.populations)
+
+
+def stored_physics_hash(path) -> str | None:
+    """The physics hash of a complete result file (``None``: no complete result there)."""
+    import h5py
+
+    from driven_atom.io import is_complete as complete
+
+    if not complete(path):
+        return None
+    try:
+        with h5py.File(path, "r") as f:
+            return str(f.attrs.get("physics_hash", ""))
+    except (OSError, ValueError):
+        return None
 
 
 def is_complete(path) -> bool:
@@ -221,8 +257,8 @@ def read_result(path) -> Result:
                 ionization=float(f.attrs["ionization"]),
                 norm=float(f.attrs["norm"]),
                 times=f["times"][()],
-                history_populations={k: v[()] for k, v in f["history/populations"].items()},
-                series={k: v[()] for k, v in f["history/series"].items()},
+                history_populations={_label(k): v[()] for k, v in f["history/populations"].items()},
+                series={_label(k): v[()] for k, v in f["history/series"].items()},
                 spectra={name: {k: v[()] for k, v in g.items()} for name, g in f["spectra"].items()},
                 stats=_json_attr(f, "stats", {}),
                 warnings=_json_attr(f, "warnings", []),

@@ -27,7 +27,8 @@ from typing import ClassVar, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
-from driven_atom.atom.states import parse_state
+from driven_atom.atom.components import parse_label
+from driven_atom.atom.states import State, parse_state
 from driven_atom.quantities import Cadence, CheckpointCadence, Flag, Integer, Number, Quantity
 
 
@@ -65,14 +66,23 @@ class LevelsSettings(RouteSettings):
 
     route: Literal["levels"] = Field("levels", description="the few-level master-equation route")
     states: list[str] = Field(..., min_length=1, description=(
-        'levels or sublevels in the model: "2p" brings all its m-sublevels, "2p0" only that one'))
+        'levels or sublevels in the model: "2p" brings all its m-sublevels, "2p0" only that one; with '
+        '`atom.structure` = "fine" or "hyperfine" also components: "2p3/2", "1s1/2 F=1", "2p1/2 m=1/2" '
+        '("2p" then brings all its j, F and m)'))
     rwa: Flag = Field(True, description=(
         "rotating-wave approximation: each pulse drives only the transitions nearest its carrier"))
     decay: Flag = Field(True, description="spontaneous decay with the Einstein A of each m->m' channel")
     dephasing: Quantity("rate", ge=0) = Field(0.0, description=(
-        'pure dephasing rate of coherences between different energies ("1 GHz" = 1e9 s^-1)'))
-    ionization_loss: Flag = Field(False, description=(
-        "photoionisation loss of every level at the instantaneous intensity, into `ionization`"))
+        'pure dephasing rate of coherences between different energies ("1 GHz" = 1e9 s^-1); with '
+        '`atom.structure` "fine" or "hyperfine", between different shells n'))
+    ionization_loss: Flag | None = Field(None, description=(
+        "photoionisation loss of every level at the instantaneous intensity, into `ionization` "
+        "(default: on with `two_photon`, off otherwise)"))
+    two_photon: Flag = Field(False, description=(
+        "two-photon excitation: each pulse drives the two-photon transitions (1s-2s, ns, nd) nearest "
+        "twice its carrier, with the intermediate states eliminated (two-photon Rabi coupling and the "
+        "ac Stark shifts of every level from sums over all states, continuum included); one-photon "
+        "couplings are then left out"))
     after: Quantity("time", ge=0) | None = Field(None, description=(
         "field-free time after the pulse (closed form); default 0"))
     t_end: Quantity("time") | None = Field(None, description=(
@@ -94,7 +104,10 @@ class LevelsSettings(RouteSettings):
     def _states(cls, value):
         seen: dict = {}
         for label in value:
-            for s in parse_state(label, name="solver.states").sublevels():
+            item = parse_label(label, name="solver.states")
+            if not isinstance(item, State):
+                continue              # components repeat sublevels only under a structure (checked by the route)
+            for s in item.sublevels():
                 if s in seen:
                     raise ValueError(f"`solver.states`: {label!r} repeats sublevel {s.label} (from {seen[s]!r})")
                 seen[s] = label
@@ -104,15 +117,22 @@ class LevelsSettings(RouteSettings):
     def _one_end(self):
         if self.after is not None and self.t_end is not None:
             raise ValueError("`solver.after` and `solver.t_end` exclude each other; give one")
+        if self.two_photon and not self.rwa:
+            raise ValueError("`solver.two_photon` needs `solver.rwa` = true (the eliminated states are an RWA picture)")
         return self
 
+    @property
+    def photoionization(self) -> bool:
+        """Whether levels lose population to photoionisation (``ionization_loss``, default: ``two_photon``)."""
+        return self.two_photon if self.ionization_loss is None else self.ionization_loss
+
     def sublevels(self) -> list:
-        """The model's sublevels in the order of ``states``, each level's m ascending.
+        """The model's Bohr sublevels in the order of ``states``, each level's m ascending.
 
         >>> [s.label for s in LevelsSettings(states=["1s", "2p"]).sublevels()]
         ['1s0', '2p-1', '2p0', '2p1']
         """
-        return [s for label in self.states for s in parse_state(label).sublevels()]
+        return [s for label in self.states for s in parse_state(label, name="solver.states").sublevels()]
 
 
 class BasisSettings(RouteSettings):
@@ -142,8 +162,9 @@ class BasisSettings(RouteSettings):
     warn_population: Number(gt=0, le=1) = Field(1e-4, description="warn when the population in "
                                                  "l = l_max or near e_max exceeds this")
     cache_dir: str | None = Field("auto", description="folder for the basis cache: \"auto\" = "
-                                  "`.basis-cache` beside the result file, \"none\" = no disk cache; "
-                                  "another folder only from the command line or the Python API")
+                                  "`.basis-cache` beside the result file, \"none\" = no disk cache, or a "
+                                  "folder name inside the result's folder; a folder elsewhere only from the "
+                                  "command line (--cache-dir) or the Python API")
     spectrum_points: Integer(ge=10, le=100_000) = Field(400, description="energies in the photoelectron spectrum")
     checkpoint_every: CheckpointCadence(steps_allowed=False) = Field(
         Cadence(seconds=60.0), description="wall-clock time between checkpoints (\"60 s\", \"10 min\")")
@@ -152,6 +173,21 @@ class BasisSettings(RouteSettings):
     @classmethod
     def _old_names(cls, data):
         return _renamed(data, "form", "gauge", "basis")
+
+    @field_validator("cache_dir")
+    @classmethod
+    def _confined(cls, value):
+        """Only a plain relative folder name: the cache stays inside the result's folder."""
+        if value is None or value in ("auto", "none"):
+            return value
+        from pathlib import PurePosixPath
+
+        path = PurePosixPath(value)
+        if path.is_absolute() or ".." in path.parts or "\\" in value or not value.strip():
+            raise ValueError('`solver.cache_dir` must be "auto", "none" or a folder name inside the result\'s '
+                             "folder (no absolute path, no \"..\"); give another folder on the command line "
+                             f"with --cache-dir, got {value[:80]!r}")
+        return value
 
 
 class GridSettings(RouteSettings):

@@ -7,8 +7,10 @@ under two seconds apart), writes a checkpoint at that step and raises
 :class:`driven_atom.errors.Interrupted`; the command line then exits with 128 + signal. The next
 invocation resumes from that step.
 
-Handlers can only be installed in the main thread; elsewhere (a Dask worker thread) the flag can
-still be set with :func:`request` by whoever receives the signal.
+Handlers can only be installed in the main thread; elsewhere (a Dask worker thread) the flag is
+set with :func:`request` by whoever receives the signal. In a campaign worker process the flag is
+*sticky* (:func:`make_sticky`): once a stop is requested, every later job of that worker stops at
+once too, until the campaign has gone.
 
 >>> with stop_on_signals():
 ...     request(15)
@@ -24,7 +26,7 @@ import threading
 from contextlib import contextmanager
 
 STOP_SIGNALS = (signal.SIGTERM, signal.SIGUSR1, signal.SIGINT)
-_state = {"signum": None, "depth": 0}
+_state = {"signum": None, "depth": 0, "sticky": False}
 
 
 def requested() -> int | None:
@@ -33,8 +35,21 @@ def requested() -> int | None:
 
 
 def request(signum: int) -> None:
-    """Ask the current run to stop as if ``signum`` had arrived."""
+    """Ask the current run (and, when sticky, every later run of this process) to stop."""
     _state["signum"] = int(signum)
+
+
+def make_sticky() -> None:
+    """This process is a campaign worker: a stop request is never cleared."""
+    _state["sticky"] = True
+
+
+def install_handlers() -> None:
+    """Turn the stop signals into requests for the whole life of this process (main thread only):
+    what a campaign worker does at start, so an idle worker is never killed half-way."""
+    if threading.current_thread() is threading.main_thread():
+        for sig in STOP_SIGNALS:
+            signal.signal(sig, _handler)
 
 
 def _handler(signum, frame):  # noqa: ARG001 - signal handler signature
@@ -44,16 +59,14 @@ def _handler(signum, frame):  # noqa: ARG001 - signal handler signature
 @contextmanager
 def stop_on_signals():
     """Within the block the stop signals set the flag instead of ending the process; the previous
-    handlers and a clear flag are restored on exit (nesting is allowed)."""
+    handlers are restored on exit and the flag cleared (unless sticky; nesting is allowed)."""
     installed = {}
-    if _state["depth"] == 0:
-        _state["signum"] = None
-        if threading.current_thread() is threading.main_thread():
-            for sig in STOP_SIGNALS:
-                try:
-                    installed[sig] = signal.signal(sig, _handler)
-                except (ValueError, OSError):      # not allowed here: leave that signal alone
-                    pass
+    if _state["depth"] == 0 and threading.current_thread() is threading.main_thread():
+        for sig in STOP_SIGNALS:
+            try:
+                installed[sig] = signal.signal(sig, _handler)
+            except (ValueError, OSError):      # not allowed here: leave that signal alone
+                pass
     _state["depth"] += 1
     try:
         yield
@@ -62,4 +75,5 @@ def stop_on_signals():
         if _state["depth"] == 0:
             for sig, old in installed.items():
                 signal.signal(sig, old)
-            _state["signum"] = None
+            if not _state["sticky"]:
+                _state["signum"] = None

@@ -31,6 +31,8 @@ HARTREE_EV = 27.211386245981
 BOHR_M = 5.29177210544e-11
 AU_TIME_S = 2.4188843265864e-17
 AU_FIELD_VM = 5.14220675112e11
+ELEMENTARY_CHARGE_C = 1.602176634e-19                # exact (SI 2019)
+AU_MAGNETIC_T = HBAR_JS / (ELEMENTARY_CHARGE_C * BOHR_M**2)   # hbar/(e a0^2): 2.35051757e5 T
 RYDBERG_INF_M = 10973731.568157                      # R_inf in 1/m
 ELECTRON_MASS_KG = 9.1093837139e-31
 ATOMIC_MASS_UNIT_ME = 1.66053906892e-27 / ELECTRON_MASS_KG   # 1 u in electron masses
@@ -54,6 +56,7 @@ _AU_UNIT = {
     "fluence": "au_intensity * atomic_unit_of_time",
     "density": "1 / bohr ** 3",
     "chirp": "1 / atomic_unit_of_time ** 2",
+    "magnetic field": "atomic_unit_of_magnetic_flux_density",
 }
 KINDS = tuple(_AU_UNIT)
 
@@ -70,6 +73,7 @@ def registry():
     ureg.define(f"atomic_unit_of_time = {AU_TIME_S!r} * second")
     ureg.define(f"atomic_unit_of_electric_field = {AU_FIELD_VM!r} * volt / meter")
     ureg.define(f"au_intensity = {AU_INTENSITY_WM2!r} * watt / meter ** 2")
+    ureg.define(f"atomic_unit_of_magnetic_flux_density = {AU_MAGNETIC_T!r} * tesla")
     return ureg
 
 
@@ -104,7 +108,7 @@ def to_au(value, kind: str, *, name: str = "value") -> float:
 
     ``value`` is a plain number (already atomic units), a string such as ``"800 nm"`` or
     ``"0.05 au"``, or a pint Quantity. Energies also accept a frequency (E = h nu) or a
-    wavenumber (E = h c / lambda); a rate accepts a frequency in Hz (taken as 1/s) or an energy
+    wavenumber (E = h c / lambda); a magnetic field accepts tesla and gauss; a rate accepts a frequency in Hz (taken as 1/s) or an energy
     (E/hbar); a chirp rate accepts 1/time² or an energy per time (divided by hbar). Wrong
     dimensions raise :class:`InputError` naming ``name``.
 
@@ -140,7 +144,7 @@ def convert(value, kind: str) -> float:
 
 _EXAMPLE = {"energy": "13.6 eV", "length": "800 nm", "time": "10 fs", "intensity": "1e14 W/cm^2",
             "field": "5e10 V/m", "rate": "1 GHz", "mass": "1.00728 u", "area": "1e-18 cm^2",
-            "fluence": "1 J/cm^2", "density": "1e12 cm^-3", "chirp": "0.05 eV/fs"}
+            "fluence": "1 J/cm^2", "density": "1e12 cm^-3", "chirp": "0.05 eV/fs", "magnetic field": "10 G"}
 _ARTICLE = {"energy": "an", "intensity": "an"}
 _KIND_NAME = {"chirp": "chirp rate"}
 
@@ -327,6 +331,8 @@ def _parse_to_au(value, kind: str) -> float:
         return float((quantity / ureg.hbar).to(target).magnitude)
     if kind == "chirp" and quantity.check("[energy] / [time]"):
         return float((quantity / ureg.hbar).to(target).magnitude)
+    if kind == "magnetic field" and quantity.dimensionality == ureg.gauss.dimensionality:
+        return float(quantity.to("gauss").magnitude) * 1e-4 / AU_MAGNETIC_T   # pint's gauss is Gaussian-CGS
     raise UnitError(f"must be {kind_phrase(kind)}")
 
 

@@ -1,7 +1,7 @@
 """Built-in validation: the package's own numbers against published values, run on this install.
 
 Each check computes one quantity through the public layers (atom, pulse, estimate, the basis and
-the levels route) and compares it with a reference value and its source, within a tolerance that
+the levels route, the level structure) and compares it with a reference value and its source, within a tolerance that
 says what the model leaves out. ``driven-atom check`` prints the table; all checks together take a few
 seconds. The test suite holds many more comparisons; these are the ones a user re-runs on a new
 machine or after an upgrade.
@@ -41,6 +41,24 @@ def _h_alpha_air_nm() -> float:
     from driven_atom.atom.tables import transition
 
     return transition("3p", "2s", nucleus="H")["air_nm"]
+
+
+def _lamb_shift_mhz() -> float:
+    from driven_atom.atom.tables import transition
+
+    return transition("2s1/2", "2p1/2", nucleus="H", structure="fine")["frequency_GHz"] * 1e3
+
+
+def _lyman_alpha_3_2_nm() -> float:
+    from driven_atom.atom.tables import transition
+
+    return transition("2p3/2", "1s1/2", nucleus="H", structure="fine")["vacuum_nm"]
+
+
+def _hydrogen_hfs_mhz() -> float:
+    from driven_atom.atom.tables import transition
+
+    return transition("1s1/2 F=1", "1s1/2 F=0", nucleus="H", structure="hyperfine")["frequency_GHz"] * 1e3
 
 
 def _a_2p_1s() -> float:
@@ -109,6 +127,13 @@ CHECKS = (
           "fine structure and Lamb shift are not in the model"),
     Check("H-alpha 3p-2s (air)", _h_alpha_air_nm, 656.279, 3e-5, "nm", "NIST ASD (observed)",
           "fine structure and Lamb shift are not in the model"),
+    Check("Lyman-alpha 2p3/2-1s1/2 (fine structure)", _lyman_alpha_3_2_nm, 121.56682, 1e-6, "nm",
+          "NIST ASD (observed)", "published digits"),
+    Check("Lamb shift 2s1/2-2p1/2", _lamb_shift_mhz, 1057.845, 1e-4, "MHz", "Lundeen & Pipkin, PRL 46, 232 (1981)",
+          "QED terms left out (< 10 kHz)"),
+    Check("hydrogen 1s hyperfine splitting", _hydrogen_hfs_mhz, 1420.405751768, 1e-4, "MHz",
+          "hydrogen maser (Hellwig et al., IEEE Trans. IM 19, 200 (1970))",
+          "Breit, radiative and Zemach corrections left out (6e-5)"),
     Check("A(2p->1s)", _a_2p_1s, 6.2649e8, 1e-4, "1/s", "Wiese & Fuhr, JPCRD 38, 565 (2009)", "published digits"),
     Check("f(1s->2p)", _f_1s_2p, 0.41620, 1e-4, "", "Wiese & Fuhr, JPCRD 38, 565 (2009)", "published digits"),
     Check("lifetime 3p", _tau_3p_ns, 5.2715, 1e-4, "ns", "Wiese & Fuhr, JPCRD 38, 565 (2009)", "published digits"),

@@ -190,9 +190,11 @@ def test_collect_table_opens_with_xarray(tmp_path, standin, capsys):
         assert ds["harmonic_amplitude"].dtype.kind == "c" and ds["harmonic_amplitude"].values[1, 0, 2].imag == 1.0
         assert not [name for name in ds.variables if name.startswith("dipole_response")]
         assert "versions" in ds.attrs and "host" in ds.attrs and "[scan" in ds.attrs["config"]
-        assert (ds["status"].values == "done").all()
+        assert (ds["status"].values == "done").all() and (ds["trustworthy"].values == 1).all()
+        assert np.isnan(ds["ionization_err"].values).all()             # no error bars were asked for
     lines = Path(payload["csv"]).read_text().splitlines()
-    assert lines[0].startswith("pulse.0.intensity [W/cm^2],pulse.0.cep [rad],job_id,status,ionization")
+    assert lines[0].startswith("pulse.0.intensity [W/cm^2],pulse.0.cep [rad],job_id,status,trustworthy,"
+                               "ionization,ionization_err,norm")
     assert len(lines) == 5
 
 
@@ -233,7 +235,7 @@ def test_a_lost_worker_fails_its_job_and_a_broken_pool_stops(tmp_path, standin, 
 
     from driven_atom.campaign import runner
 
-    def lost(job_id, config, folder):
+    def lost(job_id, config, folder, cache_dir=None):
         raise RuntimeError("worker vanished")
 
     monkeypatch.setattr(runner, "run_job", lost)
@@ -241,7 +243,7 @@ def test_a_lost_worker_fails_its_job_and_a_broken_pool_stops(tmp_path, standin, 
     (job,) = store.campaign_status(folder)["jobs"]
     assert job["status"] == "failed" and "worker vanished" in job["error"]
 
-    def broken(job_id, config, folder):
+    def broken(job_id, config, folder, cache_dir=None):
         raise BrokenExecutor("pool gone")
 
     monkeypatch.setattr(runner, "run_job", broken)
@@ -368,7 +370,7 @@ def test_cluster_table_makes_a_valid_slurm_job_script():
 def test_killed_grid_job_resumes_from_its_checkpoint(tmp_path):
     cfg = {"atom": {"Z": 1, "nucleus": "H"},
            "pulse": [{"wavelength": "400 nm", "intensity": "5e13 W/cm^2", "cycles": 6}],
-           "solver": {"route": "grid", "r_max": 60.0, "dr": 0.3, "l_max": 6, "checkpoint_every": 256},
+           "solver": {"route": "grid", "r_max": 60.0, "dr": 0.2, "l_max": 6, "checkpoint_every": 256},
            "scan": {"pulse.0.cep": [0.0]}}
     cfg_path = tmp_path / "kestrel_grid.toml"
     cfg_path.write_text(tomli_w.dumps(cfg))

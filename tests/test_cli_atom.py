@@ -4,6 +4,7 @@ import subprocess
 import sys
 
 import pytest
+import scipy.constants as sc
 
 from driven_atom.cli import main
 
@@ -128,3 +129,37 @@ def test_subprocess_json_and_no_heavy_imports():
     assert proc.returncode == 0
     assert json.loads(proc.stdout)["A_s"] == pytest.approx(6.2649e8, rel=1e-3)   # Wiese & Fuhr (2009)
     assert json.loads(proc.stderr) == []
+
+
+def test_structure_intervals_from_two_calls(capsys):
+    upper = run_json(capsys, "state", "2s1/2", "--structure", "fine")
+    lower = run_json(capsys, "state", "2p1/2", "--structure", "fine")
+    lamb_hz = (upper["energy_eV"] - lower["energy_eV"]) * sc.e / sc.h
+    assert lamb_hz == pytest.approx(1057.845e6, rel=1e-4)              # Lundeen & Pipkin, PRL 46, 232 (1981)
+    assert set(upper) == {"label", "energy_eV", "binding_eV", "lifetime_s", "r_mean_au", "g_factor"}
+    line = run_json(capsys, "transition", "2p3/2", "1s", "--structure", "fine")
+    assert line["vacuum_nm"] == pytest.approx(121.56682, rel=1e-6)     # NIST ASD (vacuum)
+    assert line["upper"] == "2p3/2" and line["lower"] == "1s1/2"
+    hfs = run_json(capsys, "transition", "1s1/2 F=1", "1s1/2 F=0", "--structure", "hyperfine")
+    assert hfs["frequency_GHz"] == pytest.approx(1.420405751768, rel=1e-4)   # hydrogen maser (Hellwig et al. 1970)
+
+
+def test_structure_lines_table_and_errors(capsys):
+    assert main(["lines", "--series", "lyman", "--upto", "2", "--structure", "fine"]) == 0
+    out = capsys.readouterr().out
+    assert "2p3/2 -> 1s1/2" in out and "121.56682" in out
+    assert main(["state", "2p3/2"]) == 2
+    assert "set `structure` = \"fine\"" in capsys.readouterr().err
+    assert main(["state", "1s1/2 F=1", "--structure", "fine"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "`structure` = \"hyperfine\"" in err
+
+
+def test_subprocess_structure_commands_stay_light():
+    code = ("import sys, json; from driven_atom.cli import main; "
+            "main(['lines', '--series', 'balmer', '--upto', '4', '--structure', 'hyperfine', '--json']);"
+            "heavy = sorted({m.split('.')[0] for m in sys.modules} & {'numba', 'qutip', 'pint', 'h5py',"
+            " 'matplotlib', 'sympy', 'mpmath', 'scipy'}); sys.stderr.write(json.dumps(heavy))")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 0 and json.loads(proc.stderr) == []
+    assert len(json.loads(proc.stdout)["lines"]) > 20

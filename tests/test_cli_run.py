@@ -9,7 +9,8 @@ from driven_atom.cli import SAFETY_CAUTION, main
 from driven_atom.result import read_result
 
 ROOT = Path(__file__).resolve().parents[1]
-JSON_KEYS = {"route", "populations", "ionization", "norm", "result_file", "wall_s", "history"}
+JSON_KEYS = {"route", "populations", "ionization", "norm", "result_file", "wall_s", "history", "trustworthy",
+             "warnings", "quality", "ionization_err", "populations_err"}
 
 RABI_TOML = """
 [atom]

@@ -108,7 +108,7 @@ def test_result_holds_the_common_fields():
     assert res.route == "grid"
     assert set(res.populations) == {"1s", "1s0", "2s", "2s0", "2p", "2p0"}
     assert set(res.history_populations) == {"1s", "1s0", "2s", "2s0", "2p", "2p0"}
-    assert set(res.series) == {"norm", "ionization", "dipole_z", "acceleration_z"}
+    assert set(res.series) == {"norm", "ionization", "dipole_z", "acceleration_z", "top_l_population"}
     for v in list(res.series.values()) + list(res.history_populations.values()):
         assert v.shape == res.times.shape
     assert res.times[0] == p.t_start and math.isclose(res.times[-1], p.t_end, rel_tol=1e-12)

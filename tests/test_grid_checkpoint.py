@@ -74,7 +74,7 @@ def test_sigkill_then_resume_gives_identical_arrays(tmp_path):
 
 
 def test_checkpoint_of_other_physics_is_ignored(tmp_path):
-    cfg = dict(CONFIG, pulse=[dict(CONFIG["pulse"][0], cycles=1)],
+    cfg = dict(CONFIG, pulse=[dict(CONFIG["pulse"][0], cycles=1, intensity="1e13 W/cm^2")],
                solver=dict(CONFIG["solver"], r_max=30, l_max=6, checkpoint_every=100))
     out = tmp_path / "a.h5"
     other = Checkpoint(checkpoint_path(out), physics_hash="not-this-run")

@@ -109,9 +109,12 @@ def test_history_sampling_and_end_time():
 
 
 def test_far_carrier_warns_and_static_field_needs_full_coupling():
-    far = run([{"envelope": "sin2", "photon_energy": 0.2, "peak_field": 1e-3, "length": 500.0}], ["1s", "2p"])
-    assert any("RWA invalid" in w for w in far.warnings)
-    assert "1s-2p" in far.metadata["transitions"][0]
+    far = run([{"envelope": "sin2", "photon_energy": 0.2, "peak_field": 1e-3, "length": 5000.0}], ["1s", "2p"])
+    assert any("rwa_detuning_pulse0 = 0.467" in w and "`solver.rwa` = false" in w for w in far.warnings)
+    assert any("nothing is resonant" in w and "121.5" in w for w in far.warnings)   # 1s-2p, Bohr levels
+    assert far.quality["trustworthy"] is False and "1s-2p" in far.metadata["transitions"][0]
+    with pytest.raises(InputError, match="refused before the run: pulse 0: detuning"):
+        run([{"envelope": "sin2", "photon_energy": 0.1, "peak_field": 1e-3, "length": 500.0}], ["1s", "2p"])
     static = [{"envelope": "static", "peak_field": 1e-3, "length": 200.0, "ramp": 50.0}]
     with pytest.raises(InputError, match="rwa"):
         run(static, ["2s", "2p"], initial=[(State(2, 0), 1.0)])

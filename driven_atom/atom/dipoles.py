@@ -50,9 +50,16 @@ def _coefficients(n: int, l: int) -> tuple[list[int], int]:
     return coeffs, math.factorial(nr) * n ** (n - 1)
 
 
+MAX_N_EXACT = 150        # exact rational integrals grow as n^4 in cost: ~0.1 s at n = 150, 4 s at 300
+MAX_N_LIFETIME = 100     # a lifetime sums over every lower level: ~1 s at n = 100
+
+
 @lru_cache(maxsize=4096)
 def _radial_integral_scaled(n1: int, l1: int, n2: int, l2: int, k: int) -> float:
     """int R_n1l1 R_n2l2 r^(2+k) dr for Z = mu = 1, exact rational arithmetic, one rounding."""
+    if max(n1, n2) > MAX_N_EXACT:
+        raise InputError(f"exact radial integrals are computed for n <= {MAX_N_EXACT} (their cost grows as "
+                         f"n^4), got n = {max(n1, n2)}")
     p0 = l1 + l2 + 2 + k
     if p0 < 0:
         raise InputError(f"the radial integral with r^{2 + k} diverges for l1 = {l1}, l2 = {l2}")
@@ -210,6 +217,8 @@ def total_decay_rate(atom, state) -> float:
     0.0
     """
     s = _state(state, "state").level
+    if s.n > MAX_N_LIFETIME:
+        raise InputError(f"radiative lifetimes are summed exactly for n <= {MAX_N_LIFETIME}, got n = {s.n}")
     return sum((einstein_A(atom, s, State(n2, l2)) for n2 in range(1, s.n)
                 for l2 in (s.l - 1, s.l + 1) if 0 <= l2 < n2), 0.0)
 

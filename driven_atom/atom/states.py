@@ -23,6 +23,9 @@ _LABEL = re.compile(r"^(\d+)([a-z])([+-]?\d+)?$")
 _NUMERIC = re.compile(r"^(\d+),(\d+)(?:,([+-]?\d+))?$")
 
 
+MAX_N = 10_000           # principal quantum numbers beyond this are refused (no model reaches them)
+
+
 @dataclass(frozen=True, order=True)
 class State:
     """A hydrogenic state |n l m>; ``m = None`` stands for the whole (n, l) level."""
@@ -32,8 +35,8 @@ class State:
     m: int | None = None
 
     def __post_init__(self):
-        if self.n < 1:
-            raise InputError(f"state n must be >= 1, got {self.n}")
+        if not 1 <= self.n <= MAX_N:
+            raise InputError(f"state n must be from 1 to {MAX_N}, got {self.n}")
         if not 0 <= self.l < self.n:
             raise InputError(f"state l must be 0 <= l < n = {self.n}, got l = {self.l}")
         if self.m is not None and abs(self.m) > self.l:
@@ -67,6 +70,8 @@ def parse_state(label, *, name: str = "state") -> State:
     if isinstance(label, State):
         return label
     text = str(label).strip()
+    if len(text) > 40:
+        raise InputError(f"`{name}` must be a state label like \"1s\", \"2p\", \"2p-1\", got {text[:40]!r}...")
     match = _LABEL.match(text)
     if match:
         n, letter, m = match.groups()

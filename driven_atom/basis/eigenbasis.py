@@ -191,28 +191,29 @@ def _basis_digest(basis: Eigenbasis) -> str:
 
 
 def save_basis(basis: Eigenbasis, path) -> Path:
-    """Write ``basis`` to HDF5 atomically (a per-process temp file, then ``os.replace``), so
-    workers of a scan that build the same basis at once never see a half-written file."""
+    """Write ``basis`` to HDF5 atomically (:func:`driven_atom.io.atomic_write`: a new temporary
+    file, then a rename), so workers of a scan that build the same basis at once never see a
+    half-written file."""
     import h5py
 
+    from driven_atom.io import atomic_write
+
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f"{path.name}.{os.getpid()}.tmp")
     d = basis.dipole
-    with h5py.File(tmp, "w") as f:
-        for name in ("energies", "l", "n", "dos"):
-            f.create_dataset(name, data=getattr(basis, name))
-        g = f.create_group("dipole")
-        g.create_dataset("data", data=d.data)
-        g.create_dataset("indices", data=d.indices)
-        g.create_dataset("indptr", data=d.indptr)
-        f.attrs["m"] = basis.m
-        f.attrs["mu"] = basis.mu
-        f.attrs["inputs"] = json.dumps(basis.inputs)
-        f.attrs["key"] = basis.key
-        f.attrs["sha256"] = _basis_digest(basis)
-        f.attrs["complete"] = True
-    os.replace(tmp, path)
+    with atomic_write(path) as tmp:
+        with h5py.File(tmp, "w") as f:
+            for name in ("energies", "l", "n", "dos"):
+                f.create_dataset(name, data=getattr(basis, name))
+            g = f.create_group("dipole")
+            g.create_dataset("data", data=d.data)
+            g.create_dataset("indices", data=d.indices)
+            g.create_dataset("indptr", data=d.indptr)
+            f.attrs["m"] = basis.m
+            f.attrs["mu"] = basis.mu
+            f.attrs["inputs"] = json.dumps(basis.inputs)
+            f.attrs["key"] = basis.key
+            f.attrs["sha256"] = _basis_digest(basis)
+            f.attrs["complete"] = True
     return path
 
 
@@ -238,16 +239,23 @@ def load_basis(path) -> Eigenbasis | None:
     return basis if stored == _basis_digest(basis) else None      # damaged: rebuilt by the caller
 
 
-def cached_basis(atom, cache_dir=None, **spec) -> tuple[Eigenbasis, bool]:
-    """:func:`build_basis` with a disk cache ``cache_dir/basis-<key>.h5``; returns (basis, reused)."""
+def cache_path(atom, cache_dir, **spec) -> Path:
+    """Where the basis of these inputs is cached: ``cache_dir/basis-<key>.h5``."""
+    return Path(cache_dir) / f"basis-{basis_hash(basis_inputs(atom, **spec))}.h5"
+
+
+def cached_basis(atom, cache_dir=None, *, save: bool = True, **spec) -> tuple[Eigenbasis, bool]:
+    """:func:`build_basis` with a disk cache ``cache_dir/basis-<key>.h5``; returns (basis, reused).
+    ``save = False`` builds without writing (the caller saves once the basis has passed its checks)."""
     if cache_dir is None:
         return build_basis(atom, **spec), False
-    path = Path(cache_dir) / f"basis-{basis_hash(basis_inputs(atom, **spec))}.h5"
+    path = cache_path(atom, cache_dir, **spec)
     basis = load_basis(path)
     if basis is not None:
         return basis, True
     basis = build_basis(atom, **spec)
-    save_basis(basis, path)
+    if save:
+        save_basis(basis, path)
     return basis, False
 
 

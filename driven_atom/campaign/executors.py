@@ -28,18 +28,27 @@ from __future__ import annotations
 import concurrent.futures as cf
 import contextlib
 import os
+import shutil
 import sys
 
 from driven_atom.errors import InputError
 
 THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")
+SUBMIT_COMMAND = {"slurm": "sbatch", "pbs": "qsub"}
+FROM_USER_ONLY = ("prologue", "options")     # shell lines and raw arguments: never read from a campaign folder
 _CLUSTER_KEYS = {"system", "workers", "cores", "memory", "walltime", "queue", "account", "prologue", "options"}
 
 
 def _one_thread() -> None:
-    """Worker initializer: one compute thread, and die with the parent (Linux prctl)."""
+    """Worker initializer: one compute thread, stop signals turned into (sticky) stop requests so
+    a running job checkpoints and an idle worker is not killed half-way, and die with the parent
+    (Linux prctl)."""
+    from driven_atom import stopping
+
     for name in THREAD_VARIABLES:
         os.environ[name] = "1"
+    stopping.make_sticky()
+    stopping.install_handlers()
     if sys.platform.startswith("linux"):
         try:
             import ctypes
@@ -87,8 +96,16 @@ def _is_dask_client(obj) -> bool:
     return isinstance(obj, Client)
 
 
+def _request_stop(signum: int) -> None:
+    """Run on Dask workers: stop the running job at its next slice, and every later one."""
+    from driven_atom import stopping
+
+    stopping.make_sticky()
+    stopping.request(signum)
+
+
 class Runner:
-    """``submit(fn, *args)`` and ``as_completed(futures)`` over a futures executor or a Dask client."""
+    """``submit``, ``wait``, ``cancel`` and ``signal_workers`` over a futures executor or a Dask client."""
 
     def __init__(self, executor):
         if not (isinstance(executor, cf.Executor) or _is_dask_client(executor)):
@@ -102,12 +119,43 @@ class Runner:
             return self.executor.submit(fn, *args, key=key, pure=False)
         return self.executor.submit(fn, *args)
 
-    def as_completed(self, futures):
+    def wait(self, futures, timeout: float) -> tuple[set, set]:
+        """(finished, still pending) after at most ``timeout`` seconds, as soon as one finishes."""
+        futures = set(futures)
+        if not futures:
+            return set(), set()
         if self.is_dask:
-            from distributed import as_completed
+            from distributed import wait
 
-            return as_completed(futures)
-        return cf.as_completed(futures)
+            try:
+                done, not_done = wait(list(futures), timeout=timeout, return_when="FIRST_COMPLETED")
+            except TimeoutError:
+                return set(), futures
+            return set(done), set(not_done)
+        done, not_done = cf.wait(futures, timeout=timeout, return_when=cf.FIRST_COMPLETED)
+        return set(done), set(not_done)
+
+    def cancel(self, futures) -> set:
+        """Cancel the futures that have not started; the set of those cancelled. (Dask cannot tell
+        a queued task from a running one on the client: it cancels neither, and its workers are
+        asked to stop instead, so queued jobs stop at once.)"""
+        if self.is_dask:
+            return set()
+        return {f for f in futures if f.cancel()}
+
+    def signal_workers(self, signum: int) -> None:
+        """Pass a stop signal on to the workers, whose running jobs then checkpoint and stop."""
+        if self.is_dask:
+            try:
+                self.executor.run(_request_stop, signum)
+            except Exception:  # noqa: BLE001 - workers already gone: nothing to stop
+                pass
+            return
+        for process in list(getattr(self.executor, "_processes", {}).values()):
+            try:
+                os.kill(process.pid, signum)
+            except (ProcessLookupError, AttributeError):
+                pass
 
 
 def cluster_options(table: dict) -> tuple[str, int, dict]:
@@ -136,6 +184,17 @@ def cluster_options(table: dict) -> tuple[str, int, dict]:
     return system, workers, kwargs
 
 
+def check_cluster(table: dict) -> tuple[str, int, dict]:
+    """:func:`cluster_options`, and the scheduler's submit command present on this machine
+    (checked before anything is written or submitted)."""
+    system, workers, kwargs = cluster_options(table)
+    submit = SUBMIT_COMMAND[system]
+    if shutil.which(submit) is None:
+        raise InputError(f"`cluster.system` = {system!r} submits with `{submit}`, which is not installed on this "
+                         f"machine: run the scan on the cluster's login node, or use --workers N here")
+    return system, workers, kwargs
+
+
 @contextlib.contextmanager
 def dask_client(*, scheduler: str | None = None, local_workers: int | None = None, cluster: dict | None = None):
     """A ``distributed.Client`` for one of: a scheduler address, a LocalCluster, a jobqueue cluster."""
@@ -143,10 +202,13 @@ def dask_client(*, scheduler: str | None = None, local_workers: int | None = Non
     from distributed import Client, LocalCluster
 
     if scheduler is not None:
+        from driven_atom.errors import short
+
         try:
             client = Client(scheduler, timeout="20s")
-        except (OSError, TimeoutError) as exc:
-            raise InputError(f"`--scheduler` {scheduler!r}: cannot connect ({exc})") from None
+        except (OSError, TimeoutError, ValueError, TypeError) as exc:
+            raise InputError(f"`--scheduler` {short(scheduler, 100)!r}: cannot connect "
+                             f"({short(str(exc).splitlines()[0] if str(exc) else type(exc).__name__, 150)})") from None
         with client:
             yield client
         return
@@ -167,7 +229,7 @@ def dask_client(*, scheduler: str | None = None, local_workers: int | None = Non
                     os.environ[name] = value
         return
     if cluster is not None:
-        system, workers, kwargs = cluster_options(cluster)
+        system, workers, kwargs = check_cluster(cluster)
         try:
             import dask_jobqueue
         except ImportError:

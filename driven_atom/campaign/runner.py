@@ -22,21 +22,39 @@ from driven_atom.campaign import store
 from driven_atom.errors import InputError
 
 
-def run_job(job_id: str, config: dict, folder: str) -> dict:
-    """Run one job into ``folder/jobs/<job_id>.h5`` (in a worker); never raises for job errors."""
+def run_job(job_id: str, config: dict, folder: str, cache_dir: str | None = None) -> dict:
+    """Run one job into ``folder/jobs/<job_id>.h5`` (in a worker); never raises for job errors.
+
+    Outcomes: done; failed (recorded in the job file with its traceback); interrupted (a stop
+    signal: the job's checkpoint is written, it stays pending); storage (the disk is full or the
+    folder read-only: nothing recorded, the campaign stops)."""
+    from driven_atom.errors import Interrupted
+    from driven_atom.io import StorageError
     from driven_atom.routes import load_config, run_config
 
     path = store.job_path(folder, job_id)
     store.mark_running(path)
     started = time.perf_counter()
     try:
-        run_config(load_config(config), path, progress=False)
+        run_config(load_config(config), path, progress=False, cache_dir=cache_dir)
         return {"id": job_id, "status": store.DONE, "wall_s": time.perf_counter() - started}
+    except Interrupted as exc:
+        return {"id": job_id, "status": INTERRUPTED, "error": str(exc), "signum": exc.signum}
+    except StorageError as exc:
+        return {"id": job_id, "status": STORAGE, "error": exc.strerror or str(exc)}
     except Exception as exc:  # noqa: BLE001 - every job error is recorded, the campaign goes on
-        store.write_failed(path, job_id=job_id, config=_toml(config), error=exc)
+        try:
+            store.write_failed(path, job_id=job_id, config=_toml(config), error=exc)
+        except StorageError as storage:
+            return {"id": job_id, "status": STORAGE, "error": storage.strerror or str(storage)}
         return {"id": job_id, "status": store.FAILED, "error": f"{type(exc).__name__}: {exc}".splitlines()[0]}
     finally:
         store.clear_running(path)
+
+
+INTERRUPTED, STORAGE = "interrupted", "storage"
+GRACE_S = 60.0              # how long a stopping scan waits for its running jobs to checkpoint
+MAX_JOBS = 10_000           # larger scans need yes=True (--yes)
 
 
 def _toml(config: dict) -> str:
@@ -46,27 +64,36 @@ def _toml(config: dict) -> str:
 
 
 def scan(config, out, *, executor=None, workers: int | None = None, retry_failed: bool = False,
-         progress: bool = True) -> Path:
+         progress: bool = True, cache_dir=None, yes: bool = False, max_jobs: int = MAX_JOBS) -> Path:
     """Run (or resume) the campaign of ``config`` in folder ``out``; returns the folder.
 
     ``config``: a path, dict or RunConfig with a ``[scan]`` table, or a campaign folder (its stored
-    config runs again).
+    config runs again; its ``[cluster]`` shell lines are never taken from the folder).
 
     ``executor``: ``None`` (a local process pool of ``workers`` processes, default one per core;
     or the ``[cluster]`` table's dask-jobqueue cluster when the config has one and ``workers`` is
     not given), a ``concurrent.futures.Executor`` or a ``distributed.Client`` (used as is).
+    ``cache_dir``: a basis-cache folder for every job (default: inside the campaign folder).
+    A scan of more than ``max_jobs`` jobs needs ``yes``.
+
+    SIGTERM, SIGUSR1 or SIGINT stop it cleanly: no new job starts, the running ones write their
+    checkpoints and stay pending, and :class:`~driven_atom.errors.Interrupted` is raised (the next
+    scan resumes them). A full disk stops it with :class:`~driven_atom.io.StorageError`.
     Raises :class:`InputError` when another scan holds the folder.
     """
-    from driven_atom.campaign.executors import check_count
+    from driven_atom import stopping
+    from driven_atom.campaign.executors import check_cluster, check_count
     from driven_atom.campaign.scan import expand
 
     if workers is not None:
         check_count(workers, "--workers")
     cfg = campaign_config(config)
+    if executor is None and workers is None and cfg.cluster is not None:
+        check_cluster(cfg.cluster)
     folder = check_folder(out)
-    plan = expand(cfg)             # every job's config is checked here, before any job starts
+    plan = expand(cfg, max_jobs=None if yes else max_jobs, progress=progress)   # every job checked here
     jobs = plan.unique_jobs()
-    with store.CampaignLock(folder) as lock:
+    with store.CampaignLock(folder) as lock, stopping.stop_on_signals():
         if not lock.supported:
             import warnings
 
@@ -87,7 +114,8 @@ def scan(config, out, *, executor=None, workers: int | None = None, retry_failed
             else:
                 todo.append(job)
         _run_all(todo, folder, executor=executor, workers=workers, cluster=cfg.cluster,
-                 progress=progress, total=len(jobs), initial=done, failed=failed)
+                 progress=progress, total=len(jobs), initial=done, failed=failed,
+                 cache_dir=None if cache_dir is None else str(Path(cache_dir).resolve()))
     return folder
 
 
@@ -95,37 +123,68 @@ def _note(text: str) -> None:
     sys.stderr.write(f"driven-atom scan: {text}\n")
 
 
-def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initial, failed) -> None:
+def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initial, failed, cache_dir) -> None:
     from tqdm.auto import tqdm
 
+    from driven_atom import stopping
     from driven_atom.campaign.executors import open_runner
+    from driven_atom.errors import Interrupted
+    from driven_atom.io import StorageError
 
     if not todo:
         return
     bar = tqdm(total=total, initial=initial, unit="job", desc="scan", disable=not progress, dynamic_ncols=True)
+    stop, storage, interrupted = None, None, 0
     try:
         with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo)) as runner:
             where = str(Path(folder).resolve())          # workers on other nodes have another cwd
             tag = hashlib.sha256(where.encode()).hexdigest()[:8]   # Dask keys: one per job and folder
-            futures = {runner.submit(run_job, job.id, job.config, where, key=f"driven-atom-{job.id}-{tag}"): job
-                       for job in todo}
-            for future in runner.as_completed(list(futures)):
-                outcome = _outcome(future, futures[future], folder)
-                if outcome["status"] == store.FAILED:
-                    failed += 1
-                    bar.write(f"driven-atom scan: job {outcome['id']} failed: {outcome['error']}", file=sys.stderr)
-                bar.set_postfix(failed=failed, refresh=False)
-                bar.update(1)
+            futures = {runner.submit(run_job, job.id, job.config, where, cache_dir,
+                                     key=f"driven-atom-{job.id}-{tag}"): job for job in todo}
+            pending = set(futures)
+            deadline = None
+            while pending:
+                finished, pending = runner.wait(pending, timeout=0.5)
+                for future in finished:
+                    outcome = _outcome(future, futures[future], folder)
+                    if outcome["status"] == store.FAILED:
+                        failed += 1
+                        bar.write(f"driven-atom scan: job {outcome['id']} failed: {outcome['error']}", file=sys.stderr)
+                    elif outcome["status"] == INTERRUPTED:
+                        interrupted += "checkpoint written" in outcome["error"]
+                        continue
+                    elif outcome["status"] == STORAGE:
+                        storage = storage or outcome["error"]
+                        continue
+                    bar.set_postfix(failed=failed, refresh=False)
+                    bar.update(1)
+                signum = stopping.requested()
+                if (signum is not None or storage is not None) and deadline is None:
+                    stop = signum
+                    deadline = time.monotonic() + GRACE_S
+                    pending -= runner.cancel(pending)     # not started: stay pending on disk
+                    if signum is not None:
+                        runner.signal_workers(signum)     # running: checkpoint now and stop
+                if deadline is not None and time.monotonic() > deadline:
+                    break
     finally:
         bar.close()
+    if storage is not None:
+        raise StorageError(28, f"{storage}; the campaign stopped, finished jobs are kept")
+    if stop is not None:
+        raise Interrupted(stop, f"scan stopped by signal {stop}: {interrupted} running job(s) checkpointed "
+                                f"(the others had not started propagating), finished jobs kept; run the same "
+                                f"command again to resume")
 
 
 def _outcome(future, job, folder) -> dict:
     """The job's outcome; a job whose worker was lost (Dask gave up on it) is recorded as failed."""
-    from concurrent.futures import BrokenExecutor
+    from concurrent.futures import BrokenExecutor, CancelledError
 
     try:
         return future.result()
+    except CancelledError:
+        return {"id": job.id, "status": INTERRUPTED, "error": "cancelled before it started"}
     except BrokenExecutor:
         raise RuntimeError("a worker process of the local pool died (out of memory, or killed); "
                            "finished jobs are kept: run the same command again") from None

@@ -39,7 +39,7 @@ from typing import Any
 
 from driven_atom.errors import InputError
 
-_SECTIONS = ("atom", "pulse", "solver", "output")
+_SECTIONS = ("atom", "fields", "pulse", "solver", "output")
 _RANGE_KEYS = {"from", "to", "num", "spacing"}
 # setting one of these in a pulse drops its alternatives, so a scan over `intensity` works on a
 # base pulse written with `peak_field` (and likewise for the other alternatives)
@@ -133,7 +133,7 @@ def _convert(magnitude: float, unit: str, target: str, name: str) -> float:
 def _plain_units(path: str, route: str) -> str:
     """The unit of a plain number on this key: atomic units for quantities (the unit kind comes
     with the field's type), radians for cep, "1" else."""
-    from driven_atom.config import AtomConfig, OutputConfig, PulseConfig
+    from driven_atom.config import AtomConfig, FieldsConfig, OutputConfig, PulseConfig
     from driven_atom.quantities import unit_kind
     from driven_atom.settings import SETTINGS
 
@@ -141,7 +141,7 @@ def _plain_units(path: str, route: str) -> str:
     if leaf == "cep":
         return "rad"
     section = path.split(".", 1)[0]
-    model = {"pulse": PulseConfig, "atom": AtomConfig, "output": OutputConfig,
+    model = {"pulse": PulseConfig, "atom": AtomConfig, "output": OutputConfig, "fields": FieldsConfig,
              "solver": SETTINGS.get(route)}.get(section)
     return "au" if model is not None and unit_kind(model, leaf) is not None else "1"
 
@@ -199,8 +199,14 @@ def _range_values(spec: dict, name: str) -> list:
     return [f"{m!r} {unit}" for m in mags] if unit else mags
 
 
+_NOT_SCANNABLE = {"solver.cache_dir": "the cache folder is no physics (and stays in the campaign folder)",
+                  "solver.route": "a campaign runs one route; make one campaign per route"}
+
+
 def _check_path(path: str, base: dict) -> list:
     """Validate a key path against the base config; returns its parts (list indices as int)."""
+    if path in _NOT_SCANNABLE:
+        raise InputError(f"`scan.{path}` cannot be scanned: {_NOT_SCANNABLE[path]}")
     parts = path.split(".")
     if parts[0] not in _SECTIONS or len(parts) < 2:
         raise InputError(f"`scan.{path}`: a key path starts with one of {', '.join(_SECTIONS)} "
@@ -258,12 +264,13 @@ def _groups(zip_table, axis_paths: list) -> dict:
     return owner
 
 
-def expand(config) -> Plan:
+def expand(config, *, max_jobs: int | None = None, progress: bool = False) -> Plan:
     """Expand the ``[scan]`` table of ``config`` (path, dict or RunConfig) into a :class:`Plan`.
 
     Without a ``[scan]`` table the plan holds the single base job. Every job config is validated
     with :func:`driven_atom.routes.load_config` (keys, units, pulse and route), so a misspelt key
-    on a scan axis stops here, before any job starts.
+    on a scan axis stops here, before any job starts. A grid of more than ``max_jobs`` points is
+    refused before it is built; ``progress`` shows a bar while a large one is checked.
     """
     from driven_atom.routes import load_config
 
@@ -291,8 +298,18 @@ def expand(config) -> Plan:
             raise InputError(f"`scan.zip.{dim}`: zipped axes need equal lengths, "
                              f"{path!r} has {len(values)}, expected {shape[dims.index(dim)]}")
 
+    import math
+
+    total = math.prod(shape)
+    if max_jobs is not None and total > max_jobs:
+        raise InputError(f"`scan` has {total} grid points ({' x '.join(map(str, shape))}); more than {max_jobs} "
+                         f"need --yes (or yes=True)")
     jobs = []
-    for index in itertools.product(*(range(n) for n in shape)):
+    from tqdm.auto import tqdm
+
+    points = tqdm(itertools.product(*(range(n) for n in shape)), total=total, unit="job", desc="checking scan",
+                  disable=not progress or total < 2000, leave=False)
+    for index in points:
         job_data = copy.deepcopy(data)
         values = {}
         for axis in axes:

@@ -20,7 +20,8 @@ any, is kept so a retry resumes), ``checkpointed`` (no result, a checkpoint file
 (a result file unreadable, foreign or without its checksum) or ``pending`` (nothing).
 
 The lock is an advisory ``flock`` on ``scan.lock``: the kernel drops it when its process dies
-(even by SIGKILL), so a killed scan never leaves a stale lock. A second ``driven-atom scan`` on a busy
+(even by SIGKILL), so a killed scan never leaves a stale lock. Its holder writes who it is into the
+file; ``status`` and ``collect`` read that note and never take the lock. A second ``driven-atom scan`` on a busy
 folder stops with an error naming the holder's pid and host (exit code 2). On a file system
 without ``flock`` support the scan proceeds unlocked, with a warning.
 
@@ -68,11 +69,16 @@ def write_plan(folder, plan) -> Path:
     from driven_atom.campaign.scan import axis_table
     from driven_atom.result import provenance
 
+    from driven_atom.campaign.executors import FROM_USER_ONLY
+
+    config = dict(plan.base)
+    if "cluster" in config:            # shell lines are never stored where others can edit them
+        config["cluster"] = {k: v for k, v in config["cluster"].items() if k not in FROM_USER_ONLY}
     data = {
         "campaign": {"dims": list(plan.dims), "shape": list(plan.shape), "n_jobs": len(plan.unique_jobs()),
                      **provenance()},
         "axes": axis_table(plan),
-        "config": plan.base,
+        "config": config,
         "job": [{"id": job.id, "index": list(job.index)} for job in plan.jobs],
     }
     return write_text(Path(folder) / PLAN_FILE, tomli_w.dumps(data))
@@ -87,9 +93,30 @@ def read_plan(folder) -> dict:
         raise InputError(f"`DIR` {str(folder)!r} is not a campaign folder (no {PLAN_FILE}); "
                          f"start one with `driven-atom scan CONFIG --out DIR`")
     try:
-        return tomllib.loads(path.read_text())
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise InputError(f"{str(path)!r} is damaged ({exc}); re-run `driven-atom scan` to rewrite it") from None
+        data = tomllib.loads(path.read_text())
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError, RecursionError) as exc:
+        raise InputError(f"{str(path)!r} is damaged ({str(exc)[:150]}); re-run `driven-atom scan CONFIG` to "
+                         f"rewrite it") from None
+    if not _plan_is_sound(data):
+        raise InputError(f"{str(path)!r} is damaged (its tables are incomplete); re-run `driven-atom scan CONFIG` "
+                         f"to rewrite it")
+    return data
+
+
+def _plan_is_sound(data) -> bool:
+    """campaign.toml has the tables and types the readers use."""
+    try:
+        campaign, axes, jobs = data["campaign"], data.get("axes", {}), data.get("job", [])
+        dims, shape = list(campaign["dims"]), [int(n) for n in campaign["shape"]]
+        ok = len(dims) == len(shape) and isinstance(data["config"], dict) and isinstance(axes, dict)
+        for job in jobs:
+            ok = ok and isinstance(job["id"], str) and len(job["index"]) == len(shape) and all(
+                0 <= int(i) < n for i, n in zip(job["index"], shape))
+        for axis in axes.values():
+            ok = ok and axis["dim"] in dims and len(axis["coords"]) == shape[dims.index(axis["dim"])]
+        return bool(ok)
+    except (KeyError, TypeError, ValueError, AttributeError):
+        return False
 
 
 def plan_job_ids(plan_data: dict) -> list[str]:
@@ -105,6 +132,7 @@ class JobState:
     status: str
     wall_s: float | None = None
     error: str = ""
+    trustworthy: bool | None = None
 
 
 def job_state(folder, job_id: str) -> JobState:
@@ -136,7 +164,8 @@ def load_job(folder, job_id: str):
             result = read_result(path)
         except Exception as exc:  # noqa: BLE001
             return JobState(CORRUPT, error=f"unreadable: {exc}"), None
-        return JobState(DONE, wall_s=result.stats.get("wall_s")), result
+        return JobState(DONE, wall_s=result.stats.get("wall_s"),
+                        trustworthy=result.quality.get("trustworthy")), result
     if status == FAILED:
         return JobState(FAILED, error=error), None
     return JobState(CORRUPT, error="incomplete file that is no failure record"), None
@@ -305,15 +334,10 @@ class CampaignLock:
             self._fh = None
 
     def busy(self) -> bool:
-        """True when another process holds the lock (a probe: takes and drops it at once)."""
-        try:
-            free = self._try("r")      # read-only: status works in folders it may not write
-        except OSError:                # no lock file (never scanned) or unreadable: no holder seen
-            return False
-        if self._fh is not None:
-            self._fh.close()
-            self._fh = None
-        return not free
+        """True when a live process holds the lock, read from the holder's note in the lock file
+        without touching the lock itself (``status`` never delays or refuses a starting scan)."""
+        info = self.holder()
+        return bool(info) and _alive(info)
 
     def __enter__(self):
         return self.acquire()
@@ -342,7 +366,9 @@ def campaign_status(folder) -> dict:
         if status in (CHECKPOINTED, CORRUPT):
             counts[status] += 1
         counts[status if status in (DONE, RUNNING, FAILED) else PENDING] += 1
-        jobs.append({"id": job_id, "status": status, "wall_s": state.wall_s, "error": state.error})
+        jobs.append({"id": job_id, "status": status, "wall_s": state.wall_s, "error": state.error,
+                     "trustworthy": state.trustworthy})
     walls = [j["wall_s"] for j in jobs if j["wall_s"] is not None]
-    return {"folder": str(folder), "total": len(jobs), **counts, "scan_active": active,
-            "wall_s_total": float(sum(walls)), "jobs": jobs}
+    untrustworthy = sum(1 for j in jobs if j["status"] == DONE and j["trustworthy"] is False)
+    return {"folder": str(folder), "total": len(jobs), **counts, "untrustworthy": untrustworthy,
+            "scan_active": active, "wall_s_total": float(sum(walls)), "jobs": jobs}

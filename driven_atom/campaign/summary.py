@@ -5,7 +5,9 @@ through h5netcdf, temp file + rename), optionally ``summary.csv`` (one row per g
 The Dataset has one dimension per scan axis (a zipped group is one dimension carrying all its
 axes as coordinates); every axis coordinate has a ``units`` attribute. Variables:
 
-* ``ionization``, ``norm`` (scan dims), ``population`` (scan dims + ``state``);
+* ``ionization``, ``norm`` (scan dims), ``population`` (scan dims + ``state``), and their error bars
+  ``ionization_err``, ``norm_err``, ``population_err`` (NaN where a job asked for none);
+* ``trustworthy`` (1 when every quality check of the job passed, 0 when one flagged);
 * ``job_id`` and ``status`` (scan dims), so every number can be traced to its file;
 * spectra: for ``spectra[NAME] = {AXIS: ..., Y: ...}`` (AXIS one of energy, omega, frequency,
   order, k) the variable ``NAME_Y`` on (scan dims, ``NAME_AXIS``) when all jobs share one AXIS
@@ -94,7 +96,10 @@ def build_dataset(folder):
 
     labels = list(dict.fromkeys(label for r in results.values() for label in r.populations))
     ionization, norm = np.full(shape, np.nan), np.full(shape, np.nan)
+    ionization_err, norm_err = np.full(shape, np.nan), np.full(shape, np.nan)
     population = np.full(shape + (len(labels),), np.nan)
+    population_err = np.full(shape + (len(labels),), np.nan)
+    trustworthy = np.full(shape, -1, dtype=np.int8)
     job_ids = np.empty(shape, dtype=object)
     statuses = np.empty(shape, dtype=object)
     for job_id, indices in index_of.items():
@@ -104,11 +109,24 @@ def build_dataset(folder):
             if result is not None:
                 ionization[idx], norm[idx] = result.ionization, result.norm
                 population[idx] = [result.populations.get(label, np.nan) for label in labels]
+                trust = result.quality.get("trustworthy")
+                trustworthy[idx] = -1 if trust is None else int(bool(trust))
+                errors = result.quality.get("errors", {})
+                if errors.get("method") == "richardson":
+                    ionization_err[idx], norm_err[idx] = errors["ionization"], errors["norm_loss"]
+                    population_err[idx] = [errors["populations"].get(label, np.nan) for label in labels]
 
     data_vars = {
         "ionization": (dims, ionization, {"units": "1", "long_name": "ionisation probability"}),
         "norm": (dims, norm, {"units": "1", "long_name": "final norm"}),
         "population": (dims + ("state",), population, {"units": "1", "long_name": "final population"}),
+        "ionization_err": (dims, ionization_err, {"units": "1", "long_name": "estimated numerical error of "
+                                                   "the ionisation probability (NaN: no error bar asked)"}),
+        "norm_err": (dims, norm_err, {"units": "1", "long_name": "estimated numerical error of the norm loss"}),
+        "population_err": (dims + ("state",), population_err,
+                           {"units": "1", "long_name": "estimated numerical error of the final population"}),
+        "trustworthy": (dims, trustworthy, {"units": "1", "long_name": "every quality check passed "
+                                            "(1 yes, 0 no, -1 no result or no checks)"}),
         "job_id": (dims, job_ids.astype(str)),
         "status": (dims, statuses.astype(str)),
     }
@@ -119,8 +137,10 @@ def build_dataset(folder):
               for s in (store.DONE, store.FAILED, store.CHECKPOINTED, store.CORRUPT, store.PENDING)}
     import tomli_w
 
+    untrustworthy = sum(1 for r in results.values() if r.quality.get("trustworthy") is False)
     attrs = {**provenance(), "config": tomli_w.dumps(plan.get("config", {})), "n_jobs": len(index_of),
              "jobs_done": counts[store.DONE], "jobs_failed": counts[store.FAILED],
+             "jobs_untrustworthy": untrustworthy,
              "jobs_missing": len(index_of) - counts[store.DONE], "counts": json.dumps(counts),
              "complete": int(counts[store.DONE] == len(index_of))}
     return xr.Dataset(data_vars, coords=coords, attrs=attrs)
@@ -131,7 +151,9 @@ def _write_csv(ds, path: Path) -> Path:
     dims = [d for d in ds["ionization"].dims]
     axis_names = [name for name in ds.coords if name != "state" and set(ds[name].dims) <= set(dims)]
     header = [f"{n} [{ds[n].attrs['units']}]" if ds[n].attrs.get("units") else n for n in axis_names]
-    header += ["job_id", "status", "ionization", "norm"] + [f"P({s})" for s in ds["state"].values.tolist()]
+    states = ds["state"].values.tolist()
+    header += ["job_id", "status", "trustworthy", "ionization", "ionization_err", "norm"]
+    header += [f"P({s})" for s in states] + [f"P({s})_err" for s in states]
     buffer = io.StringIO()
     writer = csv.writer(buffer)
     writer.writerow(header)
@@ -139,8 +161,11 @@ def _write_csv(ds, path: Path) -> Path:
         point = dict(zip(dims, idx))
         row = [ds[n].isel({d: point[d] for d in ds[n].dims}).item() for n in axis_names]
         row += [str(ds["job_id"].values[idx]), str(ds["status"].values[idx]),
-                _num(ds["ionization"].values[idx]), _num(ds["norm"].values[idx])]
+                {1: "yes", 0: "no"}.get(int(ds["trustworthy"].values[idx]), ""),
+                _num(ds["ionization"].values[idx]), _num(ds["ionization_err"].values[idx]),
+                _num(ds["norm"].values[idx])]
         row += [_num(v) for v in ds["population"].values[idx]]
+        row += [_num(v) for v in ds["population_err"].values[idx]]
         writer.writerow(row)
     return write_text(path, buffer.getvalue())
 
@@ -163,7 +188,8 @@ def collect(folder, csv: bool = False) -> Path:
     folder = Path(folder)
     ds = build_dataset(folder)
     path = folder / store.SUMMARY_FILE
-    with atomic_write(path) as tmp:               # a new temporary file: two collects never share one
+    size = sum(v.nbytes for v in ds.variables.values())
+    with atomic_write(path, size_hint=size) as tmp:   # a new temporary file: two collects never share one
         ds.to_netcdf(tmp, engine="h5netcdf")
     if csv:
         _write_csv(ds, folder / store.CSV_FILE)

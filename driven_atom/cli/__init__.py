@@ -15,7 +15,8 @@ from driven_atom.errors import InputError
 
 # modules that define subcommands; each has register(subparsers)
 _COMMAND_MODULES = ["driven_atom.cli.atom_cmds", "driven_atom.cli.pulse_cmd", "driven_atom.cli.run_cmd", "driven_atom.cli.campaign_cmds",
-                    "driven_atom.cli.estimate_cmd", "driven_atom.cli.plot_cmd", "driven_atom.cli.check_cmd"]
+                    "driven_atom.cli.estimate_cmd", "driven_atom.cli.plot_cmd", "driven_atom.cli.check_cmd",
+                    "driven_atom.cli.converge_cmd"]
 
 SAFETY_CAUTION = (
     "CAUTION: lasers at these intensities are class-4 hazards: direct, reflected and scattered beams "
@@ -96,11 +97,11 @@ def main(argv=None) -> int:
     after its checkpoint."""
     import warnings
 
-    from driven_atom.errors import Interrupted, short
+    from driven_atom.errors import Interrupted, one_line, short
     from driven_atom.io import StorageError
 
     def warn(message, category, filename, lineno, file=None, line=None):  # noqa: ARG001
-        sys.stderr.write(f"driven-atom: warning: {short(str(message))}\n")
+        sys.stderr.write(f"driven-atom: warning: {one_line(short(str(message)))}\n")
 
     try:
         with warnings.catch_warnings():
@@ -111,17 +112,17 @@ def main(argv=None) -> int:
             emit_json(payload)
         return getattr(args, "exit_code", 0)         # a handler may report e.g. a failed check with 1
     except InputError as exc:
-        sys.stderr.write(f"driven-atom: error: {short(str(exc), 600)}\n")
+        sys.stderr.write(f"driven-atom: error: {one_line(short(str(exc), 600))}\n")
         return 2
     except StorageError as exc:
-        sys.stderr.write(f"driven-atom: error: {exc.strerror or exc}\n")
+        sys.stderr.write(f"driven-atom: error: {one_line(exc.strerror or exc)}\n")
         return 1
     except OSError as exc:   # a file or folder the user named cannot be read or written
         where = f" {short(exc.filename)!r}" if getattr(exc, "filename", None) else ""
-        sys.stderr.write(f"driven-atom: error:{where} {exc.strerror or exc}\n")
+        sys.stderr.write(f"driven-atom: error:{one_line(where)} {one_line(exc.strerror or exc)}\n")
         return 2
     except Interrupted as exc:
-        sys.stderr.write(f"driven-atom: {exc}\n")
+        sys.stderr.write(f"driven-atom: {one_line(exc)}\n")
         return exc.exit_code
     except KeyboardInterrupt:
         sys.stderr.write("driven-atom: interrupted\n")

@@ -30,6 +30,9 @@ def register(subparsers) -> None:
     where.add_argument("--dask-local", type=int, metavar="N", default=None,
                        help="start a Dask LocalCluster of N single-threaded workers")
     p.add_argument("--retry-failed", action="store_true", help="run failed jobs again")
+    p.add_argument("--yes", action="store_true", help="run a scan of more than 10000 jobs")
+    p.add_argument("--cache-dir", metavar="DIR", default=None,
+                   help="basis-cache folder for every job (default: inside the campaign folder)")
     p.add_argument("--no-progress", action="store_true", help="no progress bar on stderr")
     add_common(p)
     p.set_defaults(handler=_scan)
@@ -70,13 +73,16 @@ def _scan(args):
         context = contextlib.nullcontext(None)
     with context as client:
         scan(cfg, folder, executor=client, workers=args.workers, retry_failed=args.retry_failed,
-             progress=not args.no_progress)
+             progress=not (args.no_progress or args.json), cache_dir=args.cache_dir, yes=args.yes)
     status = campaign_status(folder)
-    payload = {key: status[key] for key in ("folder", "total", "done", "failed", "pending", "running")}
+    payload = {key: status[key] for key in ("folder", "total", "done", "failed", "pending", "running",
+                                            "untrustworthy")}
     payload["wall_s"] = time.perf_counter() - started
     if not args.json:
         print(f"campaign {folder}: {status['done']}/{status['total']} done, {status['failed']} failed, "
               f"{status['pending']} pending ({payload['wall_s']:.1f} s)")
+        if status["untrustworthy"]:
+            print(f"  {status['untrustworthy']} done job(s) flagged by a quality check: see `driven-atom status {folder}`")
         if status["failed"]:
             print(f"  see `driven-atom status {folder}`; rerun with --retry-failed to run failed jobs again")
         print(f"  table: driven-atom collect {folder}")
@@ -92,12 +98,14 @@ def _status(args):
     print(f"campaign {status['folder']}" + ("  (a scan is working on it)" if status["scan_active"] else ""))
     print(f"  total {status['total']}  done {status['done']}  running {status['running']}  "
           f"failed {status['failed']}  pending {status['pending']}"
-          f"  (checkpointed {status['checkpointed']}, corrupt {status['corrupt']})")
+          f"  (checkpointed {status['checkpointed']}, corrupt {status['corrupt']}; "
+          f"untrustworthy {status['untrustworthy']})")
     print(f"  wall time of done jobs: {status['wall_s_total']:.2f} s")
-    print(f"  {'job':<18}{'status':<14}{'wall_s':>10}  error")
+    print(f"  {'job':<18}{'status':<14}{'wall_s':>10}  {'trusted':<8} error")
     for job in status["jobs"]:
         wall = f"{job['wall_s']:.3f}" if job["wall_s"] is not None else "-"
-        print(f"  {job['id']:<18}{job['status']:<14}{wall:>10}  {job['error']}")
+        trust = {True: "yes", False: "NO", None: "-"}[job["trustworthy"]]
+        print(f"  {job['id']:<18}{job['status']:<14}{wall:>10}  {trust:<8} {job['error']}")
     return None
 
 
@@ -111,7 +119,8 @@ def _collect(args):
     dims = {str(d): int(n) for d, n in ds["ionization"].sizes.items()}
     payload = {"summary": str(path), "csv": str(folder / "summary.csv") if args.csv else None,
                "dims": dims, "total": int(ds.attrs["n_jobs"]), "done": int(ds.attrs["jobs_done"]),
-               "failed": int(ds.attrs["jobs_failed"]), "missing": int(ds.attrs["jobs_missing"])}
+               "failed": int(ds.attrs["jobs_failed"]), "missing": int(ds.attrs["jobs_missing"]),
+               "untrustworthy": int(ds.attrs["jobs_untrustworthy"])}
     lab = any(str(name).rsplit(".", 1)[-1] in _LAB_KEYS for name in ds.coords)
     if args.json:
         if lab:
@@ -119,7 +128,8 @@ def _collect(args):
         return payload
     print(f"summary: {path}" + (f"\ncsv:     {payload['csv']}" if args.csv else ""))
     print("  dims: " + ", ".join(f"{d} = {n}" for d, n in dims.items()) +
-          f"; {payload['done']}/{payload['total']} jobs done, {payload['failed']} failed")
+          f"; {payload['done']}/{payload['total']} jobs done, {payload['failed']} failed, "
+          f"{payload['untrustworthy']} flagged by a quality check")
     print("  open it: xarray.open_dataset(path, engine=\"h5netcdf\") or driven_atom.open_campaign(folder)")
     if lab:
         print(SAFETY_CAUTION)

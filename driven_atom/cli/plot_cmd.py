@@ -34,6 +34,10 @@ def handle(args):
     from driven_atom.api import open_result
     from driven_atom.plotting import figure_format, result_figure, result_panels
 
+    from driven_atom.errors import InputError
+
+    if not str(args.result).strip():
+        raise InputError("`RESULT` must name a result file (.h5), got ''")
     out = Path(args.out) if args.out is not None else default_out(args.result)
     figure_format(out, "--out")              # a bad suffix fails before the file is read
     result = open_result(args.result)

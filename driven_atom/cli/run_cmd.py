@@ -1,10 +1,16 @@
-"""``driven-atom run CONFIG [--out DIR|FILE.h5] [--json] [--no-progress]``: one propagation, any route.
+"""``driven-atom run CONFIG [--out DIR|FILE.h5] [--error] [--max-hours H] [--preflight] [--json]
+[--no-progress]``: one propagation, any route.
 
 Writes the HDF5 result (default ``runs/NAME-HASH.h5``) through :func:`driven_atom.api.run` and prints a
-summary (final populations, ionisation, norm, warnings), or with ``--json`` exactly one object::
+summary (final populations, ionisation, norm, error bars with ``--error``, the quality checks that
+flagged something, warnings), or with ``--json`` exactly one object::
 
-    {"route", "populations", "ionization", "norm", "result_file", "wall_s",
+    {"route", "populations", "ionization", "norm", "result_file", "wall_s", "trustworthy",
+     "warnings", "quality", "ionization_err", "populations_err",
      "history": {"times_au": [...], "populations": {label: [...]}}}
+
+``--preflight`` makes every check a run makes before its first step (units, keys, resources,
+accuracy) and stops there: ``{"preflight": [...checks...], "trustworthy"}``, exit 2 if one refuses.
 
 A config whose pulses are given in lab units (an intensity, or a field with units) also gets the
 laser-safety caution (on stderr with ``--json``).
@@ -24,6 +30,14 @@ def register(subparsers) -> None:
     p.add_argument("config", metavar="CONFIG", help="run configuration (TOML)")
     p.add_argument("--out", metavar="DIR|FILE.h5", default=None,
                    help="result folder or file (default: runs/CONFIGNAME-HASH.h5)")
+    p.add_argument("--error", action="store_true",
+                   help="also run a coarser companion and give every number an error bar")
+    p.add_argument("--max-hours", type=float, default=None, metavar="H",
+                   help="refuse the run if its estimated time exceeds H hours")
+    p.add_argument("--preflight", action="store_true",
+                   help="only check the run (keys, resources, accuracy); compute and write nothing")
+    p.add_argument("--cache-dir", metavar="DIR", default=None,
+                   help="basis-cache folder (default: .basis-cache beside the result)")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
     add_common(p)
     p.set_defaults(handler=handle)
@@ -52,12 +66,35 @@ def summary(result) -> str:
     lines = [f"route: {result.route}    file: {result.metadata.get('file', '-')}    "
              f"wall: {result.stats.get('wall_s', float('nan')):.3g} s"]
     lines += [f"  {note}" for note in result.metadata.get("transitions", [])]
+    errors = result.quality.get("errors", {})
+    bars = errors.get("populations", {}) if errors.get("method") == "richardson" else {}
     lines.append("final populations:")
     width = max((len(k) for k in result.populations), default=0)
-    lines += [f"  {label:<{width}}  {value:.6e}" for label, value in result.populations.items()]
-    lines.append(f"ionization: {result.ionization:.6e}    norm: {result.norm:.10f}")
+    lines += [f"  {label:<{width}}  {value:.6e}" + (f" ± {bars[label]:.2e}" if label in bars else "")
+              for label, value in result.populations.items()]
+    if errors.get("method") == "richardson":
+        lines.append(f"ionization: {result.ionization:.6e} ± {errors['ionization']:.2e}    "
+                     f"norm: {result.norm:.10f} (loss ± {errors['norm_loss']:.2e})")
+    else:
+        lines.append(f"ionization: {result.ionization:.6e}    norm: {result.norm:.10f}")
+    trust = result.quality.get("trustworthy")
+    if trust is not None:
+        lines.append("quality: every check passed" if trust else "quality: NOT trustworthy (see the warnings)")
     lines += [f"warning: {w}" for w in result.warnings]
     return "\n".join(lines)
+
+
+def _preflight(cfg, args):
+    from driven_atom.routes import preflight
+    from driven_atom.routes.quality import quality_block
+
+    block = quality_block(preflight(cfg, max_hours=args.max_hours))
+    if args.json:
+        return {"preflight": block["checks"], "trustworthy": block["trustworthy"]}
+    for check in block["checks"]:
+        print(f"{check['level']:>4}  {check['message']}")
+    print("preflight: every check passed" if block["trustworthy"] else "preflight: flagged (runs, not trustworthy)")
+    return None
 
 
 def handle(args):
@@ -66,14 +103,20 @@ def handle(args):
     from driven_atom.cli import SAFETY_CAUTION
 
     cfg = load_config(args.config)
-    result = run(cfg, out=args.out, progress=not args.no_progress, name=Path(args.config).stem)
+    if args.preflight:
+        return _preflight(cfg, args)
+    result = run(cfg, out=args.out, progress=not (args.no_progress or args.json), name=Path(args.config).stem,
+                 error_estimate=True if args.error else None, max_hours=args.max_hours, cache_dir=args.cache_dir)
     caution = has_lab_intensity(cfg)
     if args.json:
         if caution:
             sys.stderr.write(SAFETY_CAUTION + "\n")
+        errors = result.quality.get("errors", {})
         return {"route": result.route, "populations": result.populations, "ionization": result.ionization,
                 "norm": result.norm, "result_file": result.metadata.get("file"),
-                "wall_s": result.stats.get("wall_s"),
+                "wall_s": result.stats.get("wall_s"), "trustworthy": result.quality.get("trustworthy"),
+                "warnings": result.warnings, "quality": result.quality,
+                "ionization_err": errors.get("ionization"), "populations_err": errors.get("populations"),
                 "history": {"times_au": result.times,
                             "populations": dict(result.history_populations)}}
     print(summary(result))

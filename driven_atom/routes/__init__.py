@@ -75,14 +75,24 @@ def build_route(cfg: RunConfig, *, cache_dir=None):
     atom = cfg.build_atom()
     pulse = build_pulse(cfg, atom)
     cls = route_class(cfg.route)
-    return cls(atom, pulse, cfg.solver, initial=cfg.initial_states(), output=cfg.output, cache_dir=cache_dir)
+    return cls(atom, pulse, cfg.solver, initial=cfg.initial_states(), output=cfg.output, cache_dir=cache_dir,
+               structure=cfg.atom.structure, fields=cfg.fields)
+
+
+def preflight(cfg: RunConfig, *, max_hours: float | None = None) -> list:
+    """The checks a run of ``cfg`` makes before its first step (:mod:`driven_atom.routes.quality`),
+    without propagating: resources are estimated, the grid, basis or model is built, nothing is
+    written."""
+    return build_route(cfg).inspect(max_hours=max_hours)
 
 
 def propagate(atom, pulse, settings, *, initial, output=None, checkpoint=None, progress: bool = False,
-              cache_dir=None):
+              cache_dir=None, structure: str = "bohr", fields=None):
     """Run the route of ``settings`` (a model of :mod:`driven_atom.settings`) on ready-made objects:
     an :class:`~driven_atom.atom.Atom`, a :class:`~driven_atom.pulse.Pulse` (or None), the initial
-    state as [(State, amplitude)]; no config and no file (a notebook's shortcut to one route).
+    state as [(State or Component, amplitude)], the level ``structure`` and static ``fields``
+    (a :class:`driven_atom.config.FieldsConfig`); no config and no file (a notebook's shortcut to one
+    route).
 
     >>> from driven_atom.atom import Atom, State
     >>> from driven_atom.settings import LevelsSettings
@@ -95,34 +105,67 @@ def propagate(atom, pulse, settings, *, initial, output=None, checkpoint=None, p
 
     cls = route_class(settings.route)
     route = cls(atom, pulse, settings, initial=initial, output=output if output is not None else OutputConfig(),
-                cache_dir=cache_dir)
+                cache_dir=cache_dir, structure=structure, fields=fields)
     return route.run(checkpoint=checkpoint if route.resumable else None, progress=progress)
 
 
 def default_cache_dir(cfg: RunConfig, path: Path):
-    """The basis cache folder of a run writing ``path``: ``.basis-cache`` beside it for "auto"."""
+    """The basis cache folder of a run writing ``path``: ``.basis-cache`` beside it for "auto", a
+    named folder inside the result's folder (refused if it leads out of it, symlinks included)."""
     setting = getattr(cfg.solver, "cache_dir", None)
     if setting is None or str(setting).lower() == "none":
         return None
+    folder = Path(path).parent
     if setting == "auto":
-        return Path(path).parent / ".basis-cache"
-    return Path(setting)
+        return folder / ".basis-cache"
+    cache = folder / setting
+    if not cache.resolve().is_relative_to(folder.resolve()):
+        raise InputError(f"`solver.cache_dir` = {setting!r} leads out of the result's folder {str(folder)!r}; "
+                         f"give a folder elsewhere with --cache-dir")
+    return cache
 
 
-def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None):
+def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, max_hours: float | None = None,
+               error_estimate: bool | None = None):
     """Propagate ``cfg`` and write its result to ``path``; returns the :class:`Result`.
 
     A checkpoint of the same physics beside ``path`` (``NAME.ckpt.h5``) is resumed; it is removed
-    once the result is written.
+    once the result is written. With ``error_estimate`` (default: ``[output] error_estimate``) a
+    coarser companion run gives every scalar an error bar (:mod:`driven_atom.routes.error_bars`).
     """
-    from driven_atom.result import Checkpoint, checkpoint_path, write_result
+    import time
+
+    from driven_atom.result import Checkpoint, checkpoint_path, read_result, stored_physics_hash, write_result
+    from driven_atom.routes.error_bars import error_block, run_companion
 
     path = Path(path)
     physics_hash = cfg.physics_hash()
+    stored = stored_physics_hash(path)
+    if stored is not None:              # a complete result is never rewritten: reuse it, or refuse
+        if stored != physics_hash:
+            raise InputError(f"{str(path)!r} holds a complete result of other physics (job {stored}); "
+                             f"choose another file or folder (nothing is overwritten)")
+        try:
+            result = read_result(path)
+        except InputError:
+            pass                        # damaged: computed again below, the damaged file replaced
+        else:
+            result.metadata["file"] = str(path)
+            result.stats["reused"] = True
+            return result
     config_text = cfg.to_toml()
     route = build_route(cfg, cache_dir=cache_dir if cache_dir is not None else default_cache_dir(cfg, path))
     checkpoint = Checkpoint(checkpoint_path(path), physics_hash=physics_hash, config=config_text)
-    result = route.run(checkpoint=checkpoint if route.resumable else None, progress=progress)
+    result = route.run(checkpoint=checkpoint if route.resumable else None, progress=progress, max_hours=max_hours)
+    if cfg.output.error_estimate if error_estimate is None else error_estimate:
+        started = time.perf_counter()
+        companion, factor, knobs = run_companion(type(route), route.atom, route.pulse, cfg.solver,
+                                                 route.initial, cfg.output, result, structure=route.structure,
+                                                 fields=route.fields)
+        result.stats["companion_s"] = time.perf_counter() - started
+        result.quality["errors"] = (error_block(result, companion, factor, knobs) if companion is not None
+                                    else {"method": "unavailable", "companion": knobs,
+                                          "why": "the coarser companion run was stopped by a guard"})
     result.config = config_text
     write_result(path, result, attrs={"physics_hash": physics_hash, "hash_version": HASH_VERSION})
     checkpoint.clear()
@@ -131,4 +174,4 @@ def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None):
 
 
 __all__ = ["ROUTES", "SETTINGS", "route_class", "check_config", "load_config", "build_route", "run_config",
-           "propagate"]
+           "preflight", "propagate"]

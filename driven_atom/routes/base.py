@@ -34,6 +34,7 @@ import numpy as np
 from driven_atom.errors import InputError, Interrupted
 from driven_atom.observables.populations import with_level_sums
 from driven_atom.result import Result
+from driven_atom.routes.quality import HARD, GuardStop, assess, quality_block, refuse_if_hard
 from driven_atom.settings import RouteSettings
 
 DEFAULT_SAMPLES = 200            # history samples over a run when [output] every is not given
@@ -52,6 +53,7 @@ class Outcome:
     warnings: list = field(default_factory=list)
     metadata: dict = field(default_factory=dict)
     series: dict = field(default_factory=dict)
+    checks: list = field(default_factory=list)
 
 
 @dataclass
@@ -141,15 +143,26 @@ class Route:
     name: ClassVar[str] = ""
     Settings: ClassVar[type[RouteSettings]] = RouteSettings
     polarizations: ClassVar[tuple[str, ...]] = ("z",)      # light the route can treat
+    structures: ClassVar[tuple[str, ...]] = ("bohr",)      # level structures ([atom] structure) it models
+    static_fields: ClassVar[bool] = False                  # whether it takes the [fields] section
     needs_pulse: ClassVar[bool] = True
     resumable: ClassVar[bool] = True
     spectra: ClassVar[tuple[str, ...]] = ()                # spectra the route can store
     counts_steps: ClassVar[bool] = False                   # a plain checkpoint_every counts steps
 
-    def __init__(self, atom, pulse, settings, *, initial, output=None, cache_dir=None):
+    def __init__(self, atom, pulse, settings, *, initial, output=None, cache_dir=None, structure: str = "bohr",
+                 fields=None):
+        if structure not in self.structures:
+            raise InputError(f"`atom.structure` = {structure!r} needs route \"levels\" (route {self.name!r} models "
+                             f"{' and '.join(self.structures)} levels)")
+        if fields is not None and fields.any and not self.static_fields:
+            raise InputError(f"`fields` apply to route \"levels\" only (route {self.name!r} has no static fields; a "
+                             f"DC field here is a [[pulse]] with envelope = \"static\")")
         self.atom = atom
         self.pulse = pulse
         self.settings = settings
+        self.structure = structure
+        self.fields = fields
         self.initial = list(initial)
         self.output = output
         self.cache_dir = cache_dir
@@ -164,8 +177,16 @@ class Route:
     @classmethod
     def check(cls, atom, pulse, initial, cfg=None) -> None:
         """Refuse (one line naming the key) what this route cannot treat: no pulse where one is
-        needed, light of a polarisation it does not handle. Called when a config is loaded
-        (``cfg`` given, to name its keys) and again when a route runs."""
+        needed, light of a polarisation it does not handle, a level structure or static fields it
+        does not model. Called when a config is loaded (``cfg`` given, to name its keys) and again
+        when a route runs."""
+        if cfg is not None:
+            if cfg.atom.structure not in cls.structures:
+                raise InputError(f"`atom.structure` = {cfg.atom.structure!r} needs route \"levels\" (route "
+                                 f"{cls.name!r} models {' and '.join(cls.structures)} levels)")
+            if cfg.fields.any and not cls.static_fields:
+                raise InputError(f"`fields` apply to route \"levels\" only (route {cls.name!r} has no static "
+                                 f"fields; a DC field here is a [[pulse]] with envelope = \"static\")")
         if pulse is None:
             if cls.needs_pulse:
                 raise InputError(f"`pulse` is required for route {cls.name!r}: add a [[pulse]] table "
@@ -204,18 +225,110 @@ class Route:
         return 0
 
     def preflight(self) -> list:
-        """Accuracy and resource findings before any propagation (none by default)."""
+        """Accuracy checks (:class:`~driven_atom.routes.quality.Check`) made after ``_prepare`` and
+        before any propagation; a hard one refuses the run (none by default)."""
         return []
 
+    def estimate_resources(self) -> tuple[float | None, float | None]:
+        """(bytes of memory, seconds) the run will need, from its sizes, before ``_prepare``
+        allocates anything; None where the route cannot say (the default)."""
+        return None, None
+
+    def samples_over(self, duration: float) -> float:
+        """How many history samples a run over ``duration`` (a.u.) takes under ``[output] every``."""
+        every = self.output.every_au if self.output is not None else None
+        return DEFAULT_SAMPLES + 1.0 if every is None else min(MAX_SAMPLES, duration / every + 2)
+
+    def _check_resources(self, max_hours: float | None) -> None:
+        from driven_atom.routes.resources import check_resources
+
+        memory, seconds = self.estimate_resources()
+        self.warnings += check_resources(memory, seconds, max_hours=max_hours, what=f"this {self.name} run",
+                                         fix=self.resource_fix)
+        self.stats["estimated_s"] = seconds
+        self.stats["estimated_bytes"] = memory
+
+    resource_fix: ClassVar[str] = ""          # what to change when a run is too large
+
+    # -- run-time guards, at every history sample ------------------------------------------------------
+    norm_tolerance: float = 1e-9         # how far above 1 the norm may drift (routes set their own)
+    tolerance_key: ClassVar[str] = "solver.dt"    # the setting that controls the norm's accuracy
+    population_soft: float = 1e-4        # population in the top partial wave / top of the basis: warn
+    population_hard: float = 5e-2        # ... stop: the truncation dominates the answer
+
+    def _guard(self, history: History) -> None:
+        """Stop the run at a sample whose numbers are already wrong (NaN/Inf, the norm above 1, the
+        top partial wave or the top of the basis filling up): one line naming the setting to change."""
+        i = history.count - 1
+        t = float(history.times[i])
+        for group in (history.populations, history.series):
+            for key, values in group.items():
+                if not math.isfinite(values[i]):
+                    raise GuardStop(f"stopped at t = {t:.6g} au: {key} is {values[i]} (NaN/Inf); the time step "
+                                    f"or the grid is far too coarse for this pulse: lower `solver.dt`/`solver.dr`")
+        for check in self._sample_checks({k: v[i:i + 1] for k, v in history.series.items()}):
+            if check.level == HARD:
+                raise GuardStop(f"stopped at t = {t:.6g} au: {check.message}")
+
+    def _sample_checks(self, series: dict) -> list:
+        """The guard checks of the given series (over all their samples)."""
+        checks = []
+        if "norm" in series:
+            excess = float(np.max(series["norm"])) - 1.0
+            checks.append(assess("norm_excess", max(excess, 0.0), soft=self.norm_tolerance,
+                                 hard=max(1e-3, 100 * self.norm_tolerance), key=self.tolerance_key,
+                                 why="the norm rose above 1 (the propagation is not accurate)"))
+        for name, key, what in (("top_l_population", "solver.l_max", "population in the highest partial wave"),
+                                ("_near_e_max", "solver.e_max", "population near the top of the basis (e_max)")):
+            if name in series:
+                checks.append(assess(name.lstrip("_"), float(np.max(series[name])), soft=self.population_soft,
+                                     hard=self.population_hard, key=key,
+                                     why=f"{what}: the truncation shapes the answer"))
+        return checks
+
+    def _guard_checks(self, history: History) -> list:
+        return self._sample_checks({k: v[:history.count] for k, v in history.series.items()})
+
     # -- the loop, owned here --------------------------------------------------------------------------
-    def run(self, *, checkpoint=None, progress: bool = False) -> Result:
-        """Prepare, resume or start, advance slice by slice, sample, checkpoint, finish."""
+    def inspect(self, *, max_hours: float | None = None) -> list:
+        """Everything before the first step: capability checks, the resource estimate,
+        ``_prepare`` and the preflight checks (returned; nothing is propagated or written)."""
+        self.check(self.atom, self.pulse, self.initial)
+        self._check_resources(max_hours)
+        self._prepare()
+        return list(self.preflight())
+
+    @classmethod
+    def explicit(cls, settings, result):
+        """``settings`` with every value the run derived (defaults from the pulse) made explicit."""
+        return settings
+
+    @classmethod
+    def knobs(cls, settings) -> list:
+        """The numerical knobs of a convergence study (:class:`driven_atom.convergence.Knob`)."""
+        return []
+
+    @classmethod
+    def companion(cls, settings, result) -> tuple:
+        """(coarser settings, K, knobs) for the error bar of ``result``: the knobs whose error
+        grows by the factor K (see :mod:`driven_atom.routes.error_bars`)."""
+        raise NotImplementedError(f"route {cls.name!r} gives no error bar")
+
+    def run(self, *, checkpoint=None, progress: bool = False, max_hours: float | None = None,
+            strict: bool = True) -> Result:
+        """Prepare, resume or start, advance slice by slice, sample, checkpoint, finish.
+        ``strict = False`` records hard preflight findings instead of refusing (a deliberately
+        coarse companion run); run-time guards stop it all the same."""
         from driven_atom import stopping
 
         wall0 = time.perf_counter()
         self.check(self.atom, self.pulse, self.initial)
+        self._check_resources(max_hours)
         with stopping.stop_on_signals():
             self._prepare()
+            checks = list(self.preflight())
+            if strict:
+                refuse_if_hard(checks, when="before the run")
             prepared = time.perf_counter()
             self._stop_if_asked(None, None, 0, self.t_start, None, None)
             every = self.output.every_au if self.output is not None else None
@@ -228,6 +341,7 @@ class Route:
             if state is None:
                 state = self._initial()
                 history.record(*self._sample(state))
+                self._guard(history)
             cadence = getattr(self.settings, "checkpoint_every", None)
             bar = self._bar(ends.size, position, progress)
             last_save, last_steps, saved = time.perf_counter(), self.steps_done(state), 0
@@ -240,6 +354,7 @@ class Route:
                     if history.count < times.size and math.isclose(t, times[history.count], rel_tol=0,
                                                                    abs_tol=1e-9 * max(1.0, abs(t))):
                         history.record(*self._sample(state))
+                        self._guard(history)
                     if bar is not None:
                         bar.update(1)
                     if k + 1 == ends.size:
@@ -255,7 +370,10 @@ class Route:
                     bar.close()
             propagated = time.perf_counter()
             outcome = self._finish(state, history)
-        return self._result(outcome, history, {
+        checks += self._guard_checks(history) + list(outcome.checks)
+        if strict:
+            refuse_if_hard(checks, when="after the run")
+        return self._result(outcome, history, checks, {
             "wall_s": time.perf_counter() - wall0, "prepare_s": prepared - wall0,
             "propagate_s": propagated - prepared, "samples": int(times.size),
             "resumed": resumed_at is not None, "resumed_at_au": resumed_at, "checkpoints_written": saved})
@@ -309,8 +427,9 @@ class Route:
         return tqdm(total=total, initial=done, desc=self.name, leave=False, mininterval=0.5,
                     bar_format="{desc}: {percentage:3.0f}%|{bar}| {elapsed}<{remaining}")
 
-    def _result(self, outcome: Outcome, history: History, common: dict) -> Result:
-        stats = {**outcome.stats, **common}
+    def _result(self, outcome: Outcome, history: History, checks: list, common: dict) -> Result:
+        stats = {**self.stats, **outcome.stats, **common}
+        warnings = self.warnings + list(outcome.warnings) + [c.message for c in checks if c.level != "ok"]
         series = {k: v for k, v in history.series.items() if not k.startswith("_")}
         series.update(outcome.series)
         metadata = {"carriers_au": [float(c.omega) for c in self.pulse.components] if self.pulse else [],
@@ -318,5 +437,5 @@ class Route:
         return Result(route=self.name, populations=with_level_sums(outcome.populations),
                       ionization=float(outcome.ionization), norm=float(outcome.norm), times=history.times,
                       history_populations=with_level_sums(history.populations), series=series,
-                      spectra=outcome.spectra, stats=stats, warnings=self.warnings + list(outcome.warnings),
-                      metadata=metadata)
+                      spectra=outcome.spectra, stats=stats, warnings=list(dict.fromkeys(warnings)),
+                      metadata=metadata, quality=quality_block(checks))

@@ -159,6 +159,8 @@ def _hydrogenic_n(basis, atom, rtol: float = 1e-3) -> int:
     """Largest n up to which every bound state of the basis has its hydrogenic energy within
     ``rtol``; higher box states are distorted by the wall and are reported only as a sum."""
     bound = basis.bound
+    if not bound.any():
+        return 0
     exact = -atom.Z**2 * atom.reduced_mass / (2.0 * basis.n[bound] ** 2)
     bad = basis.n[bound][np.abs(basis.energies[bound] / exact - 1) > rtol]
     return int(bad.min() - 1 if bad.size else basis.n[bound].max())
@@ -180,26 +182,69 @@ class BasisRoute(Route):
     name = "basis"
     Settings = BasisSettings
     spectra = ("photoelectron",)
+    tolerance_key = "solver.tolerance"
+    norm_tolerance = 1e-7           # each step is unitary to the Krylov accuracy (tolerance/2 per step)
 
     @classmethod
     def check(cls, atom, pulse, initial, cfg=None) -> None:
         super().check(atom, pulse, initial, cfg)
         _basis_m(initial)
 
+    resource_fix = "lower `solver.r_max` or raise `solver.dr`, or lower `solver.l_max`"
+
+    @classmethod
+    def knobs(cls, settings) -> list:
+        """dr (energies ∝ dr⁴), the step tolerance (error ∝ tolerance), r_max, l_max and e_max."""
+        from driven_atom.convergence import Knob
+
+        return [Knob("dr", settings.dr, settings.dr / 2**0.5, settings.dr * 2**0.5, 4, 2.8),
+                Knob("tolerance", settings.tolerance, settings.tolerance / 2, min(2 * settings.tolerance, 5e-3), 1, 1.3),
+                Knob("r_max", settings.r_max, 1.5 * settings.r_max, None, None, 3.4),
+                Knob("l_max", settings.l_max, settings.l_max + max(2, settings.l_max // 2), None, None, 1.5),
+                Knob("e_max", settings.e_max, 1.5 * settings.e_max, None, None, 1.5)]
+
+    @classmethod
+    def companion(cls, settings, result):
+        """dr (and dr_min) stretched by √2 (Numerov energies ∝ dr⁴) and the step tolerance
+        loosened fourfold: K = 4."""
+        knobs = {"dr": settings.dr * 2**0.5, "tolerance": min(4 * settings.tolerance, 5e-3)}
+        if settings.dr_min is not None:
+            knobs["dr_min"] = settings.dr_min * 2**0.5
+        return settings.model_copy(update=dict(knobs, cache_dir=None)), 4.0, knobs
+
+    def estimate_resources(self):
+        """Building the basis diagonalises one dense N×N H_l per partial wave (N = r_max/dr grid
+        points): about 4·8·N² bytes at a time and N³ LAPACK operations each; the kept states
+        (bound ones and the box continuum up to e_max, about r_max·√(2μ e_max)/π per l) and their
+        dipole blocks follow."""
+        from driven_atom.routes.resources import DENSE_EIGH_NS_PER_N3
+
+        s = self.settings
+        n = s.r_max / (s.dr_min if s.dr_min is not None else s.dr)
+        if s.dr_min is not None:
+            n = min(n, s.r_stretch / s.dr_min + s.r_max / s.dr)
+        waves = s.l_max + 1
+        kept = s.r_max * np.sqrt(2 * self.atom.reduced_mass * s.e_max) / np.pi + np.sqrt(s.r_max)
+        memory = 8.0 * (4 * n * n + n * kept * 2 + waves * kept * kept * 2)
+        seconds = waves * n * n * n * DENSE_EIGH_NS_PER_N3 * 1e-9      # float products: inf, never an error
+        return float(memory), float(seconds)
+
     def _prepare(self) -> None:
         import time
 
-        from driven_atom.basis.eigenbasis import cached_basis
+        from driven_atom.basis.eigenbasis import cache_path, cached_basis
 
         s, pulse, atom = self.settings, self.pulse, self.atom
         started = time.perf_counter()
         self.m = _basis_m(self.initial)
-        basis, reused = cached_basis(atom, self.cache_dir, r_max=s.r_max, dr=s.dr, l_max=s.l_max,
-                                     n_max=s.n_max, e_max=s.e_max, m=self.m, dr_min=s.dr_min,
-                                     r_stretch=s.r_stretch)
+        spec = dict(r_max=s.r_max, dr=s.dr, l_max=s.l_max, n_max=s.n_max, e_max=s.e_max, m=self.m,
+                    dr_min=s.dr_min, r_stretch=s.r_stretch)
+        basis, reused = cached_basis(atom, self.cache_dir, save=False, **spec)
+        # saved once the preflight has passed (a refused basis is not kept)
+        self._unsaved = None if reused or self.cache_dir is None else cache_path(atom, self.cache_dir, **spec)
         self.basis = basis
-        self.stats = {"basis_size": basis.size, "basis_key": basis.key, "basis_reused": reused,
-                      "basis_build_s": time.perf_counter() - started, "gauge": s.gauge}
+        self.stats.update({"basis_size": basis.size, "basis_key": basis.key, "basis_reused": reused,
+                           "basis_build_s": time.perf_counter() - started, "gauge": s.gauge})
         if s.gauge == "length":
             drive, coupling = pulse.field_z, basis.dipole
         else:
@@ -211,14 +256,41 @@ class BasisRoute(Route):
                                      scheme=s.scheme, groups=basis.l)
         self.t_start, self.t_end = pulse.t_start, pulse.t_end
         self.max_slice = SLICE_AU
+        self.population_soft = s.warn_population
         self.n_good = _hydrogenic_n(basis, atom)
         self.hist_idx = np.flatnonzero(basis.bound & (basis.n <= min(HISTORY_N_MAX, self.n_good)))
         self.cont = ~basis.bound
-        self.top_l = basis.l == basis.l.max()
+        # the top partial wave tells of truncation only above the initial states' own waves
+        self.top_l = basis.l == basis.l.max() if basis.l.max() > max(s.l for s, _ in self.initial) else None
         e_cont = basis.energies[self.cont]
         self.near_emax = self.cont & (basis.energies >= 0.9 * float(e_cont.max() if e_cont.size else 0.0))
 
+    def preflight(self) -> list:
+        """The initial states' energies in this basis against the exact −Z²μ/(2n²) (Bethe &
+        Salpeter 1957): a box too small for the state or a grid too coarse shows here first."""
+        from driven_atom.routes.quality import assess
+
+        atom, s = self.atom, self.settings
+        worst, too_small = 0.0, False
+        for state, _ in self.initial:
+            exact = -atom.Z**2 * atom.reduced_mass / (2 * state.n**2)
+            energy = float(self.basis.energies[self.basis.index(state)])
+            worst = max(worst, abs(energy / exact - 1))
+            too_small |= s.r_max < 4 * state.n**2 / (atom.Z * atom.reduced_mass)   # twice the turning point
+        if too_small:
+            fix = f"raise `solver.r_max` (the state reaches beyond the box of {s.r_max:g} bohr)"
+        else:
+            fix = f"lower `solver.dr` to about {s.dr * (1e-5 / worst) ** 0.25:.3g} bohr" if worst > 0 else ""
+        return [assess("initial_energy_error", worst, soft=5e-4, hard=1e-3,
+                       key="solver.r_max" if too_small else "solver.dr",
+                       why="relative error of the initial state's energy in this basis", fix=fix)]
+
     def _initial(self):
+        from driven_atom.basis.eigenbasis import save_basis
+
+        if self._unsaved is not None:
+            save_basis(self.basis, self._unsaved)
+            self._unsaved = None
         c = np.zeros(self.basis.size, dtype=complex)
         for state, amplitude in self.initial:
             c[self.basis.index(state)] += amplitude
@@ -237,8 +309,9 @@ class BasisRoute(Route):
         pops = {self.basis.label(i): float(pop[i]) for i in self.hist_idx}
         series = {"norm": float(pop.sum()), "ionization": float(pop[self.cont].sum()),
                   "dipole_z": float(np.vdot(c, self.basis.dipole @ c).real),
-                  "top_l_population": float(pop[self.top_l].sum()),
                   "_near_e_max": float(pop[self.near_emax].sum())}
+        if self.top_l is not None:
+            series["top_l_population"] = float(pop[self.top_l].sum())
         return pops, series
 
     def _save(self, state):
@@ -262,16 +335,13 @@ class BasisRoute(Route):
         stats = dict(self.stats)
         stats.update({"box_rydberg_population": float(pop[basis.bound].sum() - pop[bound_idx].sum()),
                       "matvecs": self.prop.matvecs, "steps": self.prop.steps,
-                      "top_l_population": float(history.series["top_l_population"].max()),
+                      "top_l_population": float(history.series["top_l_population"].max())
+                      if "top_l_population" in history.series else 0.0,
                       "e_max_population": float(history.series["_near_e_max"].max())})
         warnings = []
         if s.gauge == "velocity" and abs(float(self.pulse.vector_potential_z(np.array([self.t_end]))[0])) > 1e-8:
             warnings.append("A(t) does not vanish at the end of the pulse (static field): velocity-gauge "
                             "amplitudes differ from length-gauge ones by the gauge phase; use gauge = \"length\"")
-        for key, setting in (("top_l_population", "l_max"), ("e_max_population", "e_max")):
-            if stats[key] > s.warn_population:
-                warnings.append(f"basis not converged: {key} = {stats[key]:.3g} > warn_population = "
-                                f"{s.warn_population:.3g}; raise `solver.{setting}`")
         return Outcome(populations={basis.label(i): float(pop[i]) for i in bound_idx},
                        ionization=float(pop[cont].sum()), norm=float(pop.sum()),
                        spectra={"photoelectron": {"energy": energy, "dP_dE": dP_dE, "dP_dE_l": dP_dE_l}},

@@ -47,6 +47,7 @@ import numpy as np
 from driven_atom.atom.states import State
 from driven_atom.errors import InputError
 from driven_atom.routes.base import Outcome, Route
+from driven_atom.routes.quality import assess
 from driven_atom.settings import GridSettings
 
 L_FACTOR = 1.6                # default l_max: this many times the returning angular momentum
@@ -67,6 +68,10 @@ class GridParameters:
     absorber_width: float
     quiver_radius: float
     e_max: float
+    up: float = 0.0                 # ponderomotive energy of the summed carriers
+    ip: float = 0.5                 # ionisation potential of the initial state
+    omega_max: float = 0.0          # highest carrier frequency
+    spectrum_radius: float = 0.0    # inner radius that keeps the photoelectrons until the pulse ends
 
 
 def _pulse_scales(atom, pulse) -> tuple[float, float, float, float]:
@@ -99,6 +104,8 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
     e_max = max(10 * up, 3 * w_max, ip)
     k_max = math.sqrt(2 * mu * e_max)
     dr = settings.dr if settings.dr is not None else min(0.1 / Z, 0.5 / k_max)
+    window = pulse.t_end - pulse.t_start
+    spectrum_radius = photoelectron_radius(up, w_max - ip, alpha0, window, mu)
     if settings.r_max is not None:
         r_max = settings.r_max
         width = (settings.absorber_width if settings.absorber_width is not None
@@ -107,6 +114,8 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
         inner = max(40.0 * n_initial**2 / (Z * mu), 3 * alpha0 + 20.0)
         if f_static > 0:
             inner = max(inner, 2 * ip / f_static + 40.0)    # beyond the tunnel exit I_p/F
+        if settings.photoelectron:
+            inner = max(inner, spectrum_radius)             # the spectrum needs its electrons in the box
         width = settings.absorber_width if settings.absorber_width is not None else max(20.0, 0.2 * inner)
         r_max = inner + width
     if settings.absorber == "none":
@@ -117,15 +126,38 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
     if settings.l_max is not None:
         l_max = settings.l_max
     else:
-        l_max = max(8, l_initial + 6, math.ceil(L_FACTOR * alpha0 * math.sqrt(6.34 * mu * up)))
-    window = pulse.t_end - pulse.t_start
+        l_max = max(8, l_initial + 6, math.ceil(L_FACTOR * returning_l(alpha0, up, mu)))
     if settings.dt is not None:
         dt_max = settings.dt
     else:
         dt_max = min(0.05, 0.1 / e_max, (2 * math.pi / w_max) / 400 if w_max > 0 else math.inf)
     n_steps = max(1, math.ceil(window / dt_max - 1e-9))
     return GridParameters(r_max=r_max, dr=dr, l_max=l_max, dt=window / n_steps, n_steps=n_steps,
-                          absorber_width=width, quiver_radius=alpha0, e_max=e_max)
+                          absorber_width=width, quiver_radius=alpha0, e_max=e_max, up=up, ip=ip,
+                          omega_max=w_max, spectrum_radius=spectrum_radius)
+
+
+def returning_l(alpha0: float, up: float, mu: float) -> float:
+    """Angular momentum of an electron returning with 3.17 Uₚ at the quiver radius α₀:
+    L = α₀·√(2μ·3.17 Uₚ) (the classical cutoff energy, Corkum, PRL 71, 1994 (1993)).
+
+    >>> round(returning_l(16.46, 0.2204, 1.0), 1)
+    19.5
+    """
+    return alpha0 * math.sqrt(6.34 * mu * up)
+
+
+def photoelectron_radius(up: float, one_photon_energy: float, alpha0: float, window: float, mu: float) -> float:
+    """Inner radius that keeps the photoelectrons on the grid until the pulse ends: the slow
+    (direct, up to 2 Uₚ, or one-photon ω − Iₚ) electrons for the whole window, the rescattered
+    ones (up to 10 Uₚ) born at the peak for half of it, plus three quiver radii and 20 bohr.
+
+    >>> round(photoelectron_radius(0.2204, -0.44, 16.46, 441.2, 1.0))
+    533
+    """
+    direct = math.sqrt(2 * max(2 * up, one_photon_energy, 0.0) / mu) * window
+    rescattered = math.sqrt(2 * 10 * up / mu) * window / 2
+    return max(direct, rescattered) + 3 * alpha0 + 20.0
 
 
 def mask_profile(r, r_max, width, power=0.125) -> np.ndarray:
@@ -399,19 +431,69 @@ class GridRoute(Route):
                 raise InputError(f"`atom.initial` {state.label!r}: the grid route is for linear "
                                  f"polarisation along z and needs m = 0 states")
 
-    def run(self, *, checkpoint=None, progress: bool = False):
+    def run(self, **options):
         from driven_atom.basis.radial_grid import reproducible_blas
 
         with reproducible_blas():
-            return super().run(checkpoint=checkpoint, progress=progress)
+            return super().run(**options)
+
+    resource_fix = "lower `solver.r_max` or `solver.l_max`, raise `solver.dr` or `solver.dt`, or shorten the pulse"
+
+    @classmethod
+    def explicit(cls, settings, result):
+        s = result.stats
+        update = {"dt": s["dt"], "dr": s["dr"], "l_max": s["l_max"], "r_max": s["r_max"]}
+        if settings.absorber != "none":
+            update["absorber_width"] = s["absorber_width"]
+        return settings.model_copy(update=update)
+
+    @classmethod
+    def knobs(cls, settings) -> list:
+        """dt (error ∝ dt²), dr (∝ dr⁴), l_max and r_max (faster than any power)."""
+        from driven_atom.convergence import Knob
+
+        return [Knob("dt", settings.dt, settings.dt / 2, 2 * settings.dt, 2, 2.0),
+                Knob("dr", settings.dr, settings.dr / 2**0.5, settings.dr * 2**0.5, 4, 2**0.5),
+                Knob("l_max", settings.l_max, math.ceil(1.5 * settings.l_max), None, None, 1.5),
+                Knob("r_max", settings.r_max, 1.5 * settings.r_max, None, None, 1.5)]
+
+    @classmethod
+    def companion(cls, settings, result):
+        """dt doubled (error ∝ dt²) and dr stretched by √2 (∝ dr⁴): K = 4; the box, the partial
+        waves and the absorber as the run used them; no photoelectron spectrum."""
+        s = result.stats
+        knobs = {"dt": 2 * s["dt"], "dr": s["dr"] * 2**0.5, "r_max": s["r_max"], "l_max": s["l_max"],
+                 "absorber_width": s["absorber_width"]}
+        update = dict(knobs, photoelectron=False)
+        if settings.absorber == "none":
+            update.pop("absorber_width")
+        return settings.model_copy(update=update), 4.0, knobs
+
+    def _parameters(self) -> GridParameters:
+        n0 = max(st.n for st, _ in self.initial)
+        l0 = max(st.l for st, _ in self.initial)
+        return grid_parameters(self.atom, self.pulse, self.settings, n_initial=n0, l_initial=l0)
+
+    def estimate_resources(self):
+        """Memory: the state and the Crank–Nicolson factors (6 real N×L arrays), copies of the state
+        for samples and checkpoints, the bound states of every l (N × about √(Zμ r_max/2) + 5
+        vectors) and four numbers per time step; time: N·L·steps at the kernel's speed."""
+        from driven_atom.routes.resources import BOUND_STATES_S_PER_POINT, GRID_NS_PER_POINT_STEP
+
+        par = self._parameters()
+        n, waves = par.r_max / par.dr, par.l_max + 1
+        bound = math.sqrt(self.atom.Z * self.atom.reduced_mass * par.r_max / 2) + 5
+        memory = 8.0 * (10 * n * waves + n * waves * bound + 5 * par.n_steps)
+        eigen_s = waves * n * BOUND_STATES_S_PER_POINT           # shift-invert Lanczos per partial wave
+        samples = min(self.samples_over(par.dt * par.n_steps), par.n_steps + 1.0)
+        sample_s = samples * n * waves * (bound + 2) * 2e-9      # projections on the bound states
+        return memory, n * waves * par.n_steps * GRID_NS_PER_POINT_STEP * 1e-9 + eigen_s + sample_s
 
     def _prepare(self) -> None:
         from driven_atom.basis.radial_grid import uniform_grid
 
         atom, pulse, s = self.atom, self.pulse, self.settings
-        n0 = max(st.n for st, _ in self.initial)
-        l0 = max(st.l for st, _ in self.initial)
-        self.par = par = grid_parameters(atom, pulse, s, n_initial=n0, l_initial=l0)
+        self.par = par = self._parameters()
         self.grid = grid = uniform_grid(par.r_max, par.dr)
         n, n_l = grid.n_points, par.l_max + 1
         self.n_l = n_l
@@ -427,6 +509,50 @@ class GridRoute(Route):
         self.fields_mid = pulse.field_z(t0 + par.dt * (np.arange(par.n_steps) + 0.5))
         self.per_step = np.zeros((par.n_steps, 3))
         self.stepper = _Stepper(grid, atom, n_l, par.dt, mask, s.threads)
+
+    def preflight(self) -> list:
+        """Before any step: the initial states' energies on this grid against the exact
+        −Z²μ/(2n²) (Bethe & Salpeter 1957), the time step against the fastest phase that matters
+        (Iₚ + 3.17 Uₚ, Corkum 1993) and the carrier period, the initial state's norm inside the
+        absorber, the box against the quiver radius, and l_max against the returning angular
+        momentum."""
+        atom, par, grid = self.atom, self.par, self.grid
+        mu, Z = atom.reduced_mass, atom.Z
+        checks = []
+        worst = 0.0
+        for state, _ in self.initial:
+            energies = self.bound[state.l][0]
+            j = state.n - state.l - 1
+            exact = -Z**2 * mu / (2 * state.n**2)
+            worst = max(worst, abs(energies[j] / exact - 1) if j < energies.size else math.inf)
+        better = par.dr * (1e-5 / worst) ** 0.25 if 0 < worst < math.inf else par.dr / 2
+        checks.append(assess("initial_energy_error", worst, soft=5e-4, hard=1e-3, key="solver.dr",
+                             why="relative error of the initial state's energy on this grid",
+                             fix=f"lower `solver.dr` to about {better:.3g} bohr"))
+        e_hi = max(par.ip + 3.17 * par.up, par.omega_max, par.ip)
+        checks.append(assess("phase_per_step", par.dt * e_hi, soft=0.2, hard=1.0, key="solver.dt",
+                             why="phase turned per time step at the highest energy that matters (Ip + 3.17 Up)",
+                             fix=f"lower `solver.dt` to about {0.1 / e_hi:.3g} au"))
+        if par.omega_max > 0:
+            period = 2 * math.pi / par.omega_max
+            checks.append(assess("steps_per_period_inverse", par.dt / period, soft=1 / 100, hard=1 / 20,
+                                 key="solver.dt", why="time step over the shortest carrier period",
+                                 fix=f"lower `solver.dt` to about {period / 400:.3g} au"))
+        r_abs = grid.r_max - par.absorber_width
+        psi = _initial_psi(self.initial, self.bound, grid.n_points, self.n_l)
+        inside = float(np.sum(abs(psi[grid.r > r_abs]) ** 2) / np.sum(abs(psi) ** 2))
+        checks.append(assess("initial_norm_in_absorber", inside, soft=1e-8, hard=1e-4, key="solver.r_max",
+                             why="part of the initial state lies in the absorber and would count as ionised",
+                             fix="raise `solver.r_max` or narrow `solver.absorber_width`"))
+        if par.quiver_radius > 0:
+            checks.append(assess("quiver_over_inner_radius", par.quiver_radius / r_abs, soft=0.5, hard=1.0,
+                                 key="solver.r_max", why="quiver radius F/ω² over the radius where the absorber starts",
+                                 fix=f"raise `solver.r_max` to at least {3 * par.quiver_radius + 20 + par.absorber_width:.0f} bohr"))
+            needed = returning_l(par.quiver_radius, par.up, mu)
+            checks.append(assess("returning_l_over_l_max", needed / par.l_max, soft=1.0, hard=2.5, key="solver.l_max",
+                                 why="angular momentum of the returning electron over l_max",
+                                 fix=f"raise `solver.l_max` to at least {math.ceil(L_FACTOR * needed)}"))
+        return checks
 
     def _step_index(self, t: float) -> int:
         return int(round((t - self.t_start) / self.par.dt))
@@ -456,8 +582,11 @@ class GridRoute(Route):
         k = state["step"]
         obs = (_observables(self.stepper.state(), self.grid.r, coupling_coefficients(self.par.l_max))
                if k == 0 else self.per_step[k - 1])
-        return pops, {"norm": float(obs[0]), "ionization": 1.0 - total, "dipole_z": float(obs[1]),
-                      "_cos_r2": float(obs[2])}
+        series = {"norm": float(obs[0]), "ionization": 1.0 - total, "dipole_z": float(obs[1]),
+                  "_cos_r2": float(obs[2])}
+        if self.n_l - 1 > max(st.l for st, _ in self.initial):     # the top wave tells of truncation
+            series["top_l_population"] = float(np.sum(abs(self.stepper.column(self.n_l - 1)) ** 2))
+        return pops, series
 
     def _save(self, state):
         return {"psi": self.stepper.state(), "per_step": self.per_step}, {"step": state["step"]}
@@ -484,14 +613,23 @@ class GridRoute(Route):
         spectra = {"harmonic": {"omega": omega, "power": power},
                    "dipole_response": {"time": step_times, "dipole_z": per_step[:, 1],
                                        "acceleration_z": acc_steps}}
+        bound_left = 1.0 - float(history.series["ionization"][-1])
+        norm = float(history.series["norm"][-1])
+        checks = []
         if s.photoelectron:
             e_top = s.photoelectron_e_max if s.photoelectron_e_max is not None else par.e_max
             energies = np.linspace(0.0, e_top, s.photoelectron_points + 1)[1:]
-            spectra["photoelectron"] = {
-                "energy": energies,
-                "dP_dE": window_spectrum(self.grid, atom, self.stepper.state(), energies, 0.5 * energies[0])}
-        bound_left = 1.0 - float(history.series["ionization"][-1])
-        norm = float(history.series["norm"][-1])
+            dP_dE = window_spectrum(self.grid, atom, self.stepper.state(), energies, 0.5 * energies[0])
+            spectra["photoelectron"] = {"energy": energies, "dP_dE": dP_dE}
+            ionized = 1.0 - bound_left
+            held = float(np.sum(dP_dE) * (energies[1] - energies[0]))
+            missing = 1.0 - held / ionized if ionized > 1e-12 else 0.0
+            needed = par.spectrum_radius + par.absorber_width
+            checks.append(assess("spectrum_missing_fraction", missing, soft=0.03, key="solver.r_max",
+                                 why="fraction of the ionisation yield missing from the photoelectron spectrum "
+                                     "(absorbed before the spectrum was taken)",
+                                 fix=f"raise `solver.r_max` to about {needed:.0f} bohr (or leave it unset: "
+                                     f"the box is then sized for the spectrum)"))
         warnings = []
         if par.absorber_width == 0 and bound_left < 1 - 1e-3:
             warnings.append("no absorber: ionised norm reflects from r_max")
@@ -501,7 +639,7 @@ class GridRoute(Route):
                  "threads": s.threads, "bound_states": int(sum(b[0].size for b in self.bound)),
                  "ground_energy": float(self.bound[0][0][0]) if self.bound[0][0].size else float("nan")}
         return Outcome(populations=history.last("populations"), ionization=1.0 - bound_left, norm=norm,
-                       spectra=spectra, stats=stats, warnings=warnings,
+                       spectra=spectra, stats=stats, warnings=warnings, checks=checks,
                        series={"acceleration_z": acc_samples})
 
 
