@@ -273,7 +273,7 @@ def quick_unit(unit: str):
 def _quick_to_au(magnitude: float, unit: str, kind: str) -> float | None:
     """``magnitude unit`` in atomic units of ``kind`` by :func:`quick_unit` (with the photon-energy,
     rate and chirp equivalences of :func:`to_au`); None when pint must decide."""
-    found = quick_unit(unit)
+    found = quick_unit(unit) if kind in _AU_SI else None
     if found is None:
         return None
     value, dims = found
