@@ -160,6 +160,7 @@ class EstimateConfig(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
 
     atom: dict[str, Any] | None = None
+    fields: dict[str, Any] | None = None
     pulse: list[dict[str, Any]] = Field(default_factory=list)
     solver: dict[str, Any] | None = None
     output: dict[str, Any] | None = None
@@ -262,22 +263,31 @@ def lab_case(config=None, *, lab: dict | None = None, **flags) -> LabCase:
 def _run_parts(outer: EstimateConfig) -> dict:
     """Atom, initial state and pulse component of a run configuration (its ``[solver]``, when
     present, is checked like a run's)."""
-    from driven_atom.config import AtomConfig, PulseConfig, config_message, read_settings
+    from driven_atom.atom import State
+    from driven_atom.config import AtomConfig, FieldsConfig, PulseConfig, config_message, read_settings
     from driven_atom.pulse import PulseComponent
 
     if outer.solver is not None:
         read_settings(outer.solver)
     try:
         atom_cfg = AtomConfig.model_validate(outer.atom or {})
+        fields = FieldsConfig.model_validate(outer.fields or {})
         pulses = [PulseConfig.model_validate(p) for p in outer.pulse]
     except ValidationError as exc:
         raise InputError(config_message(exc)) from None
     initial = atom_cfg.initial_states()
     if len(initial) != 1:
         raise InputError("`atom.initial`: an estimate needs one initial state, not a superposition")
+    state, notes = initial[0][0], []
+    if not isinstance(state, State):                    # a fine- or hyperfine-structure component
+        notes.append(f"initial {state.label}: the estimate uses the Bohr level {State(state.n, state.l).label} "
+                     f"(no fine or hyperfine structure)")
+        state = State(state.n, state.l, 0)
+    if fields.any:
+        notes.append("the static fields of [fields] are not in the estimate (run the levels route for them)")
     components = [PulseComponent.from_config(p, key=f"pulse.{i}") for i, p in enumerate(pulses)]
-    return {"atom": atom_cfg.build_atom(), "nucleus": atom_cfg.nucleus, "state": initial[0][0],
-            "components": components}
+    return {"atom": atom_cfg.build_atom(), "nucleus": atom_cfg.nucleus, "state": state,
+            "components": components, "notes": notes}
 
 
 def _choose_component(components, notes: list):
@@ -299,7 +309,7 @@ def _resolve(lab: LabInput, run: dict, given: dict) -> LabCase:
     from driven_atom.units import (AU_INTENSITY_WM2, AU_TIME_S, photon_energy_to_wavelength_nm,
                                    wavelength_nm_to_photon_energy)
 
-    notes: list = []
+    notes: list = list(run.get("notes", []))
     warnings: list = []
     # the atom and its state
     if lab.species is not None:
