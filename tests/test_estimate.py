@@ -372,6 +372,17 @@ def test_static_field_configuration_uses_adk_over_ramp_and_plateau():
     assert any("no focus" in note for note in out["notes"])
 
 
+def test_structured_run_configuration_is_read_at_its_bohr_level():
+    # a fine-structure initial component and static fields: the estimate names what it leaves out and
+    # gives the Bohr level's numbers
+    pulse = [{"envelope": "gaussian", "wavelength": LYMAN, "intensity": "1e8 W/cm^2", "fwhm": "2 ns"}]
+    fine = estimate({"atom": {"nucleus": "H", "structure": "fine", "initial": "1s1/2"},
+                     "fields": {"magnetic": "5 G"}, "pulse": pulse}, temperature="0 K")
+    bohr = estimate({"atom": {"nucleus": "H", "initial": "1s"}, "pulse": pulse}, temperature="0 K")
+    assert fine["probability_peak"] == pytest.approx(bohr["probability_peak"], rel=1e-12)
+    assert any("Bohr level 1s" in n for n in fine["notes"]) and any("[fields]" in n for n in fine["notes"])
+
+
 def test_two_colour_configuration_follows_one_laser():
     out = estimate(REPO / "configs" / "levels_ladder_3d.toml", waist="100 um", density="1e10 cm^-3", length="1 mm")
     assert out["resonance"]["line"] == "1s-2p" and out["probability_peak"] < 1e-8
