@@ -231,7 +231,8 @@ class OutputConfig(_Section):
 
 class RunConfig(_Section):
     """A whole run: ``[atom]``, optional ``[fields]``, ``[[pulse]]``, ``[solver]``, ``[output]``,
-    optional ``[scan]`` and ``[cluster]`` (checked by the campaign)."""
+    optional ``[scan]`` and ``[cluster]`` (checked by the campaign) and ``[lab]`` (the lab numbers of
+    ``driven-atom estimate``, checked by :mod:`driven_atom.lab`; a run does not use them)."""
 
     atom: AtomConfig
     fields: FieldsConfig = Field(default_factory=FieldsConfig)
@@ -240,6 +241,7 @@ class RunConfig(_Section):
     output: OutputConfig = Field(default_factory=OutputConfig)
     scan: dict[str, Any] | None = None
     cluster: dict[str, Any] | None = None
+    lab: dict[str, Any] | None = None
     _source: dict = PrivateAttr(default_factory=dict)
 
     @model_validator(mode="wrap")
