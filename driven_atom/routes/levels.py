@@ -22,8 +22,9 @@ Dissipation (Lindblad form, Gorini–Kossakowski–Sudarshan 1976; Lindblad 1976
 * ``dephasing`` γ: operators √γ P_E (projector on all sublevels of one energy); every coherence
   between sublevels of different energy decays at the rate γ (a rate: "1 GHz" means 1e9 s⁻¹).
 * ``ionization_loss``: each sublevel j is emptied into the sink ``"ionized"`` at the rate
-  σ_nl(ω) I(t)/ω of each pulse, with the m-averaged cross section of
-  :func:`driven_atom.atom.photoionization.cross_section` at the carrier ω and the cycle-averaged
+  σ_j(ω) I(t)/ω of each pulse, with the sublevel's own cross section for that light
+  (:func:`driven_atom.atom.photoionization.cross_section_sublevel`, its polarisation's spherical
+  components weighted) at the carrier ω and the cycle-averaged
   intensity I(t) = c|ℰ(t)|²/(8π) (a.u.). The sink populations and the model add up to 1 (``norm``).
 
 Real level structure (``[atom] structure`` = "fine" or "hyperfine", or ``two_photon``; docs/physics.md):
@@ -250,18 +251,28 @@ def _full_terms(model: LevelModel, pulse) -> FieldTerms:
     return FieldTerms(hamiltonian, [], values, len(active), top, [], [])
 
 
-def _add_ionization(terms: FieldTerms, model: LevelModel, atom, pulse) -> None:
-    """Loss of every sublevel j to "ionized" at σ_j(ω_k) c|ℰ_k|²/(8π ω_k) for each pulse k."""
-    from driven_atom.atom.photoionization import cross_section
+def sublevel_cross_sections(atom, states, comp) -> list[float]:
+    """σ_j(ω) of each sublevel |n l m⟩ for the light of one pulse component: the m-resolved cross
+    sections of its spherical components q, weighted by |e_q|²/|ε|² (linear z light: q = 0 only;
+    the m-average of these is the level's σ of :func:`~driven_atom.atom.photoionization.cross_section`)."""
+    from driven_atom.atom.photoionization import cross_section_sublevel
 
+    e_q = spherical_coefficients(comp.jones)
+    weights = np.abs(e_q) ** 2 / float(np.sum(np.abs(e_q) ** 2))
+    return [float(sum(w * cross_section_sublevel(atom, s, comp.omega, q)
+                      for w, q in zip(weights, (-1, 0, 1)) if w > 0)) for s in states]
+
+
+def _add_ionization(terms: FieldTerms, model: LevelModel, atom, pulse) -> None:
+    """Loss of every sublevel j to "ionized" at σ_j(ω_k) c|ℰ_k|²/(8π ω_k) for each pulse k, with the
+    sublevel's own cross section for that light (:func:`sublevel_cross_sections`)."""
     sink = model.labels.index(IONIZED)
     base_values, base_rows = terms.values, terms.n_rows
     pulses = []
     for k, comp in enumerate(pulse.components):
         if comp.omega == 0:
             continue
-        per_level = {s.level: float(cross_section(atom, s.n, s.l, comp.omega)) for s in model.states}
-        sigma = [per_level[s.level] for s in model.states]
+        sigma = sublevel_cross_sections(atom, model.states, comp)
         ops = []
         for j, sj in enumerate(sigma):
             if sj > 0:
