@@ -254,13 +254,20 @@ def _full_terms(model: LevelModel, pulse) -> FieldTerms:
 def sublevel_cross_sections(atom, states, comp) -> list[float]:
     """σ_j(ω) of each sublevel |n l m⟩ for the light of one pulse component: the m-resolved cross
     sections of its spherical components q, weighted by |e_q|²/|ε|² (linear z light: q = 0 only;
-    the m-average of these is the level's σ of :func:`~driven_atom.atom.photoionization.cross_section`)."""
-    from driven_atom.atom.photoionization import cross_section_sublevel
+    the m-average of these is the level's σ of :func:`~driven_atom.atom.photoionization.cross_section`).
+    Fine and hyperfine components (|n l j m_j⟩, |F m_F⟩) take their level's m-averaged σ."""
+    from driven_atom.atom.photoionization import cross_section, cross_section_sublevel
 
     e_q = spherical_coefficients(comp.jones)
     weights = np.abs(e_q) ** 2 / float(np.sum(np.abs(e_q) ** 2))
-    return [float(sum(w * cross_section_sublevel(atom, s, comp.omega, q)
-                      for w, q in zip(weights, (-1, 0, 1)) if w > 0)) for s in states]
+
+    def sigma(s) -> float:
+        if not isinstance(s, State) or s.m is None:    # a fine/hyperfine component: the level's σ
+            return float(cross_section(atom, s.n, s.l, comp.omega))
+        return float(sum(w * cross_section_sublevel(atom, s, comp.omega, q)
+                         for w, q in zip(weights, (-1, 0, 1)) if w > 0))
+
+    return [sigma(s) for s in states]
 
 
 def _add_ionization(terms: FieldTerms, model: LevelModel, atom, pulse) -> None:
