@@ -30,7 +30,7 @@ import numpy as np
 
 from driven_atom.atom import Atom
 from driven_atom.basis.radial_grid import uniform_grid
-from driven_atom.engines import grid
+from driven_atom.routes import grid
 
 N, L, DR, DT = 4000, 40, 0.1, 0.05
 ATOM = Atom(1)
