@@ -37,10 +37,10 @@ Both kernels write the result y over the state (row i of the right-hand side nee
 that writes one row of an (N, L) array and reads other rows of the same array stays scalar (the
 compiler hoists its overlap test out of the row loop, where it fails), so the forward sweep writes
 yᵢ into a scratch row and copies it (:func:`_forward_inplace`). The backward sweep substitutes
-and, row by row while the row is in cache, applies the closing rotations of this step (B then A),
-the edge mask, the per-step observables and the opening rotations of the next step (A then B).
-The rotation angle is linear in r, so the rotors cos θ + i sin θ follow a complex-multiply
-recurrence along r, re-seeded exactly every ``RESEED`` rows. No kernel allocates;
+(:func:`_back_substitute`) and, row by row while the row is in cache, applies the closing rotations
+of this step (B then A), the edge mask, the per-step observables and the opening rotations of the
+next step (A then B). The rotation angle is linear in r, so the rotors cos θ + i sin θ follow a
+complex-multiply recurrence along r, re-seeded exactly every ``RESEED`` rows. No kernel allocates;
 :mod:`driven_atom.routes.grid` validates, allocates, stacks and converts layouts.
 """
 from __future__ import annotations
@@ -294,6 +294,22 @@ def _forward_inplace(psi, thomas, rows, cols, consts, j0, j1, carry):
             xi[j] = si[j]
 
 
+@njit(cache=True, fastmath=False, inline="always")   # LLVM would not inline it into a prange body
+def _back_substitute(xr, xi, cpr, cpi, car, cai):
+    """One row of the backward sweep ψ′ᵢ = yᵢ − c′ᵢ ψ′ᵢ₊₁ over row slices: ``xr`` + i``xi`` holds
+    yᵢ and receives ψ′ᵢ, ``cpr`` + i``cpi`` = c′ᵢ, the carry ``car`` + i``cai`` holds ψ′ᵢ₊₁ (zero
+    below the last row) and receives ψ′ᵢ."""
+    for j in range(xr.shape[0]):
+        ar = car[j]
+        ai = cai[j]
+        vr = xr[j] - (cpr[j] * ar - cpi[j] * ai)
+        vi = xi[j] - (cpr[j] * ai + cpi[j] * ar)
+        car[j] = vr
+        cai[j] = vi
+        xr[j] = vr
+        xi[j] = vi
+
+
 @njit(cache=True, fastmath=False)
 def _row_observables(xr, xi, ne, ca, cb):
     """(Σ|u|², Σ_l 2c_l Re(u*_l u_{l+1})) of one row in the even/odd column order."""
@@ -353,17 +369,7 @@ def propagate_chunk(psi, thomas, rows, cols, consts, coupling, fields, mask, i_a
             ri = (i + 1) * dr
             xr = pr[i]
             xi = pi[i]
-            c0r = cr[i]
-            c0i = ci[i]
-            for j in range(nl):
-                ar = car[j]
-                ai = cai[j]
-                vr = xr[j] - (c0r[j] * ar - c0i[j] * ai)
-                vi = xi[j] - (c0r[j] * ai + c0i[j] * ar)
-                car[j] = vr
-                cai[j] = vi
-                xr[j] = vr
-                xi[j] = vi
+            _back_substitute(xr, xi, cr[i], ci[i], car, cai)
             reseed = (n - 1 - i) % RESEED == 0
             if reseed:
                 _seed(rot[0], rot[1], e_now, h, ri, cb)
@@ -470,24 +476,12 @@ def propagate_chunk_parallel(psi, thomas, rows, cols, consts, coupling, fields, 
             _forward_inplace(psi, thomas, rows, cols, consts, j0, j1, cy)
             car = cy[0]
             cai = cy[1]
-            m = j1 - j0
-            for j in range(m):
+            for j in range(j1 - j0):
                 car[j] = 0.0
                 cai[j] = 0.0
             for i in range(n - 1, -1, -1):
-                xr = psi[0, i, j0:j1]
-                xi = psi[1, i, j0:j1]
-                c0r = thomas[2, i, j0:j1]
-                c0i = thomas[3, i, j0:j1]
-                for j in range(m):
-                    ar = car[j]
-                    ai = cai[j]
-                    vr = xr[j] - (c0r[j] * ar - c0i[j] * ai)
-                    vi = xi[j] - (c0r[j] * ai + c0i[j] * ar)
-                    car[j] = vr
-                    cai[j] = vi
-                    xr[j] = vr
-                    xi[j] = vi
+                _back_substitute(psi[0, i, j0:j1], psi[1, i, j0:j1], thomas[2, i, j0:j1],
+                                 thomas[3, i, j0:j1], car, cai)
 
 
 @njit(cache=True, fastmath=False)
