@@ -47,15 +47,9 @@ from __future__ import annotations
 
 import math
 
-import numba
 from numba import njit, prange
 
 RESEED = 128                      # rows between exact re-seeds of the rotor recurrence
-
-# Threads for the optional parallel path: workqueue needs no TBB/OpenMP and is enough for a
-# bandwidth-bound step (set before any parallel kernel is compiled or run).
-if numba.config.THREADING_LAYER == "default":
-    numba.config.THREADING_LAYER = "workqueue"
 
 
 @njit(cache=True, fastmath=False)

@@ -40,6 +40,7 @@ arrays bit for bit equal to an uninterrupted one.
 from __future__ import annotations
 
 import math
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
@@ -350,12 +351,33 @@ class _Stepper:
         if self.threads == 1:
             self.kernels.propagate_chunk(*args, out)
         else:
-            import numba
-
-            numba.set_num_threads(min(self.threads, numba.config.NUMBA_NUM_THREADS))
             partial = np.zeros((fields.size, self.scratch[1].shape[0], 3))
-            self.kernels.propagate_chunk_parallel(*args, partial, self.rblock)
+            with _numba_threads(self.threads):
+                self.kernels.propagate_chunk_parallel(*args, partial, self.rblock)
             self.kernels.reduce_partial(partial, out)
+
+
+@contextmanager
+def _numba_threads(threads: int):
+    """Run numba's parallel kernels on ``threads`` threads (at most NUMBA_NUM_THREADS) and restore
+    the previous count afterwards.
+
+    If the process has chosen no threading layer and none is running yet, this picks workqueue:
+    it needs no TBB/OpenMP and is enough for a bandwidth-bound step. A layer already chosen or
+    running is left alone (it cannot change once started)."""
+    import numba
+
+    try:
+        numba.threading_layer()
+    except ValueError:                           # not started: the choice is still open
+        if numba.config.THREADING_LAYER == "default":
+            numba.config.THREADING_LAYER = "workqueue"
+    before = numba.get_num_threads()             # starts the layer
+    numba.set_num_threads(min(threads, numba.config.NUMBA_NUM_THREADS))
+    try:
+        yield
+    finally:
+        numba.set_num_threads(before)
 
 
 def _initial_psi(initial, bound, n, n_l) -> np.ndarray:
