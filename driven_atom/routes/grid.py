@@ -40,6 +40,7 @@ arrays bit for bit equal to an uninterrupted one.
 from __future__ import annotations
 
 import math
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
@@ -299,9 +300,10 @@ def coupling_coefficients(l_max: int) -> np.ndarray:
 
 
 class _Stepper:
-    """The propagation state and its arrays, prepared once: operators, Thomas factors, mask,
-    scratch. It holds the state in the kernels' layout (real and imaginary parts, columns even l
-    then odd l); :meth:`state` and :meth:`set_state` convert exactly (no arithmetic)."""
+    """The propagation state and its arrays, prepared and stacked once in the kernels' layout
+    (:mod:`driven_atom.routes._grid_kernels`): state, Thomas factors, operators, mask, scratch. The
+    state is held as real and imaginary parts, columns even l then odd l; :meth:`state` and
+    :meth:`set_state` convert exactly (no arithmetic)."""
 
     def __init__(self, grid, atom, n_l: int, dt: float, mask, threads: int):
         from driven_atom.basis.radial_grid import numerov_operators
@@ -320,79 +322,96 @@ class _Stepper:
         r = grid.r
         mu = atom.reduced_mass
         cent = np.array([l * (l + 1) / (2 * mu) for l in range(n_l)])
-        self.a = dict(m_diag=ref.m_diag.copy(), m_off=ref.m_off.copy(), d_diag=ref.d_diag.copy(),
-                      d_off=ref.d_off.copy(),
-                      m_first=np.array([o.m_diag[0] for o in ops])[self.order].copy(),
-                      d_first=np.array([o.d_diag[0] for o in ops])[self.order].copy(),
-                      cent=cent[self.order].copy(), coul=-atom.Z / r, invr2=1.0 / r**2)
-        self.tau = 0.5 * dt
-        self.inv2mu = 0.5 / mu
-        self.dr = grid.dr
+        self.rows = np.zeros((6, n))                 # off-diagonals padded with a zero
+        self.cols = np.zeros((3, n_l))
+        self.a = a = dict(m_diag=self.rows[0], d_diag=self.rows[1], coul=self.rows[2], invr2=self.rows[3],
+                          m_off=self.rows[4, :-1], d_off=self.rows[5, :-1],
+                          m_first=self.cols[0], d_first=self.cols[1], cent=self.cols[2])   # named views
+        a["m_diag"][:], a["d_diag"][:] = ref.m_diag, ref.d_diag
+        a["m_off"][:], a["d_off"][:] = ref.m_off, ref.d_off
+        a["coul"][:], a["invr2"][:] = -atom.Z / r, 1.0 / r**2
+        a["m_first"][:] = np.array([o.m_diag[0] for o in ops])[self.order]
+        a["d_first"][:] = np.array([o.d_diag[0] for o in ops])[self.order]
+        a["cent"][:] = cent[self.order]
+        self.consts = np.array([0.5 * dt, 0.5 / mu, grid.dr])     # tau, 1/(2 mu), dr
         c = coupling_coefficients(n_l - 1)
-        ne = (n_l + 1) // 2
-        self.ca = c[0:2 * (n_l // 2):2].copy()          # pairs (2p, 2p+1)
-        self.cb = c[1:2 * (ne - 1):2].copy()            # pairs (2p+1, 2p+2)
+        na, nb = n_l // 2, (n_l + 1) // 2 - 1
+        p = max(1, na, nb)
+        self.coupling = np.zeros((2, p))
+        self.coupling[0, :na] = c[0:2 * na:2]        # pairs (2p, 2p+1)
+        self.coupling[1, :nb] = c[1:2 * nb:2]        # pairs (2p+1, 2p+2)
         self.mask = np.ascontiguousarray(mask, dtype=float)
         below = np.nonzero(self.mask < 1.0)[0]
         self.i_abs = int(below[0]) if below.size else n
-        shape = (n, n_l)
-        self.wr, self.wi, self.cr, self.ci = (np.zeros(shape) for _ in range(4))
+        self.thomas = np.zeros((4, n, n_l))
         self.refactor()
-        self.pr, self.pi = np.zeros(shape), np.zeros(shape)
+        self.psi = np.zeros((2, n, n_l))
         self.threads = threads
-        p = max(1, self.ca.size, self.cb.size)
-        self.stp = np.zeros((8, p))
+        stp = np.zeros((8, p))
         if threads == 1:
-            self.carry = np.zeros((6, n_l))
-            self.rot = np.zeros((8, p))
+            self.scratch = (np.zeros((6, n_l)), np.zeros((8, p)), stp)
         else:
-            self.cblock = -(-n_l // threads)          # one block of partial waves per thread
+            cblock = -(-n_l // threads)               # one block of partial waves per thread
             self.rblock = 64
             nrb = -(-n // self.rblock)
-            self.carry = np.zeros((-(-n_l // self.cblock), 6, self.cblock))
-            self.rot = np.zeros((nrb, 8, p))
+            self.scratch = (np.zeros((-(-n_l // cblock), 6, cblock)), np.zeros((nrb, 8, p)), stp)
 
     def refactor(self):
-        """(Re)compute the Thomas factors from the arrays in ``self.a`` and ``self.tau``."""
-        a = self.a
-        self.kernels.cn_factorize(a["m_diag"], a["m_off"], a["d_diag"], a["d_off"], a["m_first"],
-                                  a["d_first"], a["cent"], a["coul"], a["invr2"], self.tau,
-                                  self.inv2mu, self.wr, self.wi, self.cr, self.ci)
+        """(Re)compute the Thomas factors from ``rows``, ``cols`` and ``consts``."""
+        self.kernels.cn_factorize(self.rows, self.cols, self.consts, self.thomas)
 
     def set_state(self, psi):
         """Load ψ[i, l] (complex, natural l order)."""
-        self.pr[:] = psi.real[:, self.order]
-        self.pi[:] = psi.imag[:, self.order]
+        self.psi[0] = psi.real[:, self.order]
+        self.psi[1] = psi.imag[:, self.order]
 
     def state(self) -> np.ndarray:
         """ψ[i, l] (complex, natural l order), a new array."""
-        psi = np.empty(self.pr.shape, complex)
-        psi.real[:, self.order] = self.pr
-        psi.imag[:, self.order] = self.pi
+        psi = np.empty(self.psi.shape[1:], complex)
+        psi.real[:, self.order] = self.psi[0]
+        psi.imag[:, self.order] = self.psi[1]
         return psi
 
     def column(self, l: int) -> np.ndarray:
         """u_l(r_i) as a complex vector."""
         j = self.column_of[l]
-        return self.pr[:, j] + 1j * self.pi[:, j]
+        return self.psi[0, :, j] + 1j * self.psi[1, :, j]
 
     def run(self, fields, out):
         """Advance the state by len(fields) steps; ``out`` (k, 3) gets norm, ⟨z⟩, ⟨cosθ/r²⟩."""
-        a = self.a
         fields = np.ascontiguousarray(fields, dtype=float)
-        args = (self.wr, self.wi, self.cr, self.ci, a["m_diag"], a["m_off"], a["d_diag"], a["d_off"],
-                a["m_first"], a["d_first"], a["cent"], a["coul"], a["invr2"], self.tau, self.inv2mu,
-                self.dr, self.ca, self.cb, fields, self.mask, self.i_abs, self.carry, self.rot, self.stp)
+        args = (self.psi, self.thomas, self.rows, self.cols, self.consts, self.coupling, fields,
+                self.mask, self.i_abs, self.scratch)
         if self.threads == 1:
-            self.kernels.propagate_chunk(self.pr, self.pi, *args, out)
+            self.kernels.propagate_chunk(*args, out)
         else:
-            import numba
-
-            numba.set_num_threads(min(self.threads, numba.config.NUMBA_NUM_THREADS))
-            partial = np.zeros((fields.size, self.rot.shape[0], 3))
-            self.kernels.propagate_chunk_parallel(self.pr, self.pi, *args, partial, self.cblock,
-                                                  self.rblock)
+            partial = np.zeros((fields.size, self.scratch[1].shape[0], 3))
+            with _numba_threads(self.threads):
+                self.kernels.propagate_chunk_parallel(*args, partial, self.rblock)
             self.kernels.reduce_partial(partial, out)
+
+
+@contextmanager
+def _numba_threads(threads: int):
+    """Run numba's parallel kernels on ``threads`` threads (at most NUMBA_NUM_THREADS) and restore
+    the previous count afterwards.
+
+    If the process has chosen no threading layer and none is running yet, this picks workqueue:
+    it needs no TBB/OpenMP and is enough for a bandwidth-bound step. A layer already chosen or
+    running is left alone (it cannot change once started)."""
+    import numba
+
+    try:
+        numba.threading_layer()
+    except ValueError:                           # not started: the choice is still open
+        if numba.config.THREADING_LAYER == "default":
+            numba.config.THREADING_LAYER = "workqueue"
+    before = numba.get_num_threads()             # starts the layer
+    numba.set_num_threads(min(threads, numba.config.NUMBA_NUM_THREADS))
+    try:
+        yield
+    finally:
+        numba.set_num_threads(before)
 
 
 def _initial_psi(initial, bound, n, n_l) -> np.ndarray:
