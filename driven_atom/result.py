@@ -12,6 +12,22 @@ HDF5 layout of a result file (``NAME.h5``)::
     /history/series/<name>       other sampled series (norm, ionization, dipole_z, ...)
     /spectra/<name>/<array>      spectra, each a group of named arrays with a "units" attribute
 
+Spectra (the names and units every route uses; :data:`SPECTRUM_UNITS` is the one table):
+
+* ``photoelectrons`` — ``energy_eV`` (eV), ``dP_dE`` (per eV) and, where the route resolves
+  angles, ``beta`` (row K − 1 holds β_K over the same energies; ``beta_order`` = 1, 2, …;
+  d²P/dE dΩ = (dP/dE)/4π · [1 + Σ_K β_K P_K(cos θ)]), ``angle_deg`` (θ from the polarisation axis),
+  ``d2P_dE_dOmega`` (per eV per sr, one column per angle), ``momentum_z``, ``momentum_x`` (a.u.,
+  along and across the polarisation) and ``momentum_density`` (d³P/dp³ in a.u., rows p_x, columns
+  p_z); the basis route adds ``dP_dE_l`` (per eV, one row per partial wave). A run asking for
+  several methods stores the first as ``photoelectrons`` and the others as
+  ``photoelectrons_<method>`` (metadata ``photoelectron_methods`` lists them in order).
+* ``harmonics`` — ``order`` (ω/ω₀ of the first pulse), ``photon_energy_eV`` (eV), ``power``
+  (|ã(ω)|² of the dipole acceleration, a.u.), ``power_dipole`` (ω⁴|d̃|²), ``power_velocity``
+  (ω²|ṽ|²) and ``cutoff_order`` ((Iₚ + 3.17 Uₚ)/ω₀, one number).
+* ``dipole_response`` — per time step: ``time`` (a.u.), ``dipole_z`` (bohr), ``velocity_z`` and
+  ``acceleration_z`` (a.u.).
+
 A run's checkpoint lives in a file of its own, ``NAME.ckpt.h5`` (group ``/checkpoint``), so a
 complete result is never rewritten by a run that resumes or repeats it.
 
@@ -43,7 +59,7 @@ class Result:
 
     ``populations`` are final probabilities by state label (m-resolved and m-summed labels, as
     the route provides them); ``history_populations[label]`` and ``series[name]`` are sampled at
-    ``times``; ``spectra[name]`` is a dict of arrays (e.g. ``{"energy": ..., "dP_dE": ...}``).
+    ``times``; ``spectra[name]`` is a dict of arrays (names and units in the module docstring).
     """
 
     route: str
@@ -67,6 +83,23 @@ class Result:
         return (f"Result(route={self.route!r}, ionization={self.ionization:.6g}, norm={self.norm:.10g}, "
                 f"{len(self.populations)} populations, {len(self.times)} samples, "
                 f"spectra={sorted(self.spectra)}{flag}" + (f", file={where!r}" if where else "") + ")")
+
+
+SPECTRUM_UNITS = {
+    "energy_eV": "eV", "dP_dE": "1/eV", "dP_dE_l": "1/eV", "beta": "1", "beta_order": "1", "angle_deg": "deg",
+    "d2P_dE_dOmega": "1/(eV sr)", "momentum_z": "au", "momentum_x": "au", "momentum_density": "au",
+    "order": "1", "photon_energy_eV": "eV", "power": "au", "power_dipole": "au", "power_velocity": "au",
+    "cutoff_order": "1", "time": "au", "dipole_z": "bohr", "velocity_z": "au", "acceleration_z": "au",
+}
+
+
+def spectrum_units(key: str) -> str:
+    """The units of a spectrum array by its name (:data:`SPECTRUM_UNITS`; "au" for others).
+
+    >>> spectrum_units("dP_dE"), spectrum_units("omega")
+    ('1/eV', 'au')
+    """
+    return SPECTRUM_UNITS.get(key, "au")
 
 
 @lru_cache(maxsize=1)
@@ -132,7 +165,7 @@ def _write_body(f, result: Result) -> None:
     for name, arrays in result.spectra.items():
         g = spec.create_group(name)
         for key, values in arrays.items():
-            g.create_dataset(key, data=np.asarray(values))
+            g.create_dataset(key, data=np.asarray(values)).attrs["units"] = spectrum_units(key)
 
 
 def digest(parts) -> str:

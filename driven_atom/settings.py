@@ -216,19 +216,44 @@ class GridSettings(RouteSettings):
     mask_power: Number(gt=0, le=2) = Field(0.125, description=(
         "exponent p of the cos^p mask per 0.05 au of time (each step applies cos^(p·dt/0.05): "
         "dt-independent absorption)"))
-    gauge: Literal["length"] = Field("length", description="interaction gauge (length: E(t)·z)")
+    gauge: Literal["length", "velocity"] = Field("length", description=(
+        "coupling: E(t)·z (length) or A(t)·p/μ (velocity, the A²/2μ term removed as a phase); the "
+        "velocity gauge needs fewer partial waves in infrared fields"))
     label_n_max: Integer(ge=1, le=30) = Field(4, description=(
         "bound states with n <= label_n_max get their own population label"))
     checkpoint_every: CheckpointCadence(steps_allowed=True) = Field(
         Cadence(seconds=60.0), description="checkpoint interval: wall-clock time with units "
                                            "(\"60 s\", \"10 min\") or a whole number of time steps")
-    photoelectron: Flag = Field(False, description=(
-        "photoelectron spectrum of the final state by the window operator (Schafer & Kulander 1990); "
-        "meaningful when the electrons are still inside the box (absorbed ones are missing)"))
+    photoelectron_methods: list[Literal["surface_flux", "window", "projection"]] = Field(
+        default_factory=list, description=(
+            'photoelectron spectra to compute, each angle-resolved (dP/dE, β_k, d²P/dE dΩ, the momentum '
+            'map): "surface_flux" (the flux through the sphere `surface_radius` projected on Volkov waves '
+            'while the run goes on; Tao & Scrinzi 2012; needs gauge = "velocity"), "window" (window '
+            'operator on the final state; Schafer & Kulander 1990), "projection" (the final state on '
+            'the field-free continuum of the grid, Coulomb phases); the first is stored as '
+            '"photoelectrons", the others as "photoelectrons_<method>"'))
+    photoelectron_e_min: Quantity("energy", gt=0) | None = Field(None, description=(
+        "lowest photoelectron energy (the slowest electrons of interest; default: the spacing "
+        "photoelectron_e_max / photoelectron_points)"))
     photoelectron_e_max: Quantity("energy", gt=0) | None = Field(None, description=(
         "highest photoelectron energy; default E_max of the grid defaults"))
     photoelectron_points: Integer(ge=2, le=100_000) = Field(200, description=(
-        "number of energies; the window half-width is half their spacing"))
+        "number of energies, evenly spaced from photoelectron_e_min to photoelectron_e_max"))
+    photoelectron_angles: Integer(ge=4, le=2000) | None = Field(None, description=(
+        "emission angles: Gauss–Legendre nodes in cos θ (θ from the polarisation axis); default "
+        "2 l_max + 2, which integrates the angular distribution of l ≤ l_max exactly"))
+    momentum_map_points: Integer(ge=11, le=2001) = Field(101, description=(
+        "points per axis of the momentum map d³P/dp³ in the polarisation plane (p_z along the "
+        "polarisation, p_x across it)"))
+    surface_radius: Quantity("length", gt=0) | None = Field(None, description=(
+        "radius of the flux sphere of \"surface_flux\" (bohr); beyond it the potential is tapered to "
+        "zero and the box only absorbs; default 5 quiver radii + 20 bohr, at least 40 n²/(Zμ)"))
+    after: Quantity("time", ge=0) | None = Field(None, description=(
+        "field-free time after the pulse (the electrons leave the atom; the flux keeps being "
+        "counted); default: with \"surface_flux\", the time electrons of photoelectron_e_min need "
+        "to reach surface_radius, else 0"))
+    harmonic_window: Literal["hann", "blackman", "none"] = Field("hann", description=(
+        "window on the dipole, velocity and acceleration records before their Fourier transform"))
     threads: Integer(ge=1, le=256) = Field(1, description=(
         "threads for the step (1: the fused single-core kernel; more: the unfused parallel kernel, "
         "which pays little: the step is bandwidth-bound, run jobs side by side instead)"))
@@ -236,7 +261,44 @@ class GridSettings(RouteSettings):
     @model_validator(mode="before")
     @classmethod
     def _old_names(cls, data):
-        return _renamed(data, "n_max", "label_n_max", "grid")
+        data = _renamed(data, "n_max", "label_n_max", "grid")
+        if isinstance(data, dict) and "photoelectron" in data:     # the old switch of the window spectrum
+            if "photoelectron_methods" in data:
+                raise ValueError("`solver.photoelectron` is the old form of `solver.photoelectron_methods`; "
+                                 "give only `photoelectron_methods`")
+            warnings.warn('`solver.photoelectron` is deprecated on route \'grid\': write '
+                          '`solver.photoelectron_methods = ["window"]`', ConfigWarning, stacklevel=2)
+            data = dict(data)
+            flag = data.pop("photoelectron")
+            if not isinstance(flag, bool):
+                raise ValueError(f"`solver.photoelectron` must be true or false, got {flag!r}")
+            data["photoelectron_methods"] = ["window"] if flag else []
+        return data
+
+    @field_validator("photoelectron_methods")
+    @classmethod
+    def _distinct(cls, value):
+        if len(set(value)) != len(value):
+            raise ValueError(f"`solver.photoelectron_methods` lists a method twice: {value}")
+        return value
+
+    @model_validator(mode="after")
+    def _flux_needs_velocity(self):
+        if "surface_flux" in self.photoelectron_methods and self.gauge != "velocity":
+            raise ValueError('`solver.photoelectron_methods` "surface_flux" needs `solver.gauge` = "velocity" '
+                             "(Volkov waves at the surface; the length gauge would need l ~ A·R there)")
+        if self.gauge == "velocity" and self.threads != 1:
+            raise ValueError('`solver.threads` > 1 runs the length-gauge kernel only; give threads = 1 with '
+                             '`solver.gauge` = "velocity" (run jobs side by side instead)')
+        if (self.photoelectron_e_min is not None and self.photoelectron_e_max is not None
+                and self.photoelectron_e_min >= self.photoelectron_e_max):
+            raise ValueError("`solver.photoelectron_e_min` must be below `solver.photoelectron_e_max`")
+        return self
+
+    @property
+    def photoelectron(self) -> bool:
+        """Whether any photoelectron spectrum is asked for."""
+        return bool(self.photoelectron_methods)
 
 
 SETTINGS: dict[str, type[RouteSettings]] = {"levels": LevelsSettings, "basis": BasisSettings,

@@ -79,7 +79,8 @@ TYPED = {
     "l_max": st.integers(0, 80), "e_max": _quantity(["eV", "au"], -1, 2), "dt": _quantity(["au"], -3, 0.5),
     "absorber_width": _quantity(["bohr"], -1, 2.3), "tolerance": st.floats(1e-12, 1e-3),
     "checkpoint_every": st.sampled_from(["1 s", "1 min", 10, 1]), "threads": st.integers(1, 2),
-    "photoelectron": st.booleans(), "gauge": st.sampled_from(["length", "velocity"]),
+    "photoelectron_methods": st.lists(st.sampled_from(["surface_flux", "window", "projection"]), max_size=2),
+    "gauge": st.sampled_from(["length", "velocity"]),
     "label_n_max": st.integers(1, 8), "n_max": st.integers(1, 12), "every": _quantity(["fs", "au"], -1, 3),
     "error_estimate": st.booleans(), "r_maxx": st.integers(1, 10),
 }
@@ -87,7 +88,7 @@ PULSE_KEYS = ["wavelength", "photon_energy", "intensity", "peak_field", "cycles"
               "ramp", "delay", "chirp", "cep", "polarization", "ellipticity"]
 ROUTE_KEYS = {"levels": ["states", "rwa", "after", "nsteps", "rtol"],
               "basis": ["r_max", "dr", "l_max", "e_max", "tolerance", "gauge", "n_max", "r_maxx"],
-              "grid": ["r_max", "dr", "l_max", "dt", "absorber_width", "checkpoint_every", "threads", "photoelectron",
+              "grid": ["r_max", "dr", "l_max", "dt", "absorber_width", "checkpoint_every", "threads", "photoelectron_methods",
                        "label_n_max", "gauge", "r_maxx"]}
 
 

@@ -24,11 +24,34 @@ def run(pulse, solver, atom=Atom(1), initial=None, every=None):
     return propagate(atom, pulse, settings, initial=initial, output=OutputConfig(every=every))
 
 
-def test_settings_reject_velocity_gauge_in_one_line():
-    with pytest.raises(InputError, match=r"^`solver.gauge`: Input should be 'length'") as err:
+def test_settings_reject_an_unknown_gauge_in_one_line():
+    with pytest.raises(InputError, match=r"^`solver.gauge`: Input should be 'length' or 'velocity'") as err:
         load_config({"atom": {"Z": 1}, "pulse": [{"wavelength": "800 nm", "peak_field": 0.01, "cycles": 2}],
-                     "solver": {"route": "grid", "gauge": "velocity"}})
+                     "solver": {"route": "grid", "gauge": "acceleration"}})
     assert "\n" not in str(err.value)
+
+
+@pytest.mark.parametrize("solver, key", [
+    ({"gauge": "length", "photoelectron_methods": ["surface_flux"]}, "solver.gauge"),
+    ({"gauge": "velocity", "threads": 2}, "solver.threads"),
+    ({"photoelectron_methods": ["window", "window"]}, "solver.photoelectron_methods"),
+    ({"photoelectron_methods": ["flux"]}, "solver.photoelectron_methods"),
+    ({"photoelectron_e_min": "2 hartree", "photoelectron_e_max": "1 hartree"}, "solver.photoelectron_e_min"),
+    ({"surface_radius": -3}, "solver.surface_radius"),
+    ({"after": "-1 fs"}, "solver.after"),
+    ({"harmonic_window": "kaiser"}, "solver.harmonic_window"),
+])
+def test_strong_field_keys_are_refused_in_one_line(solver, key):
+    with pytest.raises(InputError) as err:
+        load_config({"atom": {"Z": 1}, "pulse": [{"wavelength": "800 nm", "peak_field": 0.01, "cycles": 2}],
+                     "solver": {"route": "grid", **solver}})
+    assert key in str(err.value) and "\n" not in str(err.value)
+
+
+def test_velocity_gauge_refuses_a_static_field():
+    with pytest.raises(InputError, match="solver.gauge.*static"):
+        load_config({"atom": {"Z": 1}, "pulse": [{"envelope": "static", "peak_field": 0.01, "ramp": 10, "length": 50}],
+                     "solver": {"route": "grid", "gauge": "velocity"}})
 
 
 def test_settings_unknown_key_suggests_the_right_one():
@@ -115,7 +138,7 @@ def test_result_holds_the_common_fields():
     for v in list(res.series.values()) + list(res.history_populations.values()):
         assert v.shape == res.times.shape
     assert res.times[0] == p.t_start and math.isclose(res.times[-1], p.t_end, rel_tol=1e-12)
-    assert set(res.spectra) == {"harmonic", "dipole_response"}
+    assert set(res.spectra) == {"harmonics", "dipole_response"}
     assert res.spectra["dipole_response"]["dipole_z"].size == res.stats["steps"]
     assert math.isclose(res.ionization, res.series["ionization"][-1], rel_tol=1e-15)
     assert 0 < res.ionization < 1

@@ -88,7 +88,7 @@ def test_flagged_result_is_complete_but_not_trustworthy(tmp_path):
 
 
 def test_photoelectron_spectrum_in_a_small_box_is_flagged_with_the_box_it_needs(tmp_path):
-    cfg = _cfg({"route": "grid", "r_max": 60, "dr": 0.2, "l_max": 10, "photoelectron": True},
+    cfg = _cfg({"route": "grid", "r_max": 60, "dr": 0.2, "l_max": 10, "photoelectron_methods": ["window"]},
                [{"wavelength": "400 nm", "intensity": "2e13 W/cm^2", "cycles": 6}])
     res = run_config(cfg, tmp_path / "r.h5")
     (check,) = [c for c in res.quality["checks"] if c["name"] == "spectrum_missing_fraction"]
@@ -97,9 +97,9 @@ def test_photoelectron_spectrum_in_a_small_box_is_flagged_with_the_box_it_needs(
 
 @pytest.mark.slow
 def test_default_box_photoelectron_spectrum_holds_the_yield(tmp_path):
-    """800 nm, 1e14 W/cm², 4 cycles, photoelectron = true, r_max not given: the box is sized for the
+    """800 nm, 1e14 W/cm², 4 cycles, photoelectron_methods = ["window"], r_max not given: the box is sized for the
     spectrum, which then holds the yield within 3 %."""
-    cfg = _cfg({"route": "grid", "photoelectron": True})
+    cfg = _cfg({"route": "grid", "photoelectron_methods": ["window"]})
     res = run_config(cfg, tmp_path / "r.h5")
     (check,) = [c for c in res.quality["checks"] if c["name"] == "spectrum_missing_fraction"]
     assert check["level"] == "ok" and abs(check["value"]) < 0.03

@@ -9,17 +9,19 @@ axes as coordinates); every axis coordinate has a ``units`` attribute. Variables
   ``ionization_err``, ``norm_err``, ``population_err`` (NaN where a job asked for none);
 * ``trustworthy`` (1 when every quality check of the job passed, 0 when one flagged);
 * ``job_id`` and ``status`` (scan dims), so every number can be traced to its file;
-* spectra: for ``spectra[NAME] = {AXIS: ..., Y: ...}`` (AXIS one of energy, omega, frequency,
-  order, k) the variable ``NAME_Y`` on (scan dims, ``NAME_AXIS``) when all jobs share one AXIS
-  array, else on (scan dims, ``NAME_index``) with ``NAME_AXIS`` stored beside it (NaN padded).
-  Per-step time series kept with the spectra (an array named ``time``, e.g. the grid route's
-  ``dipole_response``) stay in the job files: they would make the table as large as all jobs.
+* spectra: for ``spectra[NAME] = {AXIS: ..., Y: ...}`` (AXIS one of energy_eV, energy, order,
+  omega, frequency, k) the variable ``NAME_Y`` on (scan dims, ``NAME_AXIS``) when all jobs share one
+  AXIS array, else on (scan dims, ``NAME_index``) with ``NAME_AXIS`` stored beside it (NaN padded);
+  a single number (``harmonics`` ``cutoff_order``) becomes ``NAME_Y`` on the scan dims. Arrays of
+  two or more dimensions (angular distributions, momentum maps) and per-step time series kept with
+  the spectra (an array named ``time``, e.g. the grid route's ``dipole_response``) stay in the job
+  files: they would make the table as large as all jobs.
 
 Grid points whose job is not done hold NaN (``status`` says why); attributes carry provenance
 (versions, host, created), the campaign config text and the job counts.
 
->>> SPECTRUM_AXES[:2]
-('energy', 'omega')
+>>> SPECTRUM_AXES[:3]
+('energy_eV', 'energy', 'order')
 """
 from __future__ import annotations
 
@@ -34,7 +36,7 @@ import numpy as np
 from driven_atom.campaign import store
 from driven_atom.io import atomic_write, write_text
 
-SPECTRUM_AXES = ("energy", "omega", "frequency", "order", "k")
+SPECTRUM_AXES = ("energy_eV", "energy", "order", "omega", "frequency", "k")
 
 
 def _coordinates(plan: dict) -> dict:
@@ -46,32 +48,41 @@ def _coordinates(plan: dict) -> dict:
 
 
 def _spectra_variables(results: dict, index_of: dict, dims: tuple, shape: tuple) -> dict:
-    """Spectrum arrays of all done jobs -> data variables with the spectrum axis as extra dim."""
+    """Spectrum arrays of all done jobs -> data variables with the spectrum axis as extra dim
+    (1-D arrays; on a shared axis only those of its length), or on the scan dims alone (single
+    numbers); arrays of more dimensions stay in the job files."""
+    from driven_atom.result import spectrum_units
+
     names = list(dict.fromkeys(name for r in results.values() for name, arrays in r.spectra.items()
                                if "time" not in arrays))
     out = {}
     for name in names:
-        members = {jid: r.spectra[name] for jid, r in results.items() if name in r.spectra}
+        members = {jid: {k: np.asarray(v) for k, v in r.spectra[name].items()}
+                   for jid, r in results.items() if name in r.spectra}
         keys = list(dict.fromkeys(k for arrays in members.values() for k in arrays))
         axis_key = next((k for k in SPECTRUM_AXES if k in keys), None)
         first = next(iter(members.values()))
         shared = axis_key is not None and all(
             axis_key in a and np.array_equal(a[axis_key], first[axis_key]) for a in members.values())
         extra = f"{name}_{axis_key}" if shared else f"{name}_index"
-        length = len(first[axis_key]) if shared else max(len(np.ravel(v)) for a in members.values() for v in a.values())
-        for key in keys:
+        present = {k: [a[k] for a in members.values() if k in a] for k in keys}
+        scalars = [k for k in keys if all(v.ndim == 0 for v in present[k])]
+        vectors = [k for k in keys if all(v.ndim == 1 for v in present[k])
+                   and (not shared or all(v.size == first[axis_key].size for v in present[k]))]
+        length = len(first[axis_key]) if shared else max((v.size for k in vectors for v in present[k]), default=0)
+        for key in scalars + vectors:
             if shared and key == axis_key:
                 continue
-            dtype = np.result_type(float, *(np.asarray(a[key]).dtype for a in members.values() if key in a))
-            data = np.full(shape + (length,), np.nan, dtype=dtype)
+            scalar = key in scalars
+            dtype = np.result_type(float, *(v.dtype for v in present[key]))
+            data = np.full(shape if scalar else shape + (length,), np.nan, dtype=dtype)
             for jid, arrays in members.items():
                 if key in arrays:
-                    values = np.ravel(np.asarray(arrays[key]))
                     for idx in index_of[jid]:
-                        data[idx + (slice(0, len(values)),)] = values
-            out[f"{name}_{key}"] = (dims + (extra,), data, {"units": "au"})
+                        data[idx if scalar else idx + (slice(0, arrays[key].size),)] = arrays[key]
+            out[f"{name}_{key}"] = (dims if scalar else dims + (extra,), data, {"units": spectrum_units(key)})
         if shared:
-            out[extra] = ((extra,), np.asarray(first[axis_key], dtype=float), {"units": "au"})
+            out[extra] = ((extra,), np.asarray(first[axis_key], dtype=float), {"units": spectrum_units(axis_key)})
     return out
 
 

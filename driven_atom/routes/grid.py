@@ -1,41 +1,56 @@
 """The grid route: split-operator propagation of partial waves on the shared radial grid.
 
 ψ(r, θ, t) = Σ_l u_l(r, t)/r · Y_l0(θ) on r_i = i·dr (:mod:`driven_atom.basis.radial_grid`, the same
-Numerov-corrected H_l as the basis route: one discretisation), length gauge, linear polarisation
-along z (m = 0). One step of length dt with the field E at mid-step (Strang, second order):
+Numerov-corrected H_l as the basis route: one discretisation), linear polarisation along z (m = 0),
+in either gauge (docs/physics.md, "Grid route"):
 
-    U = A·B·C·B·A,  C: Crank–Nicolson for every H_l over dt;  A, B: exact 2×2 rotations
-    exp(−i (dt/2) E r c_l σ_x) on the pairs (l, l+1) with l even (A) and odd (B),
-    c_l = (l+1)/√((2l+1)(2l+3)) (docs/physics.md, "Grid route").
+* ``gauge = "length"``, H = H₀ + E(t) z. One step of length dt with the field E at mid-step
+  (Strang, second order): U = A·B·C·B·A, C Crank–Nicolson for every H_l over dt; A, B exact 2×2
+  rotations exp(−i (dt/2) E r c_l σ_x) on the pairs (l, l+1) with l even (A) and odd (B),
+  c_l = (l+1)/√((2l+1)(2l+3)).
+* ``gauge = "velocity"``, H = H₀ + A(t) p_z/μ (the A²/2μ term is a phase and dropped). On the pair
+  (l, l+1), p_z = −i∂_z is −i c_l [σ_x ⊗ d/dr + iσ_y ⊗ (l+1)/r]; with A at mid-step one step is
+  Q_A R_A Q_B R_B · C · R_B Q_B R_A Q_A, R the 1/r part (exact 2×2 orthogonal rotations, Cayley form)
+  and Q the d/dr part: on s± = (u_l ± u_{l+1})/√2 the Cayley form (M₁ ± βΔ₁/2)⁻¹(M₁ ∓ βΔ₁/2),
+  β = (dt/2)A c_l/μ, of the fourth-order implicit derivative M₁⁻¹Δ₁ (M₁ = tridiag(1, 4, 1)/6,
+  Δ₁ = tridiag(−1, 0, 1)/(2dr); Muller, Laser Phys. 9, 138 (1999)). Its corner rows
+  M₁₁ = M₁_NN = (4 + δ)/6, Δ₁₁ = −Δ₁_NN = δ/(2dr) with δ² + 4δ + 1 = 0, δ = √3 − 2, make M₁⁻¹Δ₁
+  exactly antisymmetric (our derivation: Δ₁M₁ + M₁Δ₁ᵀ = 0 row by row), so every factor is
+  unitary. The velocity gauge needs far fewer partial waves in infrared fields: the length-gauge
+  state carries the factor e^{iA·r}, with l up to A·r.
 
-Both pieces are exactly unitary, so norm is lost only in the absorber at the edge: after each step
+Both steps are exactly unitary, so norm is lost only in the absorber at the edge: after each step
 the wave function is multiplied by the mask cos^(p·dt/Δt_ref)(π/2·(r − r_a)/w) on the outer width w,
 Δt_ref = 0.05 a.u.: the classic cos^(1/8) per step (p = 1/8; Krause, Schafer & Kulander, PRA 45,
-4998 (1992)) at dt = Δt_ref, scaled so that the absorption per unit time does not depend on dt
-(the mask is then the propagator of the imaginary potential −i·p·ln(1/cos(…))/Δt_ref).
+4998 (1992)) at dt = Δt_ref, scaled so that the absorption per unit time does not depend on dt.
+After the pulse the run goes on field free for ``after`` (a.u.), the electrons leaving the atom.
 
 Observables (all in atomic units):
 
 * populations: |⟨φ_nl|u_l⟩|² with φ_nl the grid's own field-free eigenvectors (E < 0), labelled
-  "1s", "1s0", ... for n ≤ ``label_n_max`` (m = 0, so the level and its m = 0 sublevel agree);
-* ``ionization`` = 1 − Σ over *all* bound (E < 0) grid eigenstates of every l ≤ l_max: the norm
-  removed by the absorber counts as ionised, and so does unbound norm still on the grid;
-* series (at the history times): ``norm``, ``ionization``, ``dipole_z`` = ⟨z⟩ and
-  ``acceleration_z`` (Ehrenfest, :func:`driven_atom.observables.harmonics.ehrenfest_acceleration`);
-  ⟨z⟩ and the acceleration are also kept at every step (spectra["dipole_response"]) and give
-  spectra["harmonic"] = {"omega", "power"};
-* optionally (``photoelectron = true``) spectra["photoelectron"] = {"energy", "dP_dE"} of the final
-  state by the window operator (:func:`window_spectrum`).
+  "1s", "1s0", ... for n ≤ ``label_n_max``; in the velocity gauge they are those of the
+  velocity-gauge state, which agree with the length gauge where A = 0 (at the end of the run);
+* ``ionization`` = 1 − Σ over *all* bound (E < 0) grid eigenstates of every l ≤ l_max;
+* series: ``norm``, ``ionization``, ``dipole_z`` = ⟨z⟩ and ``acceleration_z`` (Ehrenfest,
+  :mod:`driven_atom.observables.harmonics`); every step also keeps ⟨z⟩, the velocity ⟨p_z + A⟩/μ
+  (velocity gauge; ⟨p_z⟩/μ in the length gauge) and the acceleration (spectra["dipole_response"]),
+  which over the pulse give spectra["harmonics"] in the acceleration, dipole and velocity forms;
+* photoelectron spectra (``photoelectron_methods``), each angle resolved: "surface_flux" (t-SURFF,
+  :mod:`driven_atom.observables.surface_flux`: the five rows around the surface radius R are copied
+  every step and the flux summed while the run goes on; the potential is tapered to zero between
+  R − w and R, w = min(20 bohr, R/4), so beyond R the electron is free), "window" and "projection"
+  (the final state; :mod:`driven_atom.observables.photoelectron`).
 
 Defaults derived from the pulse (documented on :class:`driven_atom.settings.GridSettings` and returned by
 :func:`grid_parameters`): quiver radius α₀ = F/(μω²), Uₚ = F²/(4μω²), highest expected electron
 energy E_max = max(10 Uₚ, 3ω, I_p) and its momentum k_max = √(2μE_max).
 
 Checkpoints (owned by :class:`driven_atom.routes.base.Route`): at deterministic step boundaries
-(history samples and multiples of 256 steps) the state, step index and sampled histories go into
-the run's checkpoint file whenever ``checkpoint_every`` (steps or wall time) has passed, and at a
-stop signal; where checkpoints fall never changes the arithmetic, so a resumed run ends with
-arrays bit for bit equal to an uninterrupted one.
+(history samples and multiples of 256 steps) the state, step index, per-step observables, sampled
+histories and the surface-flux sums go into the run's checkpoint file whenever
+``checkpoint_every`` (steps or wall time) has passed, and at a stop signal; where checkpoints fall
+never changes the arithmetic, so a resumed run ends with arrays bit for bit equal to an
+uninterrupted one.
 """
 from __future__ import annotations
 
@@ -51,12 +66,20 @@ from driven_atom.routes.base import Knob, Outcome, Route
 from driven_atom.routes.quality import assess
 from driven_atom.settings import GridSettings
 
-L_FACTOR = 1.6                # default l_max: this many times the returning angular momentum
+L_FACTOR = {"length": 1.6, "velocity": 0.8}   # default l_max: this many times the returning angular momentum
+L_NEEDED = {"length": 1.0, "velocity": 0.5}   # preflight: l_max below this many times it is flagged
 QUIVER_RADII = 5.0            # default inner box: this many quiver radii + 20 bohr (slow, Rydberg-bound electrons
                               # wander out several quiver radii: at 3 the 800 nm, 1e14 W/cm^2 yield moves ~1 %)
 MASK_DT_REF = 0.05          # a.u. time: the mask exponent p is per this much time
 CHUNK_MAX = 256             # longest kernel call in steps (granularity of checkpoints and stop signals)
 SMALL_GRID = 600            # below this many points the bound states come from the dense solver
+DERIVATIVE_CORNER = math.sqrt(3) - 2   # δ of the corner rows of d/dr (velocity gauge): M₁⁻¹Δ₁ antisymmetric
+SURFACE_MARGIN = 2.0        # bohr between the flux sphere and the absorber
+TAPER_MAX = 20.0            # bohr: the potential goes to zero over min(this, R/4) below the flux sphere
+FLUX_SAMPLE_AU = 0.1        # the flux is summed every step or every few steps, at most this far apart
+ABSORBER_WAVELENGTHS = 1.5  # flux runs: the mask spans this many de Broglie wavelengths of the slowest electrons
+FINAL_STATE_METHODS = ("window", "projection")
+VELOCITY_STEP_COST = 3.0    # a velocity-gauge step with the field on, in length-gauge steps (benchmarks/grid.py)
 
 
 @dataclass(frozen=True)
@@ -67,7 +90,7 @@ class GridParameters:
     dr: float
     l_max: int
     dt: float
-    n_steps: int
+    n_steps: int                    # all steps: the pulse and the field-free time after it
     absorber_width: float
     quiver_radius: float
     e_max: float
@@ -75,6 +98,10 @@ class GridParameters:
     ip: float = 0.5                 # ionisation potential of the initial state
     omega_max: float = 0.0          # highest carrier frequency
     spectrum_radius: float = 0.0    # inner radius that keeps the photoelectrons until the pulse ends
+    n_pulse_steps: int = 0          # steps over the pulse window
+    after: float = 0.0              # field-free time after the pulse (a whole number of steps)
+    surface_radius: float = 0.0     # flux sphere (0: none)
+    energies: tuple = ()            # photoelectron energies (hartree)
 
 
 def _pulse_scales(atom, pulse) -> tuple[float, float, float, float]:
@@ -90,6 +117,27 @@ def _pulse_scales(atom, pulse) -> tuple[float, float, float, float]:
     return f / (mu * w**2), f**2 / (4 * mu * w**2), max(c.omega for c in osc), static
 
 
+def photoelectron_energies(settings: GridSettings, e_max: float) -> np.ndarray:
+    """The energies of every photoelectron spectrum of a run: ``photoelectron_points`` evenly from
+    ``photoelectron_e_min`` (default: the spacing) to ``photoelectron_e_max`` (default ``e_max``).
+
+    >>> photoelectron_energies(GridSettings(photoelectron_points=4), 2.0).tolist()
+    [0.5, 1.0, 1.5, 2.0]
+    """
+    top = settings.photoelectron_e_max if settings.photoelectron_e_max is not None else e_max
+    low = settings.photoelectron_e_min if settings.photoelectron_e_min is not None else top / settings.photoelectron_points
+    if not low < top:
+        raise InputError(f"`solver.photoelectron_e_min` = {low:g} hartree must be below the highest energy "
+                         f"{top:g} hartree (`solver.photoelectron_e_max`)")
+    return np.linspace(low, top, settings.photoelectron_points)
+
+
+def default_surface_radius(alpha0: float, n_initial: int, atom) -> float:
+    """The flux sphere's default radius: 5 quiver radii + 20 bohr and at least the room of the
+    initial state, 40 n²/(Zμ) (the same rule as the default box)."""
+    return max(40.0 * n_initial**2 / (atom.Z * atom.reduced_mass), QUIVER_RADII * alpha0 + 20.0)
+
+
 def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
                     l_initial: int = 0) -> GridParameters:
     """Grid, partial waves and step of a run: the user's values, else defaults from the pulse.
@@ -100,8 +148,15 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
     >>> g = grid_parameters(Atom(1), p, GridSettings())
     >>> round(g.quiver_radius, 1), g.dr, g.l_max
     (16.5, 0.1, 32)
+    >>> grid_parameters(Atom(1), p, GridSettings(gauge="velocity")).l_max
+    16
     """
     mu, Z = atom.reduced_mass, atom.Z
+    methods = settings.photoelectron_methods
+    flux = "surface_flux" in methods
+    if settings.gauge == "velocity" and any(c.envelope_kind == "static" for c in pulse.components):
+        raise InputError('`solver.gauge` = "velocity" needs pulses whose vector potential ends at zero; a static '
+                         'field (envelope = "static") has A growing without bound: use gauge = "length"')
     alpha0, up, w_max, f_static = _pulse_scales(atom, pulse)
     ip = Z**2 * mu / (2 * n_initial**2)
     e_max = max(10 * up, 3 * w_max, ip)
@@ -109,6 +164,11 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
     dr = settings.dr if settings.dr is not None else min(0.1 / Z, 0.5 / k_max)
     window = pulse.t_end - pulse.t_start
     spectrum_radius = photoelectron_radius(up, w_max - ip, alpha0, window, mu)
+    energies = photoelectron_energies(settings, e_max) if methods else np.zeros(0)
+    surface = 0.0
+    if flux:
+        surface = (settings.surface_radius if settings.surface_radius is not None
+                   else default_surface_radius(alpha0, n_initial, atom))
     if settings.r_max is not None:
         r_max = settings.r_max
         width = (settings.absorber_width if settings.absorber_width is not None
@@ -117,27 +177,62 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
         inner = max(40.0 * n_initial**2 / (Z * mu), QUIVER_RADII * alpha0 + 20.0)
         if f_static > 0:
             inner = max(inner, 2 * ip / f_static + 40.0)    # beyond the tunnel exit I_p/F
-        if settings.photoelectron:
+        width = max(20.0, 0.2 * inner)
+        if flux:
+            inner = surface + SURFACE_MARGIN                # the box beyond the sphere only absorbs
+            slowest = 2 * math.pi / math.sqrt(2 * mu * float(energies[0]))
+            width = max(20.0, 0.2 * inner, ABSORBER_WAVELENGTHS * slowest)   # a mask narrower reflects them
+        if any(m in methods for m in FINAL_STATE_METHODS):
             inner = max(inner, spectrum_radius)             # the spectrum needs its electrons in the box
-        width = settings.absorber_width if settings.absorber_width is not None else max(20.0, 0.2 * inner)
+            width = max(20.0, 0.2 * inner)
+        if settings.absorber_width is not None:
+            width = settings.absorber_width
         r_max = inner + width
     if settings.absorber == "none":
         width = 0.0
     if not 0 <= width < r_max:
         raise InputError(f"`solver.absorber_width` must be >= 0 and below r_max = {r_max:g} bohr, "
                          f"got {width:g}")
+    if flux and not 4 * dr < surface < r_max - 3 * dr:
+        raise InputError(f"`solver.surface_radius` must lie inside the box (below r_max = {r_max:g} bohr), "
+                         f"got {surface:g}")
     if settings.l_max is not None:
         l_max = settings.l_max
     else:
-        l_max = max(8, l_initial + 6, math.ceil(L_FACTOR * returning_l(alpha0, up, mu)))
+        factor = L_FACTOR[settings.gauge]
+        l_max = max(8, l_initial + 6, math.ceil(factor * returning_l(alpha0, up, mu)))
     if settings.dt is not None:
         dt_max = settings.dt
     else:
         dt_max = min(0.05, 0.1 / e_max, (2 * math.pi / w_max) / 400 if w_max > 0 else math.inf)
-    n_steps = max(1, math.ceil(window / dt_max - 1e-9))
-    return GridParameters(r_max=r_max, dr=dr, l_max=l_max, dt=window / n_steps, n_steps=n_steps,
+    n_pulse = max(1, math.ceil(window / dt_max - 1e-9))
+    dt = window / n_pulse
+    if settings.after is not None:
+        after = settings.after
+    elif flux:
+        after = surface * math.sqrt(mu / (2 * float(energies[0])))   # the slowest electrons of interest reach R
+    else:
+        after = 0.0
+    n_after = math.ceil(after / dt - 1e-9) if after > 0 else 0
+    return GridParameters(r_max=r_max, dr=dr, l_max=l_max, dt=dt, n_steps=n_pulse + n_after,
                           absorber_width=width, quiver_radius=alpha0, e_max=e_max, up=up, ip=ip,
-                          omega_max=w_max, spectrum_radius=spectrum_radius)
+                          omega_max=w_max, spectrum_radius=spectrum_radius, n_pulse_steps=n_pulse,
+                          after=n_after * dt, surface_radius=surface, energies=tuple(energies.tolist()))
+
+
+def potential_taper(r, radius: float, width: float) -> tuple[np.ndarray, np.ndarray]:
+    """(s, ds/dr) of the smooth step s = 1 for r ≤ R − w, cos²(π/2 · (r − R + w)/w) up to R, 0
+    beyond: the flux route multiplies the potential by it, so that the electron is free beyond R.
+
+    >>> s, d = potential_taper(np.array([5.0, 9.0, 10.0, 12.0]), 10.0, 2.0)
+    >>> s.round(6).tolist()
+    [1.0, 0.5, 0.0, 0.0]
+    """
+    r = np.asarray(r, dtype=float)
+    x = np.clip((r - (radius - width)) / width, 0.0, 1.0)
+    s = np.cos(0.5 * np.pi * x) ** 2
+    ds = np.where((x > 0) & (x < 1), -(np.pi / (2 * width)) * np.sin(np.pi * x), 0.0)
+    return s, ds
 
 
 def returning_l(alpha0: float, up: float, mu: float) -> float:
@@ -237,58 +332,6 @@ def bound_states(grid, l: int, atom) -> tuple[np.ndarray, np.ndarray]:
     return energies, vectors
 
 
-def window_spectrum(grid, atom, psi, energies, gamma) -> np.ndarray:
-    """Angle-integrated photoelectron spectrum dP/dE of ψ[i, l] by the window operator
-    W = γ⁴/((H − E)⁴ + γ⁴) (Schafer & Kulander, PRA 42, 5794 (1990), n = 2):
-
-        P(E) = Σ_l ‖γ² (H_l − E − γe^{iπ/4})⁻¹ (H_l − E − γe^{3iπ/4})⁻¹ u_l‖²,
-        dP/dE ≈ P(E)·√2/(πγ)     (∫ γ⁴/(x⁴ + γ⁴) dx = πγ/√2),
-
-    each resolvent one banded solve, (H − z)⁻¹ = (K − zM)⁻¹M with K = −Δ/2μ + M·V (the grid's
-    own Numerov operators).
-
-    >>> from driven_atom.atom import Atom
-    >>> from driven_atom.basis.radial_grid import uniform_grid
-    >>> g = uniform_grid(60.0, 0.1)
-    >>> E, U = bound_states(g, 0, Atom(1))
-    >>> psi = U[:, :1].astype(complex)             # the 1s state: W = 1 at E_1s, 1/2 at E_1s + γ
-    >>> s = window_spectrum(g, Atom(1), psi, E[0] + np.array([0.0, 0.01]), 0.01)
-    >>> (s * np.pi * 0.01 / np.sqrt(2)).round(6).tolist()
-    [1.0, 0.5]
-    """
-    from scipy.linalg import solve_banded
-
-    from driven_atom.basis.radial_grid import numerov_operators
-
-    energies = np.asarray(energies, dtype=float)
-    out = np.zeros(energies.size)
-    roots = gamma * np.exp(1j * np.pi * np.array([0.25, 0.75]))
-    for l in range(psi.shape[1]):
-        u = psi[:, l]
-        if not np.any(u):
-            continue
-        ops = numerov_operators(grid, l, atom)
-        m_u = ops.m_diag * u
-        m_u[1:] += ops.m_off * u[:-1]
-        m_u[:-1] += ops.m_off * u[1:]
-        kin_d, kin_o = -ops.d_diag / (2 * ops.mu), -ops.d_off / (2 * ops.mu)
-        ab = np.zeros((3, u.size), complex)
-        for k, e in enumerate(energies):
-            x = m_u
-            for q, z in enumerate(e + roots):
-                v = ops.potential - z
-                ab[0, 1:] = kin_o + ops.m_off * v[1:]
-                ab[1] = kin_d + ops.m_diag * v
-                ab[2, :-1] = kin_o + ops.m_off * v[:-1]
-                y = solve_banded((1, 1), ab, x, check_finite=False)
-                if q == 0:
-                    x = ops.m_diag * y
-                    x[1:] += ops.m_off * y[:-1]
-                    x[:-1] += ops.m_off * y[1:]
-            out[k] += gamma**4 * float(np.sum(abs(y) ** 2))
-    return out * math.sqrt(2) / (math.pi * gamma)
-
-
 def coupling_coefficients(l_max: int) -> np.ndarray:
     """c_l = ⟨l 0|cosθ|l+1 0⟩ = (l+1)/√((2l+1)(2l+3)) for l = 0..l_max (docs/physics.md).
 
@@ -303,13 +346,19 @@ class _Stepper:
     """The propagation state and its arrays, prepared and stacked once in the kernels' layout
     (:mod:`driven_atom.routes._grid_kernels`): state, Thomas factors, operators, mask, scratch. The
     state is held as real and imaginary parts, columns even l then odd l; :meth:`state` and
-    :meth:`set_state` convert exactly (no arithmetic)."""
+    :meth:`set_state` convert exactly (no arithmetic).
 
-    def __init__(self, grid, atom, n_l: int, dt: float, mask, threads: int):
+    ``gauge`` picks the kernel ("length": the drive is E(t); "velocity": A(t)); ``surface_row`` ≥ 2
+    makes every step copy the five rows around it (the surface-flux rows, :meth:`surface_values`).
+    """
+
+    def __init__(self, grid, atom, n_l: int, dt: float, mask, threads: int, gauge: str = "length",
+                 surface_row: int = -1):
         from driven_atom.basis.radial_grid import numerov_operators
         from driven_atom.routes import _grid_kernels as kernels
 
         self.kernels = kernels
+        self.gauge = gauge
         n = grid.n_points
         ops = [numerov_operators(grid, l, atom) for l in range(n_l)]
         ref = ops[-1]                                # rows >= 1 are the same for every l
@@ -322,18 +371,20 @@ class _Stepper:
         r = grid.r
         mu = atom.reduced_mass
         cent = np.array([l * (l + 1) / (2 * mu) for l in range(n_l)])
-        self.rows = np.zeros((6, n))                 # off-diagonals padded with a zero
+        self.rows = np.zeros((8, n))                 # off-diagonals padded with a zero
         self.cols = np.zeros((3, n_l))
         self.a = a = dict(m_diag=self.rows[0], d_diag=self.rows[1], coul=self.rows[2], invr2=self.rows[3],
-                          m_off=self.rows[4, :-1], d_off=self.rows[5, :-1],
+                          m_off=self.rows[4, :-1], d_off=self.rows[5, :-1], invr=self.rows[6], force=self.rows[7],
                           m_first=self.cols[0], d_first=self.cols[1], cent=self.cols[2])   # named views
         a["m_diag"][:], a["d_diag"][:] = ref.m_diag, ref.d_diag
         a["m_off"][:], a["d_off"][:] = ref.m_off, ref.d_off
-        a["coul"][:], a["invr2"][:] = -atom.Z / r, 1.0 / r**2
+        a["coul"][:], a["invr2"][:], a["invr"][:] = -atom.Z / r, 1.0 / r**2, 1.0 / r
+        a["force"][:] = atom.Z / r**2                 # dV/dr of the potential in "coul"
         a["m_first"][:] = np.array([o.m_diag[0] for o in ops])[self.order]
         a["d_first"][:] = np.array([o.d_diag[0] for o in ops])[self.order]
         a["cent"][:] = cent[self.order]
-        self.consts = np.array([0.5 * dt, 0.5 / mu, grid.dr])     # tau, 1/(2 mu), dr
+        self.consts = np.array([0.5 * dt, 0.5 / mu, grid.dr, 1.0 / mu])     # tau, 1/(2 mu), dr, 1/mu
+        self.deriv = np.array([4 / 6, 1 / 6, (4 + DERIVATIVE_CORNER) / 6, DERIVATIVE_CORNER])
         c = coupling_coefficients(n_l - 1)
         na, nb = n_l // 2, (n_l + 1) // 2 - 1
         p = max(1, na, nb)
@@ -343,18 +394,32 @@ class _Stepper:
         self.mask = np.ascontiguousarray(mask, dtype=float)
         below = np.nonzero(self.mask < 1.0)[0]
         self.i_abs = int(below[0]) if below.size else n
+        self.i_surf = surface_row - 2 if surface_row >= 2 else -1
         self.thomas = np.zeros((4, n, n_l))
         self.refactor()
         self.psi = np.zeros((2, n, n_l))
         self.threads = threads
-        stp = np.zeros((8, p))
-        if threads == 1:
-            self.scratch = (np.zeros((6, n_l)), np.zeros((8, p)), stp)
+        keep = np.zeros((5, 2, n_l))
+        if gauge == "velocity":
+            if threads != 1:
+                raise InputError("`solver.threads` > 1 runs the length-gauge kernel only; give threads = 1 "
+                                 "with `solver.gauge` = \"velocity\"")
+            self.scratch = (np.zeros((6, n_l)), keep, np.zeros((18, p)), np.zeros((2, n, p)), np.zeros((4, p)))
+        elif threads == 1:
+            self.scratch = (np.zeros((6, n_l)), np.zeros((8, p)), np.zeros((8, p)), keep)
         else:
             cblock = -(-n_l // threads)               # one block of partial waves per thread
             self.rblock = 64
             nrb = -(-n // self.rblock)
-            self.scratch = (np.zeros((-(-n_l // cblock), 6, cblock)), np.zeros((nrb, 8, p)), stp)
+            self.scratch = (np.zeros((-(-n_l // cblock), 6, cblock)), np.zeros((nrb, 8, p)), np.zeros((8, p)), keep)
+
+    def taper(self, s, ds):
+        """Multiply the potential by the smooth step s(r) (derivative ds/dr), V → sV and
+        dV/dr → s dV/dr + V ds/dr, and refactor (whatever the potential is)."""
+        a = self.a
+        a["force"][:] = s * a["force"] + a["coul"] * ds
+        a["coul"][:] = s * a["coul"]
+        self.refactor()
 
     def refactor(self):
         """(Re)compute the Thomas factors from ``rows``, ``cols`` and ``consts``."""
@@ -377,17 +442,36 @@ class _Stepper:
         j = self.column_of[l]
         return self.psi[0, :, j] + 1j * self.psi[1, :, j]
 
-    def run(self, fields, out):
-        """Advance the state by len(fields) steps; ``out`` (k, 3) gets norm, ⟨z⟩, ⟨cosθ/r²⟩."""
-        fields = np.ascontiguousarray(fields, dtype=float)
-        args = (self.psi, self.thomas, self.rows, self.cols, self.consts, self.coupling, fields,
+    def surface_values(self, surface) -> np.ndarray:
+        """The rows a run copied (``surface`` (k, 2, 5, L), kernel layout) as complex u[k, row, l]
+        in natural l order."""
+        out = np.empty(surface.shape[:1] + surface.shape[2:], complex)
+        out.real[:, :, self.order] = surface[:, 0]
+        out.imag[:, :, self.order] = surface[:, 1]
+        return out
+
+    def run(self, drive, out, surface=None):
+        """Advance the state by len(drive) steps (``drive``: the mid-step E(t) in the length gauge,
+        A(t) in the velocity gauge); ``out`` (k, 4) gets norm, ⟨z⟩, ⟨cosθ/r²⟩, ⟨p_z⟩ after each
+        step and ``surface`` (k, 2, 5, L), when given, the surface rows."""
+        drive = np.ascontiguousarray(drive, dtype=float)
+        if surface is None:
+            surface, i_surf = np.zeros((0, 2, 5, self.psi.shape[2])), -1
+        else:
+            i_surf = self.i_surf
+        if self.gauge == "velocity":
+            self.kernels.propagate_chunk_velocity(self.psi, self.thomas, self.rows, self.cols, self.consts,
+                                                  self.coupling, drive, self.mask, self.i_abs, self.scratch,
+                                                  self.deriv, out, surface, i_surf)
+            return
+        args = (self.psi, self.thomas, self.rows, self.cols, self.consts, self.coupling, drive,
                 self.mask, self.i_abs, self.scratch)
         if self.threads == 1:
-            self.kernels.propagate_chunk(*args, out)
+            self.kernels.propagate_chunk(*args, out, surface, i_surf)
         else:
-            partial = np.zeros((fields.size, self.scratch[1].shape[0], 3))
+            partial = np.zeros((drive.size, self.scratch[1].shape[0], 4))
             with _numba_threads(self.threads):
-                self.kernels.propagate_chunk_parallel(*args, partial, self.rblock)
+                self.kernels.propagate_chunk_parallel(*args, partial, self.rblock, surface, i_surf)
             self.kernels.reduce_partial(partial, out)
 
 
@@ -441,7 +525,7 @@ class GridRoute(Route):
 
     name = "grid"
     Settings = GridSettings
-    spectra = ("harmonic", "dipole_response", "photoelectron")
+    spectra = ("harmonics", "dipole_response", "photoelectrons")
     counts_steps = True
 
     @classmethod
@@ -451,6 +535,10 @@ class GridRoute(Route):
             if state.m not in (None, 0):
                 raise InputError(f"`atom.initial` {state.label!r}: the grid route is for linear "
                                  f"polarisation along z and needs m = 0 states")
+        if cfg is not None and pulse is not None and cfg.solver.gauge == "velocity" and any(
+                c.envelope_kind == "static" for c in pulse.components):
+            raise InputError('`solver.gauge` = "velocity" needs pulses whose vector potential ends at zero; a '
+                             'static field (envelope = "static") has A growing without bound: use gauge = "length"')
 
     def run(self, **options):
         from driven_atom.basis.radial_grid import reproducible_blas
@@ -462,10 +550,14 @@ class GridRoute(Route):
 
     @classmethod
     def explicit(cls, settings, result):
-        """dt, dr, l_max and r_max as the run used them; the absorber keeps its rule (the user's width,
-        else a fifth of the box), so a larger box gets a wider, less reflecting absorber."""
+        """dt, dr, l_max, r_max (and the flux sphere and the time after the pulse) as the run used
+        them; the absorber keeps its rule (the user's width, else a fifth of the box), so a larger
+        box gets a wider, less reflecting absorber."""
         s = result.stats
-        return settings.model_copy(update={"dt": s["dt"], "dr": s["dr"], "l_max": s["l_max"], "r_max": s["r_max"]})
+        update = {"dt": s["dt"], "dr": s["dr"], "l_max": s["l_max"], "r_max": s["r_max"], "after": s["after"]}
+        if s.get("surface_radius"):
+            update["surface_radius"] = s["surface_radius"]
+        return settings.model_copy(update=update)
 
     @classmethod
     def knobs(cls, settings) -> list:
@@ -478,11 +570,15 @@ class GridRoute(Route):
     @classmethod
     def companion(cls, settings, result):
         """dt doubled (error ∝ dt²) and dr stretched by √2 (∝ dr⁴): K = 4; the box, the partial
-        waves and the absorber as the run used them; no photoelectron spectrum."""
+        waves, the absorber, the flux sphere (its tapered potential) and the time after the pulse as
+        the run used them; no photoelectron spectrum of the final state."""
         s = result.stats
         knobs = {"dt": 2 * s["dt"], "dr": s["dr"] * 2**0.5, "r_max": s["r_max"], "l_max": s["l_max"],
                  "absorber_width": s["absorber_width"]}
-        update = dict(knobs, photoelectron=False)
+        update = dict(knobs, after=s["after"],
+                      photoelectron_methods=[m for m in settings.photoelectron_methods if m == "surface_flux"])
+        if s.get("surface_radius"):
+            update["surface_radius"] = s["surface_radius"]
         if settings.absorber == "none":
             update.pop("absorber_width")
         return settings.model_copy(update=update), 4.0, knobs
@@ -495,17 +591,39 @@ class GridRoute(Route):
     def estimate_resources(self):
         """Memory: the state and the Crank–Nicolson factors (6 real N×L arrays), copies of the state
         for samples and checkpoints, the bound states of every l (N × about √(Zμ r_max/2) + 5
-        vectors) and four numbers per time step; time: N·L·steps at the kernel's speed."""
+        vectors) and four numbers per time step; time: N·L·steps at the kernel's speed (the
+        velocity gauge's steps while the field is on at three times that), the surface-flux sums
+        (angles × energies × partial waves per sample) and the final-state spectra (two banded
+        solves per energy and partial wave for the window)."""
         from driven_atom.routes.resources import BOUND_STATES_S_PER_POINT, GRID_NS_PER_POINT_STEP
 
         par = self._parameters()
+        s = self.settings
         n, waves = par.r_max / par.dr, par.l_max + 1
         bound = math.sqrt(self.atom.Z * self.atom.reduced_mass * par.r_max / 2) + 5
         memory = 8.0 * (10 * n * waves + n * waves * bound + 5 * par.n_steps)
         eigen_s = waves * n * BOUND_STATES_S_PER_POINT           # shift-invert Lanczos per partial wave
         samples = min(self.samples_over(par.dt * par.n_steps), par.n_steps + 1.0)
         sample_s = samples * n * waves * (bound + 2) * 2e-9      # projections on the bound states
-        return memory, n * waves * par.n_steps * GRID_NS_PER_POINT_STEP * 1e-9 + eigen_s + sample_s
+        pulse_factor = VELOCITY_STEP_COST if s.gauge == "velocity" else 1.0
+        steps = par.n_pulse_steps * pulse_factor + (par.n_steps - par.n_pulse_steps)
+        seconds = n * waves * steps * GRID_NS_PER_POINT_STEP * 1e-9 + eigen_s + sample_s
+        n_e = len(par.energies)
+        if "surface_flux" in s.photoelectron_methods:
+            angles = self._angles(par)
+            flux_samples = par.n_pulse_steps / self._flux_stride(par)
+            seconds += flux_samples * angles * n_e * (waves + 30) * 2e-9
+            memory += 16.0 * angles * n_e * 18
+        if any(m in s.photoelectron_methods for m in FINAL_STATE_METHODS):
+            seconds += 2 * n_e * waves * n * 60e-9
+        return memory, seconds
+
+    def _angles(self, par) -> int:
+        s = self.settings
+        return s.photoelectron_angles if s.photoelectron_angles is not None else 2 * par.l_max + 2
+
+    def _flux_stride(self, par) -> int:
+        return max(1, int(FLUX_SAMPLE_AU / par.dt + 1e-9))
 
     def _prepare(self) -> None:
         from driven_atom.basis.radial_grid import uniform_grid
@@ -524,17 +642,49 @@ class GridRoute(Route):
         self.t_end = t0 + par.dt * par.n_steps
         self.time_quantum = par.dt
         self.max_slice = CHUNK_MAX * par.dt
-        self.fields_mid = pulse.field_z(t0 + par.dt * (np.arange(par.n_steps) + 0.5))
-        self.per_step = np.zeros((par.n_steps, 3))
-        self.stepper = _Stepper(grid, atom, n_l, par.dt, mask, s.threads)
+        mid = t0 + par.dt * (np.arange(par.n_steps) + 0.5)
+        drive = pulse.vector_potential_z(mid) if s.gauge == "velocity" else pulse.field_z(mid)
+        self.drive_mid = np.where(np.arange(par.n_steps) < par.n_pulse_steps, drive, 0.0)
+        self.per_step = np.zeros((par.n_steps, 4))
+        self.flux = None
+        surface_row = -1
+        if par.surface_radius > 0:
+            surface_row = int(round(par.surface_radius / grid.dr)) - 1
+        self.stepper = _Stepper(grid, atom, n_l, par.dt, mask, s.threads, gauge=s.gauge, surface_row=surface_row)
+        if surface_row >= 0:
+            self._prepare_flux(surface_row)
+
+    def _prepare_flux(self, row: int) -> None:
+        """The tapered potential, the flux accumulator and the sample plan of "surface_flux"."""
+        from driven_atom.observables.photoelectron import emission_angles
+        from driven_atom.observables.surface_flux import SurfaceFlux, trapezoid_weights, volkov_integrals
+
+        par, grid, pulse = self.par, self.grid, self.pulse
+        radius = (row + 1) * grid.dr
+        self.taper_width = min(TAPER_MAX, radius / 4)
+        self.stepper.taper(*potential_taper(grid.r, radius, self.taper_width))
+        x, _ = emission_angles(self._angles(par))
+        self.flux = SurfaceFlux(np.asarray(par.energies), x, radius=radius, l_max=par.l_max,
+                                mu=self.atom.reduced_mass, t0=self.t_start)
+        ends = self.t_start + par.dt * np.arange(par.n_steps + 1)
+        a_ends = np.where(np.arange(par.n_steps + 1) <= par.n_pulse_steps, pulse.vector_potential_z(ends), 0.0)
+        a_mid = np.where(np.arange(par.n_steps) < par.n_pulse_steps, pulse.vector_potential_z(ends[:-1] + par.dt / 2), 0.0)
+        self.alpha, self.beta = volkov_integrals(ends, a_ends[:-1], a_mid, a_ends[1:])
+        self.a_ends = a_ends
+        stride = self._flux_stride(par)
+        steps = np.unique(np.r_[np.arange(stride, par.n_steps + 1, stride), par.n_steps])
+        self.flux_steps = steps                                     # step ends where the flux is summed
+        self.flux_weights = trapezoid_weights(ends[steps], self.t_start)
 
     def preflight(self) -> list:
         """Before any step: the initial states' energies on this grid against the exact
         −Z²μ/(2n²) (Bethe & Salpeter 1957), the time step against the fastest phase that matters
         (Iₚ + 3.17 Uₚ, Corkum 1993) and the carrier period, the initial state's norm inside the
-        absorber, the box against the quiver radius, and l_max against the returning angular
-        momentum."""
-        atom, par, grid = self.atom, self.par, self.grid
+        absorber, the box against the quiver radius, l_max against the returning angular momentum
+        (the velocity gauge needs half of what the length gauge needs), and for the surface flux:
+        the sphere inside the absorber-free region and beyond the quiver motion, and the time
+        after the pulse against the slowest electrons of interest."""
+        atom, par, grid, s = self.atom, self.par, self.grid, self.settings
         mu, Z = atom.reduced_mass, atom.Z
         checks = []
         worst = 0.0
@@ -566,10 +716,37 @@ class GridRoute(Route):
             checks.append(assess("quiver_over_inner_radius", par.quiver_radius / r_abs, soft=0.5, hard=1.0,
                                  key="solver.r_max", why="quiver radius F/ω² over the radius where the absorber starts",
                                  fix=f"raise `solver.r_max` to at least {QUIVER_RADII * par.quiver_radius + 20 + par.absorber_width:.0f} bohr"))
-            needed = returning_l(par.quiver_radius, par.up, mu)
+            needed = L_NEEDED[s.gauge] * returning_l(par.quiver_radius, par.up, mu)
             checks.append(assess("returning_l_over_l_max", needed / par.l_max, soft=1.0, hard=2.5, key="solver.l_max",
-                                 why="angular momentum of the returning electron over l_max",
-                                 fix=f"raise `solver.l_max` to at least {math.ceil(L_FACTOR * needed)}"))
+                                 why=f"angular momentum of the returning electron ({s.gauge} gauge: "
+                                     f"{L_NEEDED[s.gauge]:g} × α₀√(6.34 μ Uₚ)) over l_max",
+                                 fix=f"raise `solver.l_max` to at least {math.ceil(needed)}"))
+        if self.flux is not None:
+            checks += self._flux_checks()
+        return checks
+
+    def _flux_checks(self) -> list:
+        par, grid = self.par, self.grid
+        radius = self.flux.radius
+        r_abs = grid.r_max - par.absorber_width
+        checks = [assess("surface_in_absorber", max(0.0, (radius + 2 * grid.dr) - r_abs + 1e-12) / grid.dr,
+                         hard=0.0, key="solver.surface_radius",
+                         why="the flux sphere (and the two rows beyond it) must lie where the absorber has not "
+                             "started; in bohr over dr",
+                         fix=f"lower `solver.surface_radius` below {r_abs - 2 * grid.dr:.4g} bohr or raise `solver.r_max`")]
+        if par.quiver_radius > 0:
+            checks.append(assess("quiver_over_surface_radius", par.quiver_radius / (radius - self.taper_width),
+                                 soft=0.5, hard=1.0, key="solver.surface_radius",
+                                 why="quiver radius over the radius where the potential starts to taper "
+                                     "(the electron must be free beyond it)",
+                                 fix=f"raise `solver.surface_radius` to at least "
+                                     f"{2 * par.quiver_radius + self.taper_width:.0f} bohr"))
+        e_low = float(par.energies[0])
+        needed = radius * math.sqrt(self.atom.reduced_mass / (2 * e_low))
+        checks.append(assess("flux_time_short", needed / max(par.after, 1e-300), soft=1.0, key="solver.after",
+                             why=f"time electrons of the lowest spectrum energy ({e_low:.3g} hartree) need to reach "
+                                 f"the flux sphere over the time after the pulse",
+                             fix=f"raise `solver.after` to about {needed:.0f} au or `solver.photoelectron_e_min`"))
         return checks
 
     def _step_index(self, t: float) -> int:
@@ -583,8 +760,30 @@ class GridRoute(Route):
 
     def _advance(self, state, t, t_next):
         i0, i1 = self._step_index(t), self._step_index(t_next)
-        self.stepper.run(self.fields_mid[i0:i1], self.per_step[i0:i1])
+        surface = np.zeros((i1 - i0, 2, 5, self.n_l)) if self.flux is not None else None
+        self.stepper.run(self.drive_mid[i0:i1], self.per_step[i0:i1], surface)
+        if self.flux is not None:
+            self._add_flux(i0, i1, surface)
         return {"step": i1}
+
+    def _add_flux(self, i0: int, i1: int, surface) -> None:
+        """Sum the flux of the sampled step ends in (i0, i1] (the pulse's and the field-free ones
+        apart; :class:`driven_atom.observables.surface_flux.SurfaceFlux`)."""
+        from driven_atom.observables.surface_flux import surface_derivative
+
+        pick = (self.flux_steps > i0) & (self.flux_steps <= i1)
+        steps, weights = self.flux_steps[pick], self.flux_weights[pick]
+        if not steps.size:
+            return
+        rows = self.stepper.surface_values(surface[steps - i0 - 1]) / math.sqrt(self.grid.dr)   # u(r), not √dr·u
+        u, du = surface_derivative(rows, self.grid.dr)
+        times = self.t_start + self.par.dt * steps
+        during = steps <= self.par.n_pulse_steps
+        for part in (during, ~during):
+            if part.any():
+                m = steps[part]
+                self.flux.add(times[part], u[part], du[part], self.a_ends[m], self.alpha[m], self.beta[m],
+                              weights[part])
 
     def steps_done(self, state) -> int:
         return state["step"]
@@ -598,70 +797,168 @@ class GridRoute(Route):
                 if ll == l:
                     pops[State(l + j + 1, l, 0).label] = float(abs(amps[j]) ** 2)
         k = state["step"]
-        obs = (_observables(self.stepper.state(), self.grid.r, coupling_coefficients(self.par.l_max))
-               if k == 0 else self.per_step[k - 1])
+        obs = (_observables(self.stepper.state(), self.grid.r, coupling_coefficients(self.par.l_max),
+                            self.stepper.a["force"]) if k == 0 else self.per_step[k - 1])
         series = {"norm": float(obs[0]), "ionization": 1.0 - total, "dipole_z": float(obs[1]),
-                  "_cos_r2": float(obs[2])}
+                  "_force_cos": float(obs[2])}
         if self.n_l - 1 > max(st.l for st, _ in self.initial):     # the top wave tells of truncation
             series["top_l_population"] = float(np.sum(abs(self.stepper.column(self.n_l - 1)) ** 2))
         return pops, series
 
     def _save(self, state):
-        return {"psi": self.stepper.state(), "per_step": self.per_step}, {"step": state["step"]}
+        arrays = {"psi": self.stepper.state(), "per_step": self.per_step}
+        if self.flux is not None:
+            arrays.update(flux_during=self.flux.during, flux_after=self.flux.after)
+        return arrays, {"step": state["step"]}
 
     def _load(self, arrays, meta):
         psi = np.ascontiguousarray(arrays["psi"])
         if psi.shape != (self.grid.n_points, self.n_l) or arrays["per_step"].shape != self.per_step.shape:
             raise ValueError("checkpoint of another grid")
+        if self.flux is not None:
+            if arrays["flux_during"].shape != self.flux.during.shape or arrays["flux_after"].shape != self.flux.after.shape:
+                raise ValueError("checkpoint of another flux sphere")
+            self.flux.during[:] = arrays["flux_during"]
+            self.flux.after[:] = arrays["flux_after"]
         self.stepper.set_state(psi)
         self.per_step[:] = arrays["per_step"]
         return {"step": int(meta["step"])}
 
     def _finish(self, state, history) -> Outcome:
-        from driven_atom.observables.harmonics import ehrenfest_acceleration, harmonic_spectrum
+        from driven_atom.observables.harmonics import ehrenfest_acceleration
 
         atom, pulse, par, s = self.atom, self.pulse, self.par, self.settings
         dt, n_steps, mu = par.dt, par.n_steps, atom.reduced_mass
         step_times = self.t_start + dt * np.arange(1, n_steps + 1)
+        on = np.arange(1, n_steps + 1) <= par.n_pulse_steps
         per_step = self.per_step
-        acc_steps = ehrenfest_acceleration(per_step[:, 2], pulse.field_z(step_times), per_step[:, 0], atom.Z, mu)
-        acc_samples = ehrenfest_acceleration(history.series["_cos_r2"], pulse.field_z(history.times),
-                                             history.series["norm"], atom.Z, mu)
-        omega, power = harmonic_spectrum(step_times, acc_steps)
-        spectra = {"harmonic": {"omega": omega, "power": power},
-                   "dipole_response": {"time": step_times, "dipole_z": per_step[:, 1],
+        field = np.where(on, pulse.field_z(step_times), 0.0)
+        acc_steps = ehrenfest_acceleration(per_step[:, 2], field, per_step[:, 0], mu)
+        velocity = per_step[:, 3] / mu
+        if s.gauge == "velocity":                       # the kinetic momentum ⟨p_z + A⟩
+            velocity = velocity + np.where(on, pulse.vector_potential_z(step_times), 0.0) * per_step[:, 0] / mu
+        sample_field = np.where(history.times <= pulse.t_end, pulse.field_z(history.times), 0.0)
+        acc_samples = ehrenfest_acceleration(history.series["_force_cos"], sample_field, history.series["norm"], mu)
+        spectra = {"dipole_response": {"time": step_times, "dipole_z": per_step[:, 1], "velocity_z": velocity,
                                        "acceleration_z": acc_steps}}
+        checks = []
+        harmonics = self._harmonics(step_times[on], per_step[on, 1], velocity[on], acc_steps[on], checks)
+        if harmonics:
+            spectra["harmonics"] = harmonics
         bound_left = 1.0 - float(history.series["ionization"][-1])
         norm = float(history.series["norm"][-1])
-        checks = []
-        if s.photoelectron:
-            e_top = s.photoelectron_e_max if s.photoelectron_e_max is not None else par.e_max
-            energies = np.linspace(0.0, e_top, s.photoelectron_points + 1)[1:]
-            dP_dE = window_spectrum(self.grid, atom, self.stepper.state(), energies, 0.5 * energies[0])
-            spectra["photoelectron"] = {"energy": energies, "dP_dE": dP_dE}
-            ionized = 1.0 - bound_left
-            held = float(np.sum(dP_dE) * (energies[1] - energies[0]))
-            missing = 1.0 - held / ionized if ionized > 1e-12 else 0.0
-            needed = par.spectrum_radius + par.absorber_width
-            checks.append(assess("spectrum_missing_fraction", missing, soft=0.03, key="solver.r_max",
-                                 why="fraction of the ionisation yield missing from the photoelectron spectrum "
-                                     "(absorbed before the spectrum was taken)",
-                                 fix=f"raise `solver.r_max` to about {needed:.0f} bohr (or leave it unset: "
-                                     f"the box is then sized for the spectrum)"))
+        metadata = {}
+        if s.photoelectron_methods:
+            spectra.update(self._photoelectrons(1.0 - bound_left, checks))
+            metadata["photoelectron_methods"] = list(s.photoelectron_methods)
         warnings = []
         if par.absorber_width == 0 and bound_left < 1 - 1e-3:
             warnings.append("no absorber: ionised norm reflects from r_max")
-        stats = {"steps": n_steps, "dt": dt, "r_max": self.grid.r_max, "dr": self.grid.dr, "l_max": par.l_max,
+        stats = {"steps": n_steps, "pulse_steps": par.n_pulse_steps, "dt": dt, "after": par.after,
+                 "gauge": s.gauge, "r_max": self.grid.r_max, "dr": self.grid.dr, "l_max": par.l_max,
                  "n_points": self.grid.n_points, "absorber": s.absorber, "absorber_width": par.absorber_width,
                  "quiver_radius": par.quiver_radius, "e_max": par.e_max, "absorbed": 1.0 - norm,
                  "threads": s.threads, "bound_states": int(sum(b[0].size for b in self.bound)),
                  "ground_energy": float(self.bound[0][0][0]) if self.bound[0][0].size else float("nan")}
+        if self.flux is not None:
+            stats.update(surface_radius=self.flux.radius, taper_width=self.taper_width,
+                         flux_samples=int(self.flux_steps.size))
         return Outcome(populations=history.last("populations"), ionization=1.0 - bound_left, norm=norm,
-                       spectra=spectra, stats=stats, warnings=warnings, checks=checks,
+                       spectra=spectra, stats=stats, warnings=warnings, checks=checks, metadata=metadata,
                        series={"acceleration_z": acc_samples})
 
+    def _harmonics(self, times, dipole, velocity, acceleration, checks) -> dict:
+        """spectra["harmonics"] over the pulse (module docstring), and the check that the three
+        forms agree between order 3 and the cutoff."""
+        from driven_atom.observables.harmonics import cutoff_order, forms_mismatch, harmonic_forms
+        from driven_atom.units import HARTREE_EV
 
-def _observables(psi, r, c) -> np.ndarray:
-    """(norm, ⟨z⟩, ⟨cosθ/r²⟩) of ψ[r, l] (the kernels' per-step quantities, for the first sample)."""
-    ang = 2 * np.sum(c[None, :-1] * (psi[:, :-1].conj() * psi[:, 1:]).real, axis=1)
-    return np.array([np.sum(abs(psi) ** 2), np.sum(r * ang), np.sum(ang / r**2)])
+        carriers = [c.omega for c in self.pulse.components if c.omega > 0]
+        if not carriers or times.size < 8:
+            return {}
+        omega0 = self.pulse.components[0].omega if self.pulse.components[0].omega > 0 else min(carriers)
+        forms = harmonic_forms(times, dipole, velocity, acceleration, omega0, self.settings.harmonic_window)
+        cutoff = cutoff_order(self.par.ip, self.par.up, omega0)
+        if cutoff >= 5:
+            mismatch = forms_mismatch(forms["order"], forms["power"], forms["power_dipole"], forms["power_velocity"],
+                                      3.0, cutoff)
+            checks.append(assess("harmonic_forms_mismatch", mismatch, soft=0.25, key="solver.dt",
+                                 why="largest relative difference of the harmonic power (orders 3 to the cutoff) "
+                                     "between the dipole or velocity form and the acceleration form",
+                                 fix="lower `solver.dt` and `solver.dr`, raise `solver.l_max`"))
+        return {"order": forms["order"], "photon_energy_eV": forms["omega"] * HARTREE_EV, "power": forms["power"],
+                "power_dipole": forms["power_dipole"], "power_velocity": forms["power_velocity"],
+                "cutoff_order": np.array(cutoff)}
+
+    def _unbound_inside(self, radius: float) -> float:
+        """Norm of the final state inside ``radius`` that no bound state holds: the electrons the
+        flux has not counted yet (they leave later, or stay in Rydberg states the box cannot hold)."""
+        psi = self.stepper.state()
+        inside = self.grid.r < radius
+        total = 0.0
+        for l in range(self.n_l):
+            u = psi[:, l]
+            vectors = self.bound[l][1]
+            if vectors.shape[1]:
+                u = u - vectors @ (vectors.T @ u)
+            total += float(np.sum(abs(u[inside]) ** 2))
+        return total
+
+    def _photoelectrons(self, ionized: float, checks) -> dict:
+        """The spectra of ``photoelectron_methods``: the first as "photoelectrons", the others as
+        "photoelectrons_<method>", each with the check that it holds the ionisation yield."""
+        from driven_atom.observables import photoelectron as pe
+
+        atom, par, s, grid = self.atom, self.par, self.settings, self.grid
+        energies = np.asarray(par.energies)
+        n_x = self._angles(par)
+        x, w = pe.emission_angles(n_x)
+        k_order = max(2, min(2 * par.l_max, n_x - 1))
+        r_abs = grid.r_max - par.absorber_width
+        out = {}
+        for i, method in enumerate(s.photoelectron_methods):
+            if method == "surface_flux":
+                a_end, b_end = float(self.alpha[-1]), float(self.beta[-1])
+                density = self.flux.densities(a_end, b_end)
+                fix = ("widen `solver.absorber_width` (slow electrons reflected from a narrow mask) or lower "
+                       "`solver.photoelectron_e_min`")
+            elif method == "window":
+                spacing = energies[1] - energies[0] if energies.size > 1 else energies[0]
+                gammas = pe.window_widths(energies, spacing, r_abs, atom.reduced_mass)
+                density = pe.window_densities(grid, atom, self.stepper.state(), energies, gammas, x)
+                fix = (f"raise `solver.r_max` to about {par.spectrum_radius + par.absorber_width:.0f} bohr (or leave "
+                       f"it unset: the box is then sized for the spectrum)")
+            else:
+                density = pe.projection_densities(grid, atom, self.stepper.state(), self.bound, energies, x, r_abs)
+                fix = (f"raise `solver.r_max` to about {par.spectrum_radius + par.absorber_width:.0f} bohr (or leave "
+                       f"it unset: the box is then sized for the spectrum)")
+            arrays = pe.spectrum_arrays(energies, x, w, density, atom.reduced_mass, k_max_order=k_order,
+                                        map_points=s.momentum_map_points)
+            name = "photoelectrons" if i == 0 else f"photoelectrons_{method}"
+            out[name] = arrays
+            held = pe.integrated(arrays)
+            expected = ionized - (self._unbound_inside(self.flux.radius) if method == "surface_flux" else 0.0)
+            missing = 1.0 - held / expected if expected > 1e-12 else 0.0
+            suffix = "" if i == 0 else f"_{method}"
+            what = ("ionisation yield less the unbound norm still inside the sphere" if method == "surface_flux"
+                    else "ionisation yield")
+            checks.append(assess(f"spectrum_missing_fraction{suffix}", abs(missing), soft=0.03, key="solver.r_max",
+                                 why=f"|1 − ∫dP/dE dE / ({what})| of the {method} spectrum (electrons lost before "
+                                     f"they were counted, reflected, or outside the energies)", fix=fix))
+        return out
+
+
+def _observables(psi, r, c, force) -> np.ndarray:
+    """(norm, ⟨z⟩, ⟨cos θ · dV/dr⟩, ⟨p_z⟩) of ψ[r, l] (the kernels' per-step quantities, for the first
+    sample; ``force`` = dV/dr at the grid points): ⟨p_z⟩ = Σ_l 2c_l Σ_i [Im(u*_l ∂_r u_{l+1}) +
+    (l+1)/rᵢ Im(u*_l u_{l+1})], ∂_r the fourth-order central difference (u = 0 beyond the grid), from
+    p_z = −i∂_z on the pair (l, l+1): c_l(d/dr + (l+1)/r) and c_l(d/dr − (l+1)/r) (docs/physics.md,
+    "Grid route")."""
+    a, b = psi[:, :-1], psi[:, 1:]
+    ang = 2 * np.sum(c[None, :-1] * (a.conj() * b).real, axis=1)
+    dr = r[1] - r[0] if r.size > 1 else r[0]
+    p = np.vstack([np.zeros((2, b.shape[1])), b, np.zeros((2, b.shape[1]))])
+    db = (p[:-4] - 8 * p[1:-3] + 8 * p[3:-1] - p[4:]) / (12 * dr)
+    kappa = np.arange(1, psi.shape[1])[None, :] / r[:, None]
+    mom = 2 * np.sum(c[None, :-1] * (a.conj() * (db + kappa * b)).imag)
+    return np.array([np.sum(abs(psi) ** 2), np.sum(r * ang), np.sum(force * ang), mom])
