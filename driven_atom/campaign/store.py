@@ -205,13 +205,19 @@ def write_failed(path, *, job_id: str, config: str, error: BaseException) -> Pat
 
 
 # -- running markers ----------------------------------------------------------------------------
-def _process_start(pid: int) -> str | None:
-    """Start time of a process (Linux /proc), to tell a live pid from a reused one."""
+def _proc_stat(pid: int) -> list[str] | None:
+    """The fields of ``/proc/PID/stat`` after the command name (Linux), or None."""
     try:
         with open(f"/proc/{pid}/stat") as fh:
-            return fh.read().rsplit(")", 1)[1].split()[19]
+            return fh.read().rsplit(")", 1)[1].split()
     except (OSError, IndexError):
         return None
+
+
+def _process_start(pid: int) -> str | None:
+    """Start time of a process (Linux /proc), to tell a live pid from a reused one."""
+    fields = _proc_stat(pid)
+    return fields[19] if fields and len(fields) > 19 else None
 
 
 def _identity() -> dict:
@@ -232,6 +238,9 @@ def _alive(info: dict) -> bool:
     except PermissionError:
         return True
     except (OSError, ValueError):
+        return False
+    fields = _proc_stat(pid)
+    if fields and fields[0] in ("Z", "X"):   # killed, not yet reaped (a container's init may never reap it)
         return False
     start = info.get("start")
     return start is None or _process_start(pid) in (None, start)
