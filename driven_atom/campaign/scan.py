@@ -130,20 +130,28 @@ def _convert(magnitude: float, unit: str, target: str, name: str) -> float:
         raise InputError(f"`{name}`: cannot express {magnitude!r} {unit} in {target} ({exc})") from None
 
 
-def _plain_units(path: str, route: str) -> str:
-    """The unit of a plain number on this key: atomic units for quantities (the unit kind comes
-    with the field's type), radians for cep, "1" else."""
+def axis_kind(path: str, route: str) -> str | None:
+    """The unit kind ("length", "intensity", ...) of the key a scan axis sets, or None for plain
+    values (the kind comes with the field's type).
+
+    >>> axis_kind("pulse.0.intensity", "levels"), axis_kind("solver.l_max", "grid")
+    ('intensity', None)
+    """
     from driven_atom.config import AtomConfig, FieldsConfig, OutputConfig, PulseConfig
     from driven_atom.quantities import unit_kind
     from driven_atom.settings import SETTINGS
 
-    leaf = path.rsplit(".", 1)[-1]
-    if leaf == "cep":
-        return "rad"
-    section = path.split(".", 1)[0]
+    section, leaf = path.split(".", 1)[0], path.rsplit(".", 1)[-1]
     model = {"pulse": PulseConfig, "atom": AtomConfig, "output": OutputConfig, "fields": FieldsConfig,
              "solver": SETTINGS.get(route)}.get(section)
-    return "au" if model is not None and unit_kind(model, leaf) is not None else "1"
+    return unit_kind(model, leaf) if model is not None else None
+
+
+def _plain_units(path: str, route: str) -> str:
+    """The unit of a plain number on this key: atomic units for quantities, radians for cep, "1" else."""
+    if path.rsplit(".", 1)[-1] == "cep":
+        return "rad"
+    return "au" if axis_kind(path, route) is not None else "1"
 
 
 def _coordinates(path: str, values: list, name: str, route: str) -> tuple[tuple, str]:
