@@ -4,7 +4,9 @@ driven-atom scan CONFIG --out DIR runs every job of the [scan] grid that is not 
 process pool (default), a running Dask scheduler (--scheduler ADDRESS), a Dask LocalCluster
 (--dask-local N) or the SLURM/PBS cluster of the config's [cluster] table. CONFIG may also be a
 campaign folder: its stored config runs again (resume). A second scan on a folder that is being
-worked on stops with exit code 2 naming the holder.
+worked on stops with exit code 2 naming the holder. A scan that ends with failed jobs exits with
+code 3 (and says how many, and that --retry-failed runs them again); `status` exits 0 whatever
+the jobs' states.
 """
 from __future__ import annotations
 
@@ -12,6 +14,7 @@ import sys
 from pathlib import Path
 
 _LAB_KEYS = ("intensity", "peak_field")
+EXIT_FAILED_JOBS = 3          # a scan that ended with failed jobs
 
 
 def register(subparsers) -> None:
@@ -78,15 +81,72 @@ def _scan(args):
     payload = {key: status[key] for key in ("folder", "total", "done", "failed", "pending", "running",
                                             "untrustworthy")}
     payload["wall_s"] = time.perf_counter() - started
+    if status["failed"]:                  # scripts can tell: exit 3 names the failed jobs
+        args.exit_code = EXIT_FAILED_JOBS
+        sys.stderr.write(f"driven-atom scan: {status['failed']} job(s) failed; see `driven-atom status {folder}`, "
+                         f"run again with --retry-failed to retry them\n")
     if not args.json:
         print(f"campaign {folder}: {status['done']}/{status['total']} done, {status['failed']} failed, "
               f"{status['pending']} pending ({payload['wall_s']:.1f} s)")
         if status["untrustworthy"]:
             print(f"  {status['untrustworthy']} done job(s) flagged by a quality check: see `driven-atom status {folder}`")
-        if status["failed"]:
-            print(f"  see `driven-atom status {folder}`; rerun with --retry-failed to run failed jobs again")
         print(f"  table: driven-atom collect {folder}")
     return payload
+
+
+def axis_headings(axes: dict) -> dict:
+    """Column headings of the scan axes: the key's last part (the whole path where two axes share
+    it) and the unit in brackets ("au" named by its kind).
+
+    >>> axis_headings({"pulse.0.intensity": {"units": "W/cm^2"}, "solver.l_max": {"units": "1"}})
+    {'pulse.0.intensity': 'intensity [W/cm^2]', 'solver.l_max': 'l_max'}
+    """
+    leaves = [path.rsplit(".", 1)[-1] for path in axes]
+    out = {}
+    for path, axis in axes.items():
+        leaf = path.rsplit(".", 1)[-1]
+        name = leaf if leaves.count(leaf) == 1 else path
+        units = axis.get("units") or "1"
+        out[path] = name if units == "1" else f"{name} [{units}]"
+    return out
+
+
+def axis_texts(values: list) -> list[str]:
+    """Numbers with as few significant digits (at least 4) as tell neighbours apart; texts as they are.
+
+    >>> axis_texts([121.56834, 121.568375, 121.56841])
+    ['121.56834', '121.56838', '121.56841']
+    """
+    numbers = [v for v in values if isinstance(v, (int, float)) and not isinstance(v, bool)]
+    for digits in range(4, 17):
+        texts = [f"{v:.{digits}g}" for v in numbers]
+        if len(set(texts)) == len(set(numbers)):
+            break
+    formatted = iter(texts if numbers else [])
+    return [next(formatted) if isinstance(v, (int, float)) and not isinstance(v, bool) else str(v) for v in values]
+
+
+def _duration(seconds) -> str:
+    if seconds is None:
+        return "-"
+    if seconds < 120:
+        return f"{seconds:.1f} s"
+    return f"{seconds / 60:.1f} min" if seconds < 7200 else f"{seconds / 3600:.1f} h"
+
+
+def status_table(status: dict, width: int = 160) -> list[str]:
+    """The rows of ``driven-atom status`` as text lines: axis values, status, wall time, trust, reason."""
+    headings = axis_headings(status["axes"])
+    columns = {path: axis_texts([job["values"][path] for job in status["jobs"]]) for path in headings}
+    head = [*headings.values(), "status", "wall_s", "trusted", "job", "reason"]
+    rows = []
+    for i, job in enumerate(status["jobs"]):
+        wall = f"{job['wall_s']:.3f}" if job["wall_s"] is not None else "-"
+        trust = {True: "yes", False: "NO", None: "-"}[job["trustworthy"]]
+        reason = job["error"] if len(job["error"]) <= width else job["error"][:width - 3] + "..."
+        rows.append([*(columns[path][i] for path in headings), job["status"], wall, trust, job["id"], reason])
+    widths = [max(len(str(r[j])) for r in [head, *rows]) for j in range(len(head))]
+    return ["  ".join(str(cell).ljust(w) for cell, w in zip(line, widths)).rstrip() for line in [head, *rows]]
 
 
 def _status(args):
@@ -100,12 +160,15 @@ def _status(args):
           f"failed {status['failed']}  pending {status['pending']}"
           f"  (checkpointed {status['checkpointed']}, corrupt {status['corrupt']}; "
           f"untrustworthy {status['untrustworthy']})")
-    print(f"  wall time of done jobs: {status['wall_s_total']:.2f} s")
-    print(f"  {'job':<18}{'status':<14}{'wall_s':>10}  {'trusted':<8} error")
-    for job in status["jobs"]:
-        wall = f"{job['wall_s']:.3f}" if job["wall_s"] is not None else "-"
-        trust = {True: "yes", False: "NO", None: "-"}[job["trustworthy"]]
-        print(f"  {job['id']:<18}{job['status']:<14}{wall:>10}  {trust:<8} {job['error']}")
+    line = f"  wall time of done jobs: {_duration(status['wall_s_total'])}"
+    if status["eta_s"] is not None:
+        workers = f"{status['workers']} workers" if status["workers"] else "workers: as many as are running"
+        line += f"; ETA {_duration(status['eta_s'])} ({workers})"
+    print(line)
+    for text in status_table(status):
+        print("  " + text)
+    if status["failed"]:
+        print(f"  rerun with `driven-atom scan {status['folder']} --retry-failed` to run failed jobs again")
     return None
 
 
