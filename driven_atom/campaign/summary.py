@@ -39,9 +39,10 @@ SPECTRUM_AXES = ("energy", "omega", "frequency", "order", "k")
 
 
 def axis_attributes(path: str, units: str, route: str) -> dict:
-    """``units``, ``long_name`` and ``key_path`` of a scan-axis coordinate: the user's own unit
-    (plain numbers of a quantity, stored as "au" in the plan, get the UDUNITS spelling of the atomic
-    unit, :mod:`driven_atom.stored_units`).
+    """``units``, ``long_name``, ``key_path`` and ``user_units`` (for labels) of a scan-axis
+    coordinate: the user's own unit (plain numbers of a quantity, stored as "au" in the plan, get the
+    UDUNITS spelling of the atomic unit, :mod:`driven_atom.stored_units`, and its name as
+    ``user_units``).
 
     >>> axis_attributes("solver.r_max", "au", "basis")["units"]
     '5.29177210544e-11 m'
@@ -49,11 +50,13 @@ def axis_attributes(path: str, units: str, route: str) -> dict:
     from driven_atom.campaign.scan import axis_kind
     from driven_atom.stored_units import attributes
 
+    from driven_atom.stored_units import au_name
+
     name = f"scan axis {path}"
     if units == "au":
         kind = axis_kind(path, route)
-        return {**attributes(kind or "1", name), "key_path": path}
-    return {"units": units or "1", "long_name": name, "key_path": path}
+        return {**attributes(kind or "1", name), "key_path": path, "user_units": au_name(kind) if kind else "1"}
+    return {"units": units or "1", "long_name": name, "key_path": path, "user_units": units or "1"}
 
 
 def _coordinates(plan: dict) -> dict:
