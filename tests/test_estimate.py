@@ -177,7 +177,7 @@ def test_cli_json_caution_and_one_line_errors(capsys):
                  "--json"]) == 0
     captured = capsys.readouterr()
     data = json.loads(captured.out)                      # stdout: exactly one JSON object
-    assert "laser safety officer" in captured.err
+    assert "laser safety officer" in data["caution"] and captured.err == ""
     assert data["excitation"]["transition"] == "1s0-2p" and data["excited_per_shot"] > 0
     assert data["density_cm3"] == pytest.approx(1e-5 / (1.380649e-23 * 293) * 1e-6, rel=1e-9)  # n = p/(kB T)
     assert any("lives" in note for note in data["notes"])             # 2p decays within the 1 ns pulse

@@ -13,7 +13,6 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-_LAB_KEYS = ("intensity", "peak_field")
 EXIT_FAILED_JOBS = 3          # a scan that ended with failed jobs
 
 
@@ -81,6 +80,7 @@ def _scan(args):
     payload = {key: status[key] for key in ("folder", "total", "done", "failed", "pending", "running",
                                             "untrustworthy")}
     payload["wall_s"] = time.perf_counter() - started
+    payload["caution"] = _scan_caution(cfg)
     if status["failed"]:                  # scripts can tell: exit 3 names the failed jobs
         args.exit_code = EXIT_FAILED_JOBS
         sys.stderr.write(f"driven-atom scan: {status['failed']} job(s) failed; see `driven-atom status {folder}`, "
@@ -91,7 +91,18 @@ def _scan(args):
         if status["untrustworthy"]:
             print(f"  {status['untrustworthy']} done job(s) flagged by a quality check: see `driven-atom status {folder}`")
         print(f"  table: driven-atom collect {folder}")
+        if payload["caution"]:
+            print(payload["caution"])
     return payload
+
+
+def _scan_caution(cfg) -> str | None:
+    """The laser-safety caution for the strongest pulse at the corners of the scan, or None."""
+    from driven_atom.campaign.scan import corner_configs
+    from driven_atom.pulse import build_pulse
+    from driven_atom.safety import laser_caution
+
+    return laser_caution([build_pulse(c) for c in corner_configs(cfg)])
 
 
 def axis_headings(axes: dict) -> dict:
@@ -174,7 +185,6 @@ def _status(args):
 
 def _collect(args):
     from driven_atom.campaign.summary import collect, open_campaign
-    from driven_atom.cli import SAFETY_CAUTION
 
     folder = Path(args.folder)
     path = collect(folder, csv=args.csv)
@@ -184,17 +194,12 @@ def _collect(args):
                "dims": dims, "total": int(ds.attrs["n_jobs"]), "done": int(ds.attrs["jobs_done"]),
                "failed": int(ds.attrs["jobs_failed"]), "missing": int(ds.attrs["jobs_missing"]),
                "untrustworthy": int(ds.attrs["jobs_untrustworthy"])}
-    lab = any(str(name).rsplit(".", 1)[-1] in _LAB_KEYS for name in ds.coords)
     if args.json:
-        if lab:
-            sys.stderr.write(SAFETY_CAUTION + "\n")
         return payload
     print(f"summary: {path}" + (f"\ncsv:     {payload['csv']}" if args.csv else ""))
     print("  dims: " + ", ".join(f"{d} = {n}" for d, n in dims.items()) +
           f"; {payload['done']}/{payload['total']} jobs done, {payload['failed']} failed, "
           f"{payload['untrustworthy']} flagged by a quality check")
     print("  open it: xarray.open_dataset(path, engine=\"h5netcdf\") or driven_atom.open_campaign(folder)")
-    if lab:
-        print(SAFETY_CAUTION)
     return None
 

@@ -1,12 +1,10 @@
 """``driven-atom estimate CONFIG [--waist W] [--m2 M2] [--density N | --pressure P [--temperature T]]
 [--length L] [--json]``: quick lab estimate of excitation and ionisation (:mod:`driven_atom.lab`).
 
-Prints a table (or one JSON object with the keys of :func:`driven_atom.lab.estimate`) and the
-laser-safety caution (stderr with ``--json``).
+Prints a table (or one JSON object with the keys of :func:`driven_atom.lab.estimate` and the
+laser-safety caution as ``caution``) and the caution: its numbers size a real experiment.
 """
 from __future__ import annotations
-
-import sys
 
 # (key, label, format)
 _ROWS = [
@@ -64,8 +62,7 @@ def handle(args):
     out = significant(estimate(args.config, waist=args.waist, m2=args.m2, density=args.density,
                                pressure=args.pressure, temperature=args.temperature, length=args.length))
     if args.json:
-        sys.stderr.write(SAFETY_CAUTION + "\n")
-        return out
+        return {**out, "caution": SAFETY_CAUTION}
     print(table(out))
     print(SAFETY_CAUTION)
     return None
