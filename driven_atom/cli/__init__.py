@@ -16,7 +16,7 @@ from driven_atom.errors import InputError
 # modules that define subcommands; each has register(subparsers)
 _COMMAND_MODULES = ["driven_atom.cli.atom_cmds", "driven_atom.cli.pulse_cmd", "driven_atom.cli.run_cmd", "driven_atom.cli.campaign_cmds",
                     "driven_atom.cli.estimate_cmd", "driven_atom.cli.plot_cmd", "driven_atom.cli.check_cmd",
-                    "driven_atom.cli.converge_cmd"]
+                    "driven_atom.cli.converge_cmd", "driven_atom.cli.keys_cmd", "driven_atom.cli.report_cmd"]
 
 SAFETY_CAUTION = (
     "CAUTION: lasers at these intensities are class-4 hazards: direct, reflected and scattered beams "

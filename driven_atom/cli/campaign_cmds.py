@@ -47,6 +47,7 @@ def register(subparsers) -> None:
     p = subparsers.add_parser("collect", help="write the summary table of a campaign folder")
     p.add_argument("folder", metavar="DIR")
     p.add_argument("--csv", action="store_true", help="also write summary.csv")
+    p.add_argument("--rows", type=int, default=60, metavar="N", help="rows of the printed table (default 60, 0: none)")
     add_common(p)
     p.set_defaults(handler=_collect)
 
@@ -186,6 +187,10 @@ def _status(args):
 def _collect(args):
     from driven_atom.campaign.summary import collect, open_campaign
 
+    from driven_atom.errors import InputError
+
+    if args.rows < 0:
+        raise InputError(f"`--rows` must be a whole number >= 0, got {args.rows}")
     folder = Path(args.folder)
     path = collect(folder, csv=args.csv)
     ds = open_campaign(path)
@@ -200,6 +205,45 @@ def _collect(args):
     print("  dims: " + ", ".join(f"{d} = {n}" for d, n in dims.items()) +
           f"; {payload['done']}/{payload['total']} jobs done, {payload['failed']} failed, "
           f"{payload['untrustworthy']} flagged by a quality check")
-    print("  open it: xarray.open_dataset(path, engine=\"h5netcdf\") or driven_atom.open_campaign(folder)")
+    for line in summary_table(ds, args.rows):
+        print("  " + line)
+    print("  open it: xarray.open_dataset(path, engine=\"h5netcdf\") or driven_atom.open_campaign(folder); "
+          "draw it: driven-atom plot " + str(folder))
     return None
+
+
+def summary_table(ds, rows: int = 60) -> list[str]:
+    """The summary as text: one row per grid point (at most ``rows``), the axis values in the
+    user's units, the job status, the ionisation and the final population of each level."""
+    import numpy as np
+
+    from driven_atom.plotting import _levels_only
+
+    dims = list(ds["ionization"].dims)
+    axes = {str(n): {"units": ds[n].attrs.get("user_units", ds[n].attrs.get("units", "1"))}
+            for n in ds.coords if n != "state" and set(ds[n].dims) <= set(dims) and ds[n].dims}
+    headings = axis_headings(axes)
+    states = list(_levels_only({str(s): None for s in ds["state"].values})) if "state" in ds.coords else []
+    head = [*headings.values(), "status", "ionization", *(f"P({s})" for s in states)]
+    values = {path: axis_texts(ds[path].values.tolist()) for path in headings}
+    lines = []
+    for count, idx in enumerate(np.ndindex(*ds["ionization"].shape)):
+        if count == rows:
+            break
+        point = dict(zip(dims, idx))
+        row = [values[path][point[ds[path].dims[0]]] for path in headings]
+        row += [str(ds["status"].values[idx]), _number(ds["ionization"].values[idx])]
+        row += [_number(ds["population"].sel(state=s).values[idx]) for s in states]
+        lines.append(row)
+    widths = [max(len(r[j]) for r in [head, *lines]) for j in range(len(head))]
+    text = ["  ".join(cell.rjust(w) for cell, w in zip(line, widths)) for line in [head, *lines]]
+    total = int(np.prod(ds["ionization"].shape))
+    if total > rows:
+        text.append(f"... {total - rows} more rows (all of them: --rows {total}, or summary.csv with --csv)")
+    return text
+
+
+def _number(value) -> str:
+    value = float(value)
+    return "-" if value != value else f"{value:.4g}"
 
