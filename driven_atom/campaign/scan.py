@@ -147,6 +147,20 @@ def axis_kind(path: str, route: str) -> str | None:
     return unit_kind(model, leaf) if model is not None else None
 
 
+def unit_label(path: str, units: str, route: str) -> str:
+    """An axis unit as people read it: the plan's "au" named by the key's kind ("bohr", "hartree").
+
+    >>> unit_label("solver.r_max", "au", "grid"), unit_label("pulse.0.wavelength", "nm", "grid")
+    ('bohr', 'nm')
+    """
+    if units != "au":
+        return units or "1"
+    from driven_atom.stored_units import au_name
+
+    kind = axis_kind(path, route)
+    return au_name(kind) if kind else "1"
+
+
 def _plain_units(path: str, route: str) -> str:
     """The unit of a plain number on this key: atomic units for quantities, radians for cep, "1" else."""
     if path.rsplit(".", 1)[-1] == "cep":

@@ -400,7 +400,8 @@ def campaign_status(folder) -> dict:
     ``pending`` counts every job neither done, failed nor running (``checkpointed`` and
     ``corrupt`` jobs among them, also counted separately), so done + running + failed + pending
     = total. Each row: ``id``, ``status``, ``wall_s``, ``error`` (the one-line reason of a failed
-    or corrupt job), ``trustworthy``, ``values`` (axis path -> value in the units of ``axes``),
+    or corrupt job), ``trustworthy``, ``values`` (axis path -> value in the units of ``axes``:
+    the user's, plain numbers of a quantity in its atomic unit, named),
     ``index`` (grid position) and ``points`` (grid points of equal physics it stands for).
     """
     plan = read_plan(folder)
@@ -426,7 +427,11 @@ def campaign_status(folder) -> dict:
     workers = lock.holder().get("workers") if active else None
     mean_wall = sum(walls) / len(walls) if walls else None
     eta = eta_seconds(mean_wall, counts[PENDING], counts[RUNNING], workers) if active else None
-    axes = {path: {"dim": axis["dim"], "units": axis["units"]} for path, axis in plan.get("axes", {}).items()}
+    from driven_atom.campaign.scan import unit_label
+
+    route = str(plan.get("config", {}).get("solver", {}).get("route", ""))
+    axes = {path: {"dim": axis["dim"], "units": unit_label(path, axis["units"], route)}
+            for path, axis in plan.get("axes", {}).items()}
     return {"folder": str(folder), "total": len(jobs), **counts, "untrustworthy": untrustworthy,
             "scan_active": active, "wall_s_total": float(sum(walls)), "wall_s_mean": mean_wall,
             "eta_s": eta, "workers": workers, "axes": axes, "jobs": jobs}

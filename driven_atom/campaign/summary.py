@@ -47,15 +47,13 @@ def axis_attributes(path: str, units: str, route: str) -> dict:
     >>> axis_attributes("solver.r_max", "au", "basis")["units"]
     '5.29177210544e-11 m'
     """
-    from driven_atom.campaign.scan import axis_kind
+    from driven_atom.campaign.scan import axis_kind, unit_label
     from driven_atom.stored_units import attributes
-
-    from driven_atom.stored_units import au_name
 
     name = f"scan axis {path}"
     if units == "au":
-        kind = axis_kind(path, route)
-        return {**attributes(kind or "1", name), "key_path": path, "user_units": au_name(kind) if kind else "1"}
+        return {**attributes(axis_kind(path, route) or "1", name), "key_path": path,
+                "user_units": unit_label(path, units, route)}
     return {"units": units or "1", "long_name": name, "key_path": path, "user_units": units or "1"}
 
 
