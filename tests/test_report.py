@@ -93,7 +93,7 @@ def test_report_default_path_and_bad_suffix(report, capsys):
     assert err.count("\n") == 1 and "`--out`" in err and not (report / "r.txt").exists()
 
 
-BROWSERS = ("chromium", "chromium-browser", "google-chrome", "google-chrome-stable", "chrome")
+BROWSERS = ("chromium-headless-shell", "chromium", "chromium-browser", "google-chrome", "google-chrome-stable", "chrome")
 
 
 def test_report_renders_in_a_headless_browser(report, tmp_path):
