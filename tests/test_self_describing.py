@@ -128,3 +128,16 @@ def test_open_campaign_keeps_the_axes_in_the_users_units(campaign):
     assert ds["solver.atol"].attrs["units"] == "1" and "scan axis" in intensity.attrs["long_name"]
     assert ds["population"].sel({"pulse.0.intensity": 100.0, "state": "2p"}).size == 2
     assert math.isfinite(float(ds["population"].sel(state="1s").max()))
+
+
+def test_a_zipped_scan_dimension_has_units_too(tmp_path):
+    from driven_atom.campaign.scan import expand
+    from driven_atom.campaign.summary import collect
+
+    cfg = {**LEVELS, "scan": {"pulse.0.intensity": ["10 W/cm^2", "100 W/cm^2"], "solver.atol": [1e-12, 1e-11],
+                              "zip": {"knob": ["pulse.0.intensity", "solver.atol"]}}}
+    store.write_plan(tmp_path, expand(cfg))
+    found = _datasets(collect(tmp_path))
+    assert "knob" in {name for name, _ in found}
+    for name, attrs in found:
+        assert "units" in attrs and "long_name" in attrs, name

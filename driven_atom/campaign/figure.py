@@ -46,6 +46,8 @@ class _Axis:
     def __init__(self, ds, dim: str):
         self.dim = dim
         names = [str(n) for n in ds.coords if ds[n].dims == (dim,) and n != "state"]
+        if len(names) > 1 and dim in names:            # a zipped group's position: draw its axes instead
+            names.remove(dim)
         self.path = names[0] if names else dim
         coord = ds[self.path] if names else None
         raw = coord.values if coord is not None else np.arange(ds.sizes[dim])

@@ -159,6 +159,11 @@ def build_dataset(folder):
     }
     data_vars.update(_spectra_variables(results, index_of, dims, shape))
     coords = _coordinates(plan)
+    for dim, size in zip(dims, shape):
+        if dim not in coords:          # a zipped group: its position, so no dimension is left without units
+            members = ", ".join(p for p, a in plan.get("axes", {}).items() if a["dim"] == dim)
+            coords[dim] = ((dim,), np.arange(size), {"units": "1", "long_name": f"position along the zipped scan "
+                                                     f"dimension {dim} ({members})"})
     coords["state"] = (("state",), np.array(labels, dtype=str), {"units": "1", "long_name": "state label"})
     counts = {s: sum(1 for v in status.values() if v == s)
               for s in (store.DONE, store.FAILED, store.CHECKPOINTED, store.CORRUPT, store.PENDING)}
