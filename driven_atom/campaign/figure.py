@@ -86,8 +86,7 @@ class _Axis:
         middle = float(np.median(frequency))
         if not span > 0 or span > 0.01 * middle:
             return
-        lines = _lines_hz(ds.attrs.get("config", ""), int(self.path.split(".")[1]) if self.path.count(".") == 2
-                          else 0)
+        lines = _lines_hz(ds.attrs.get("config", ""))
         if not lines:
             return
         name, line_hz = min(lines.items(), key=lambda item: abs(item[1] - middle))
@@ -112,7 +111,7 @@ def _frequencies_hz(values, units: str):
         return None
 
 
-def _lines_hz(config_text: str, pulse_index: int) -> dict:  # noqa: ARG001 - every pulse sees the same atom
+def _lines_hz(config_text: str) -> dict:
     """Photon frequencies (Hz) of the one- and two-photon lines from the initial level of the
     config's atom: to the levels of a levels-route model (its fine or hyperfine components under a
     structure), or to the Bohr shells n <= 12 on the other routes."""
@@ -254,7 +253,7 @@ def _draw_lines(ax, name, values, errors, trust, axes, lead, line_dim, fixed) ->
         y_err = err.isel({line_dim: k}) if err is not None and line_dim else err
         bad = flag.isel({line_dim: k}) if line_dim else flag
         yv = np.asarray(y.transpose(lead).values, dtype=float)
-        label = _line_label(axes[line_dim], k) if line_dim else name
+        label = _value_text(axes[line_dim], k) if line_dim else name
         slope = local_slope(x_axis.values, yv) if show_slope else None
         if slope is not None:
             label += f"  (slope {slope:.2f})"
@@ -363,10 +362,6 @@ def _value_text(axis: _Axis, i: int) -> str:
     values = axis.values[np.isfinite(axis.values)]
     digits = next((d for d in range(3, 17) if len({f"{v:.{d}g}" for v in values}) == len(set(values))), 17)
     return f"{axis.values[i]:.{digits}g}" + (f" {unit}" if unit else "")
-
-
-def _line_label(axis: _Axis, i: int) -> str:
-    return _value_text(axis, i)
 
 
 def campaign_figure(ds):
