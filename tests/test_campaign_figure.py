@@ -57,7 +57,7 @@ def test_three_photon_ionisation_slope_in_the_figure(three_photon, capsys, tmp_p
     assert ds["ionization"].max() < 1e-4                                     # well below saturation
     # the two-photon excitation of 2s in the same figure: slope 2
     (two_s,) = [p for p in payload["panels"] if p["observable"] == "population 2s"]
-    assert two_s["lines"][0]["slope"] == pytest.approx(2.0, rel=0.05)
+    assert two_s["lines"][0]["slope"] == pytest.approx(2.0, rel=0.05)          # photon order (common practice)
 
 
 def test_plot_of_the_summary_file_and_of_the_folder_draw_the_campaign(three_photon, capsys):
