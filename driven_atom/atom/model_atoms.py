@@ -17,7 +17,7 @@ electron leaves behind). Hydrogen-like atoms have no model: their V = −Z/r is 
 >>> ar = model_potential("Ar")
 >>> ar.Z, ar.ground.label, ar.l_dependent
 (18, '3p', False)
->>> round(float(ar.potential(1e-8, 1) * 1e-8), 6)          # -Z at the nucleus
+>>> round(float(ar.potential(1e-9, 1) * 1e-9), 4)          # -Z at the nucleus
 -18.0
 >>> round(float(ar.potential(60.0, 1) * 60.0), 6)          # -Z_c far out
 -1.0
