@@ -663,6 +663,9 @@ class LevelsRoute(Route):
         the classical ionisation field Z³μ²/(16 n⁴) of the highest shell (the model keeps each shell's
         Stark mixing only)."""
         super().check(atom, pulse, initial, cfg)
+        if atom.model is not None:
+            raise InputError(f"`atom.species` = {atom.species!r}: route \"levels\" takes hydrogen-like atoms only so far; "
+                             f"use route \"basis\" (any species) or \"grid\" (He, Ne, Ar, Kr, Xe)")
         if cfg is not None and is_structured(cfg.atom.structure, cfg.solver.two_photon):
             model_states = _structured_states(atom, cfg.solver.states, cfg.atom.structure)
             n_top = max(st.n for st in model_states)
