@@ -62,7 +62,7 @@ class RouteSettings(BaseModel):
 
 
 class LevelsSettings(RouteSettings):
-    """``[solver]`` of route ``levels``: master equation of chosen hydrogenic sublevels (qutip)."""
+    """``[solver]`` of route ``levels``: master equation of chosen sublevels (qutip)."""
 
     route: Literal["levels"] = Field("levels", description="the few-level master-equation route")
     states: list[str] = Field(..., min_length=1, description=(
@@ -71,6 +71,10 @@ class LevelsSettings(RouteSettings):
         '("2p" then brings all its j, F and m)'))
     rwa: Flag = Field(True, description=(
         "rotating-wave approximation: each pulse drives only the transitions nearest its carrier"))
+    energies: Literal["model", "measured"] = Field("model", description=(
+        "level energies of a model atom (`atom.species`): the model's own, or the measured ones (NIST ASD "
+        "fine-structure centroids, where the data file has them) so that resonances sit at the lab's "
+        "wavelengths; dipoles and cross sections stay the model's"))
     decay: Flag = Field(True, description="spontaneous decay with the Einstein A of each m->m' channel")
     dephasing: Quantity("rate", ge=0) = Field(0.0, description=(
         'pure dephasing rate of coherences between different energies ("1 GHz" = 1e9 s^-1); with '

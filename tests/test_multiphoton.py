@@ -111,3 +111,18 @@ def test_two_photon_ionisation_agrees_with_a_weak_field_tdse():
     tdse = propagate(H, pulse, settings, initial=[(State(1, 0, 0), 1.0)], output=OutputConfig()).ionization
     assert 1e-6 < tdse < 1e-4
     assert lopt == pytest.approx(tdse, rel=0.03)
+
+
+def test_dalgarno_lewis_sums_agree_with_the_analytic_hydrogenic_sums():
+    # two independent second-order methods: Dalgarno-Lewis equations on the radial grid (here, any
+    # potential) against the closed-form bound sums plus continuum integrals of atom.twophoton
+    # (hydrogen only); the 1S-2S coefficients at 243 nm (Haas et al., PRA 73, 052501 (2006)) from both
+    from driven_atom.atom.twophoton import haas_coefficients
+
+    omega, per_wm2 = 0.1875, 1 / AU_INTENSITY_WM2
+    analytic = haas_coefficients(H, omega)
+    M = two_photon_coupling(H, State(1, 0, 0), State(2, 0), omega)
+    assert 0.25 * per_wm2 * M / AU_TIME_S / (2 * math.pi) == pytest.approx(analytic["beta_ge"], rel=5e-4)
+    for label, key in ((State(1, 0, 0), "beta_ac_1s"), (State(2, 0, 0), "beta_ac_2s")):
+        shift = -dynamic_polarizability(H, label, omega).real * per_wm2 / 4 / AU_TIME_S / (2 * math.pi)
+        assert shift == pytest.approx(analytic[key], rel=5e-3), key

@@ -115,7 +115,7 @@ def scan(config, out, *, executor=None, workers: int | None = None, retry_failed
                 todo.append(job)
         _run_all(todo, folder, executor=executor, workers=workers, cluster=cfg.cluster,
                  progress=progress, total=len(jobs), initial=done, failed=failed,
-                 cache_dir=None if cache_dir is None else str(Path(cache_dir).resolve()))
+                 cache_dir=None if cache_dir is None else str(Path(cache_dir).resolve()), lock=lock)
     return folder
 
 
@@ -123,7 +123,8 @@ def _note(text: str) -> None:
     sys.stderr.write(f"driven-atom scan: {text}\n")
 
 
-def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initial, failed, cache_dir) -> None:
+def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initial, failed, cache_dir,
+             lock=None) -> None:
     from tqdm.auto import tqdm
 
     from driven_atom import stopping
@@ -137,6 +138,8 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
     stop, storage, interrupted = None, None, 0
     try:
         with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo)) as runner:
+            if lock is not None:
+                lock.note(workers=runner.workers)     # for the ETA of `driven-atom status`
             where = str(Path(folder).resolve())          # workers on other nodes have another cwd
             tag = hashlib.sha256(where.encode()).hexdigest()[:8]   # Dask keys: one per job and folder
             futures = {runner.submit(run_job, job.id, job.config, where, cache_dir,

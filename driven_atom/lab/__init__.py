@@ -174,7 +174,7 @@ def estimate(config=None, *, lab: dict | None = None, table=None, check: bool = 
         "peak_field_au": math.sqrt(i0_au),
         "keldysh": keldysh(ip, i0_au, case.photon_energy),
         "ponderomotive_eV": i0_au / (4 * case.photon_energy**2) * HARTREE_EV,
-        "barrier_suppression_Wcm2": ip**4 / (16 * case.atom.Z**2) * AU_INTENSITY_WM2 * 1e-4,
+        "barrier_suppression_Wcm2": ip**4 / (16 * _charge(case)**2) * AU_INTENSITY_WM2 * 1e-4,
         "probability_peak": float(ions(np.array([1.0]))[0]),
         "excitation_peak": float(excited(np.array([1.0]))[0]) if excited is not None else None,
         "saturation_intensity_Wcm2": s_sat * case.peak_intensity * 1e-4 if s_sat is not None else None,
@@ -226,10 +226,17 @@ def estimate(config=None, *, lab: dict | None = None, table=None, check: bool = 
     return out
 
 
+def _charge(case) -> float:
+    """The charge the electron leaves behind: Z, or a model atom's Z_c."""
+    return float(case.atom.Z) if case.atom.model is None else case.atom.model.charge
+
+
 def _nearest(case) -> dict:
-    """The nearest one- and two-photon lines with their detunings (atom layer)."""
+    """The nearest one- and two-photon lines with their detunings (atom layer; none for a model atom)."""
     from driven_atom.atom.resonance import nearest_lines
 
+    if case.atom.model is not None:
+        return {}
     return {f"{k}-photon": (line.as_dict() if line is not None else None)
             for k, line in nearest_lines(case.atom, case.state, case.photon_energy).items()}
 

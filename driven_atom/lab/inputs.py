@@ -70,7 +70,7 @@ class LabInput(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
 
     species: str | None = Field(None, description="atom or ion: H, D, T, He+, Li2+, ... (the nucleus names "
-                                "of the atom layer)")
+                                "of the atom layer), or a model atom He, Ne, Ar, Kr, Xe, Li, Na, K, Rb, Cs")
     state: str | None = Field(None, description="initial state, e.g. \"1s\" or \"2p0\" (default 1s; m = 0 "
                               "unless given)")
     wavelength: LabQuantity("length", gt=0) | None = Field(None, description="vacuum wavelength of the laser")
@@ -116,14 +116,15 @@ class LabInput(BaseModel):
     @classmethod
     def _species(cls, value):
         from driven_atom.atom import Atom
+        from driven_atom.atom.model_atoms import species_names
         from driven_atom.atom.species import NUCLEI
 
-        if value is None:
+        if value is None or value in species_names():
             return value
         try:
             Atom.from_name(value)
         except InputError:
-            names = [n for n in NUCLEI if n != "infinite"] + ["He+", "Li2+", "Be3+", "..."]
+            names = [n for n in NUCLEI if n != "infinite"] + ["He+", "Li2+", "Be3+", "..."] + species_names()
             raise ValueError(f"`species` must be a hydrogen-like atom or ion ({', '.join(names)}), "
                              f"got {short(repr(value))}") from None
         return value
@@ -313,15 +314,19 @@ def _resolve(lab: LabInput, run: dict, given: dict) -> LabCase:
     warnings: list = []
     # the atom and its state
     if lab.species is not None:
-        atom, species = Atom.from_name(lab.species), lab.species
+        atom, species = _species_atom(lab.species), lab.species
     elif run.get("atom") is not None:
-        atom, species = run["atom"], run["nucleus"] if run["nucleus"] != "infinite" else f"Z={run['atom'].Z}"
+        atom = run["atom"]
+        species = (atom.species if atom.model is not None
+                   else run["nucleus"] if run["nucleus"] != "infinite" else f"Z={atom.Z}")
     else:
         raise InputError("`species` is required: the atom or ion, e.g. --species H (H, D, T, He+, Li2+, ...)")
     if lab.state is not None:
         state = parse_state(lab.state, name="state")
+    elif atom.model is not None and lab.species is not None:
+        state = atom.model.ground
     else:
-        state = run.get("state") or State(1, 0)
+        state = run.get("state") or (atom.model.ground if atom.model is not None else State(1, 0))
     polarization = {"circular": "circular+"}.get(lab.polarization, lab.polarization)
     component = _choose_component(run.get("components", []), notes)
     if component is not None and component.envelope_kind == "static":
@@ -430,6 +435,15 @@ def _resolve(lab: LabInput, run: dict, given: dict) -> LabCase:
                    linewidth=lab.linewidth or 0.0, notes=notes, warnings=warnings)
     case.inputs = _echo(case, lab, given, durations)
     return case
+
+
+def _species_atom(name: str):
+    """A model atom by species name (He, Ne, Ar, ...: the neutral atom), else a hydrogen-like atom or
+    ion by nucleus or ion name (H, D, He+, ...)."""
+    from driven_atom.atom import Atom
+    from driven_atom.atom.model_atoms import species_names
+
+    return Atom.from_species(name) if name in species_names() else Atom.from_name(name)
 
 
 def _atom_mass_kg(atom) -> float:

@@ -57,11 +57,30 @@ class Model:
 
 # -- the atom, through the atom layer (the one place model atoms will plug in) -----------------------
 def binding_energy(atom, state) -> float:
-    """Iₚ of the level of ``state`` (hartree), from :func:`driven_atom.atom.resonance.level_energy`."""
+    """Iₚ of the level of ``state`` (hartree), from :func:`driven_atom.atom.resonance.level_energy`;
+    for a model atom the model's own level (:mod:`driven_atom.basis.model_levels`)."""
     from driven_atom.atom import State
+
+    if atom.model is not None:
+        from driven_atom.basis.model_levels import energy
+
+        return -energy(atom, State(state.n, state.l))
     from driven_atom.atom.resonance import level_energy
 
     return -level_energy(atom, State(state.n, state.l))
+
+
+def tunnel_parameters(atom, state, ip: float) -> tuple[float, float | None]:
+    """(charge left behind, C²_{n*l*} or None) for the tunnelling rates: (Z, None: the Hartree-type
+    C² of ADK) for a hydrogen-like atom; (Z_c = 1, the real atom's C_l²/κ^{2n*+1} of Tong, Zhao &
+    Lin, PRA 66, 033402 (2002)) for a model atom in its ground state."""
+    if atom.model is None:
+        return float(atom.Z), None
+    from driven_atom.atom.model_atoms import adk_coefficient
+
+    ground = atom.model.ground
+    own = (state.n, state.l) == (ground.n, ground.l)
+    return atom.model.charge, adk_coefficient(atom.model, ip) if own else None
 
 
 def spherical_q(polarization: str) -> int:
@@ -87,7 +106,8 @@ def choose_model(case) -> Model:
     ip = binding_energy(atom, state)
     i0 = case.peak_intensity / AU_INTENSITY_WM2
     gamma = keldysh(ip, i0, omega)
-    i_bs = ip**4 / (16 * atom.Z**2)
+    charge, _ = tunnel_parameters(atom, state, ip)
+    i_bs = ip**4 / (16 * charge**2)
     if omega >= ip:
         return _one_photon(case, ip)
     if i0 > i_bs:
@@ -104,6 +124,11 @@ def choose_model(case) -> Model:
     up = i0 / (4 * omega**2)
     N = photon_order(ip, omega)
     perturbative = gamma >= LOPT_MIN_KELDYSH and up < omega / 4
+    if perturbative and atom.model is not None:
+        model = _ppt_model(case, ip, i0, gamma, regime="multiphoton")
+        model.why = (f"{N} photons, Keldysh gamma {gamma:.3g}: a model atom ({atom.model.name}) has no resonance or "
+                     f"N-photon perturbation theory here yet; PPT with the real atom's tunnelling parameters")
+        return model
     if perturbative:
         resonant = _resonance(case, ip, i0)
         if resonant is not None:
@@ -124,7 +149,11 @@ def _one_photon(case, ip: float) -> Model:
     omega, env = case.photon_energy, case.envelope
     q = spherical_q(case.polarization)
     width = env.bandwidth * AU_TIME_S                      # spectral FWHM, hartree
-    if width > 1e-4 * omega:
+    if case.atom.model is not None:                        # the model's m-averaged cross section
+        from driven_atom.basis.model_levels import cross_section
+
+        sigma = float(cross_section(case.atom, case.state, omega))
+    elif width > 1e-4 * omega:
         x, w = np.polynomial.hermite.hermgauss(24)
         energies = omega + x * math.sqrt(2) * width / (2 * math.sqrt(2 * math.log(2)))
         sigma = float(w @ cross_section_sublevel(case.atom, case.state, np.maximum(energies, 1e-12), q)
@@ -141,8 +170,9 @@ def _one_photon(case, ip: float) -> Model:
                  f"{sigma * BOHR_M**2 * 1e4:.3g} cm^2, depleting as 1 - exp(-sigma F)",
                  f"the photon ({omega * HARTREE_EV:.4g} eV) is above the ionisation potential "
                  f"({ip * HARTREE_EV:.4g} eV)",
-                 "exact hydrogenic cross section (Bethe & Salpeter 1957) over the pulse spectrum; valid while "
-                 "the field is perturbative", 1, ionization)
+                 ("exact hydrogenic cross section (Bethe & Salpeter 1957) over the pulse spectrum" if case.atom.model is None
+                  else f"the {case.atom.model.name} model's m-averaged cross section at the carrier") +
+                 "; valid while the field is perturbative", 1, ionization)
 
 
 # -- lowest-order perturbation theory ---------------------------------------------------------------------
@@ -180,8 +210,9 @@ def _lopt_model(case, ip: float, i0: float, gamma: float, N: int) -> Model:
 def _ppt_exponent(case, ip: float, i0: float):
     from driven_atom.lab.rates import ppt_exponent
 
-    return ppt_exponent(case.envelope, math.sqrt(i0), case.photon_energy, ip, case.atom.Z, case.state.l,
-                        case.state.m or 0)
+    charge, c2 = tunnel_parameters(case.atom, case.state, ip)
+    return ppt_exponent(case.envelope, math.sqrt(i0), case.photon_energy, ip, charge, case.state.l,
+                        case.state.m or 0, c2)
 
 
 def _ppt_model(case, ip: float, i0: float, gamma: float, regime: str) -> Model:
@@ -210,7 +241,8 @@ def _static_model(case) -> Model:
 
     state = case.state
     ip = binding_energy(case.atom, state)
-    exponent = static_exponent(case.static, ip, case.atom.Z, state.l, state.m or 0)
+    charge, c2 = tunnel_parameters(case.atom, state, ip)
+    exponent = static_exponent(case.static, ip, charge, state.l, state.m or 0, c2)
 
     def ionization(s):
         return -np.expm1(-exponent(np.asarray(s, dtype=float)))
@@ -219,7 +251,7 @@ def _static_model(case) -> Model:
                   "plateau", "the configuration's pulse is a static field",
                   "ADK exceeds the exact static widths of H(1s) (Damburg & Kolosov 1976) by x1.7 at 0.05 au",
                   None, ionization)
-    if case.static.peak_field > ip**2 / (4 * case.atom.Z):
+    if case.static.peak_field > ip**2 / (4 * charge):
         model.warnings.append("field above barrier suppression: over-the-barrier ionisation")
     return model
 

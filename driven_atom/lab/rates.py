@@ -31,24 +31,28 @@ import math
 import numpy as np
 
 
-def _adk_constants(ip: float, Z: float, l: int, m: int) -> tuple[float, float, float]:
-    """(n*, C²_{n*l*}·f(l, m)·Iₚ, F₀) of the module docstring, with l* = n* − 1."""
+def _adk_constants(ip: float, Z: float, l: int, m: int, c2: float | None = None) -> tuple[float, float, float]:
+    """(n*, C²_{n*l*}·f(l, m)·Iₚ, F₀) of the module docstring, with l* = n* − 1; ``c2`` replaces
+    that Hartree-type C²_{n*l*} where the atom's own asymptotic coefficient is known (a model atom:
+    :func:`driven_atom.atom.model_atoms.adk_coefficient`, Tong, Zhao & Lin 2002)."""
     n_star = Z / math.sqrt(2.0 * ip)
     l_star = n_star - 1.0
-    c2 = 2.0 ** (2 * n_star) / (n_star * math.gamma(n_star + l_star + 1) * math.gamma(n_star - l_star))
+    if c2 is None:
+        c2 = 2.0 ** (2 * n_star) / (n_star * math.gamma(n_star + l_star + 1) * math.gamma(n_star - l_star))
     m = abs(m)
     f_lm = (2 * l + 1) * math.factorial(l + m) / (2**m * math.factorial(m) * math.factorial(l - m))
     return n_star, c2 * f_lm * ip, (2.0 * ip) ** 1.5
 
 
-def adk_rate(field, ip: float, Z: float, l: int = 0, m: int = 0) -> np.ndarray:
-    """Static tunnelling rate w(F) (a.u.) of the module docstring; 0 where F = 0.
+def adk_rate(field, ip: float, Z: float, l: int = 0, m: int = 0, c2: float | None = None) -> np.ndarray:
+    """Static tunnelling rate w(F) (a.u.) of the module docstring; 0 where F = 0 (``c2``: see
+    :func:`_adk_constants`; Z is the charge the electron leaves behind).
 
     >>> round(float(adk_rate(0.05, 0.5, 1)), 10) == round(4 / 0.05 * math.exp(-2 / 0.15), 10)   # Landau
     True
     """
     F = np.abs(np.asarray(field, dtype=float))
-    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m)
+    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m, c2)
     m = abs(m)
     out = np.zeros_like(F)
     on = F > 0
@@ -95,10 +99,11 @@ def ppt_factor(omega: float, gamma: float, ip: float, m: int = 0) -> float:
     return 4 / math.sqrt(3 * math.pi) / math.factorial(m) * gamma**2 / (1 + gamma**2) * total
 
 
-def ppt_rate(field, omega: float, ip: float, Z: float, l: int = 0, m: int = 0) -> np.ndarray:
+def ppt_rate(field, omega: float, ip: float, Z: float, l: int = 0, m: int = 0,
+             c2: float | None = None) -> np.ndarray:
     """Cycle-averaged PPT rate (a.u.) at envelope field F and carrier ω (module docstring); 0 at F = 0."""
     F = np.abs(np.asarray(field, dtype=float))
-    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m)
+    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m, c2)
     m = abs(m)
     out = np.zeros_like(F)
     for i in np.flatnonzero(F > 0):
@@ -141,7 +146,8 @@ def _rate_table(rate, fields: np.ndarray, weights: np.ndarray):
     return exponent
 
 
-def ppt_exponent(envelope, peak_field: float, omega: float, ip: float, Z: float, l: int = 0, m: int = 0):
+def ppt_exponent(envelope, peak_field: float, omega: float, ip: float, Z: float, l: int = 0, m: int = 0,
+                 c2: float | None = None):
     """The function s ↦ ∫ w dt (a.u.) of the cycle-averaged PPT rate along the envelope field
     F(t) = √(s f(t)) F₀ of a pulse with intensity profile ``envelope`` (times in s), peak field
     ``peak_field`` and carrier ``omega`` (a.u.); P(s) = 1 − exp(−exponent(s))."""
@@ -149,14 +155,14 @@ def ppt_exponent(envelope, peak_field: float, omega: float, ip: float, Z: float,
 
     t, wt = envelope.nodes(per_fwhm=64)
     fields = peak_field * np.sqrt(envelope.intensity(t))
-    return _rate_table(lambda F: ppt_rate(F, omega, ip, Z, l, m), fields, wt / AU_TIME_S)
+    return _rate_table(lambda F: ppt_rate(F, omega, ip, Z, l, m, c2), fields, wt / AU_TIME_S)
 
 
-def static_exponent(component, ip: float, Z: float, l: int = 0, m: int = 0):
+def static_exponent(component, ip: float, Z: float, l: int = 0, m: int = 0, c2: float | None = None):
     """s ↦ ∫ w dt (a.u.) of the ADK rate at the instantaneous field of a static-field pulse
     component (its ramp and plateau; 16 Gauss points per 1/64 of its window), the field scaled by √s."""
     from driven_atom.pulse import quadrature
 
     t, wt = quadrature(sorted(set(component.breakpoints)), component.length / 64)
     fields = np.linalg.norm(component.electric_field(t), axis=1)
-    return _rate_table(lambda F: adk_rate(F, ip, Z, l, m), fields, wt)
+    return _rate_table(lambda F: adk_rate(F, ip, Z, l, m, c2), fields, wt)

@@ -320,7 +320,8 @@ def projection_densities(grid, atom, psi, bound, energies, x, r_normalize: float
     energies = np.asarray(energies, dtype=float)
     n_l = psi.shape[1]
     k = np.sqrt(2 * atom.reduced_mass * energies)
-    sigma = coulomb_phases(n_l - 1, k, atom.Z, atom.reduced_mass)                 # (L, n_E)
+    charge = atom.Z if atom.model is None else atom.model.charge          # the asymptotic charge
+    sigma = coulomb_phases(n_l - 1, k, charge, atom.reduced_mass)                 # (L, n_E)
     amps = np.zeros((n_l, energies.size), complex)
     for l in range(n_l):
         u = psi[:, l]

@@ -347,7 +347,7 @@ class Route:
         coarse companion run); run-time guards stop it all the same."""
         from driven_atom import stopping
 
-        wall0 = time.perf_counter()
+        wall0, cpu0 = time.perf_counter(), time.process_time()
         self.check(self.atom, self.pulse, self.initial)
         self._check_resources(max_hours)
         with stopping.stop_on_signals():
@@ -402,7 +402,7 @@ class Route:
         if strict:
             refuse_if_hard(checks, when="after the run")
         return self._result(outcome, history, checks, {
-            "wall_s": time.perf_counter() - wall0, "prepare_s": prepared - wall0,
+            "wall_s": time.perf_counter() - wall0, "cpu_s": time.process_time() - cpu0, "prepare_s": prepared - wall0,
             "propagate_s": propagated - prepared, "samples": int(times.size),
             "resumed": resumed_at is not None, "resumed_at_au": resumed_at, "checkpoints_written": saved})
 

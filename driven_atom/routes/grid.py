@@ -80,6 +80,8 @@ FLUX_SAMPLE_AU = 0.1        # the flux is summed every step or every few steps, 
 ABSORBER_WAVELENGTHS = 1.5  # flux runs: the mask spans this many de Broglie wavelengths of the slowest electrons
 FINAL_STATE_METHODS = ("window", "projection")
 VELOCITY_STEP_COST = 3.0    # a velocity-gauge step with the field on, in length-gauge steps (benchmarks/grid.py)
+MODEL_DR = 0.05             # model atoms: default dr at most this (He 1s within 4e-5 of its converged value) ...
+MODEL_DR_Z = 0.36           # ... and this over the nuclear charge (Ar 3p: 6.5e-5 at 0.02; the core needs it)
 
 
 @dataclass(frozen=True)
@@ -132,10 +134,10 @@ def photoelectron_energies(settings: GridSettings, e_max: float) -> np.ndarray:
     return np.linspace(low, top, settings.photoelectron_points)
 
 
-def default_surface_radius(alpha0: float, n_initial: int, atom) -> float:
+def default_surface_radius(alpha0: float, size: float) -> float:
     """The flux sphere's default radius: 5 quiver radii + 20 bohr and at least the room of the
-    initial state, 40 n²/(Zμ) (the same rule as the default box)."""
-    return max(40.0 * n_initial**2 / (atom.Z * atom.reduced_mass), QUIVER_RADII * alpha0 + 20.0)
+    initial state, 40 times its size n²/(Zμ) (the same rule as the default box)."""
+    return max(40.0 * size, QUIVER_RADII * alpha0 + 20.0)
 
 
 def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
@@ -158,23 +160,35 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
         raise InputError('`solver.gauge` = "velocity" needs pulses whose vector potential ends at zero; a static '
                          'field (envelope = "static") has A growing without bound: use gauge = "length"')
     alpha0, up, w_max, f_static = _pulse_scales(atom, pulse)
-    ip = Z**2 * mu / (2 * n_initial**2)
+    if atom.model is None:
+        ip = Z**2 * mu / (2 * n_initial**2)
+        size = n_initial**2 / (Z * mu)
+    else:                                     # a model atom: its own converged level (basis.model_levels)
+        from driven_atom.basis.model_levels import energy
+
+        ip = -energy(atom, State(n_initial, l_initial))
+        size = (atom.model.charge / math.sqrt(2 * ip)) ** 2 / atom.model.charge     # n*²/Z_c
     e_max = max(10 * up, 3 * w_max, ip)
     k_max = math.sqrt(2 * mu * e_max)
-    dr = settings.dr if settings.dr is not None else min(0.1 / Z, 0.5 / k_max)
+    if settings.dr is not None:
+        dr = settings.dr
+    elif atom.model is None:
+        dr = min(0.1 / Z, 0.5 / k_max)
+    else:
+        dr = min(MODEL_DR, MODEL_DR_Z / Z, 0.5 / k_max)
     window = pulse.t_end - pulse.t_start
     spectrum_radius = photoelectron_radius(up, w_max - ip, alpha0, window, mu)
     energies = photoelectron_energies(settings, e_max) if methods else np.zeros(0)
     surface = 0.0
     if flux:
         surface = (settings.surface_radius if settings.surface_radius is not None
-                   else default_surface_radius(alpha0, n_initial, atom))
+                   else default_surface_radius(alpha0, size))
     if settings.r_max is not None:
         r_max = settings.r_max
         width = (settings.absorber_width if settings.absorber_width is not None
                  else min(max(20.0, 0.2 * r_max), 0.5 * r_max))
     else:
-        inner = max(40.0 * n_initial**2 / (Z * mu), QUIVER_RADII * alpha0 + 20.0)
+        inner = max(40.0 * size, QUIVER_RADII * alpha0 + 20.0)
         if f_static > 0:
             inner = max(inner, 2 * ip / f_static + 40.0)    # beyond the tunnel exit I_p/F
         width = max(20.0, 0.2 * inner)
@@ -310,7 +324,10 @@ def bound_states(grid, l: int, atom) -> tuple[np.ndarray, np.ndarray]:
     op_inv = LinearOperator((n, n), matvec=lambda x: solve_banded((1, 1), ab, m_times(np.ravel(x))),
                             dtype=float)
     a = LinearOperator((n, n), matvec=lambda x: ops.apply(np.ravel(x)), dtype=float)
-    n_fit = int(math.sqrt(atom.Z * atom.reduced_mass * grid.r_max / 2)) + 1
+    if atom.model is None:
+        n_fit = int(math.sqrt(atom.Z * atom.reduced_mass * grid.r_max / 2)) + 1
+    else:                                   # Rydberg states of the ion's charge, above the core shells
+        n_fit = int(math.sqrt(atom.model.charge * atom.reduced_mass * grid.r_max / 2)) + 1 + atom.model.ground.n
     k = min(n - 2, max(1, n_fit - l) + 4)
     while True:
         with reproducible_blas():
@@ -378,8 +395,12 @@ class _Stepper:
                           m_first=self.cols[0], d_first=self.cols[1], cent=self.cols[2])   # named views
         a["m_diag"][:], a["d_diag"][:] = ref.m_diag, ref.d_diag
         a["m_off"][:], a["d_off"][:] = ref.m_off, ref.d_off
-        a["coul"][:], a["invr2"][:], a["invr"][:] = -atom.Z / r, 1.0 / r**2, 1.0 / r
-        a["force"][:] = atom.Z / r**2                 # dV/dr of the potential in "coul"
+        if atom.l_dependent:
+            raise InputError(_L_DEPENDENT.format(species=atom.species))
+        a["coul"][:], a["invr2"][:], a["invr"][:] = atom.potential(r, 0), 1.0 / r**2, 1.0 / r   # −Z/r, or the model's V(r)
+        # dV/dr of the potential in "coul": exact for −Z/r; a model atom's by differences (its harmonic
+        # acceleration comes from the dipole instead, see GridRoute._finish)
+        a["force"][:] = atom.Z / r**2 if atom.model is None else np.gradient(a["coul"], r)
         a["m_first"][:] = np.array([o.m_diag[0] for o in ops])[self.order]
         a["d_first"][:] = np.array([o.d_diag[0] for o in ops])[self.order]
         a["cent"][:] = cent[self.order]
@@ -498,6 +519,12 @@ def _numba_threads(threads: int):
         numba.set_num_threads(before)
 
 
+def _model_energy(atom, state) -> float:
+    from driven_atom.basis.model_levels import energy
+
+    return energy(atom, state)
+
+
 def _initial_psi(initial, bound, n, n_l) -> np.ndarray:
     psi = np.zeros((n, n_l), complex)
     for state, amp in initial:
@@ -513,6 +540,11 @@ def _initial_psi(initial, bound, n, n_l) -> np.ndarray:
                              f"raise `solver.r_max`")
         psi[:, state.l] += amp * vectors[:, j]
     return psi
+
+
+_L_DEPENDENT = ("`atom.species` = {species!r} has an l-dependent potential, which route \"grid\" does not take "
+                "(its kernels hold one V(r) for every partial wave); use route \"basis\" or \"levels\", or "
+                "species He, Ne, Ar, Kr, Xe on the grid")
 
 
 class GridRoute(Route):
@@ -531,6 +563,8 @@ class GridRoute(Route):
     @classmethod
     def check(cls, atom, pulse, initial, cfg=None) -> None:
         super().check(atom, pulse, initial, cfg)
+        if atom.l_dependent:
+            raise InputError(_L_DEPENDENT.format(species=atom.species))
         for state, _ in initial:
             if state.m not in (None, 0):
                 raise InputError(f"`atom.initial` {state.label!r}: the grid route is for linear "
@@ -678,7 +712,9 @@ class GridRoute(Route):
 
     def preflight(self) -> list:
         """Before any step: the initial states' energies on this grid against the exact
-        −Z²μ/(2n²) (Bethe & Salpeter 1957), the time step against the fastest phase that matters
+        −Z²μ/(2n²) (Bethe & Salpeter 1957) — for a model atom against the model's own eigenvalue
+        converged on the fine stretched reference grid (:mod:`driven_atom.basis.model_levels`,
+        0.001 bohr at the nucleus; computed once per species in ~0.2 s) —, the time step against the fastest phase that matters
         (Iₚ + 3.17 Uₚ, Corkum 1993) and the carrier period, the initial state's norm inside the
         absorber, the box against the quiver radius, l_max against the returning angular momentum
         (the velocity gauge needs half of what the length gauge needs), and for the surface flux:
@@ -691,7 +727,7 @@ class GridRoute(Route):
         for state, _ in self.initial:
             energies = self.bound[state.l][0]
             j = state.n - state.l - 1
-            exact = -Z**2 * mu / (2 * state.n**2)
+            exact = -Z**2 * mu / (2 * state.n**2) if atom.model is None else _model_energy(atom, state)
             worst = max(worst, abs(energies[j] / exact - 1) if j < energies.size else math.inf)
         better = par.dr * (1e-5 / worst) ** 0.25 if 0 < worst < math.inf else par.dr / 2
         checks.append(assess("initial_energy_error", worst, soft=5e-4, hard=1e-3, key="solver.dr",
@@ -833,12 +869,27 @@ class GridRoute(Route):
         on = np.arange(1, n_steps + 1) <= par.n_pulse_steps
         per_step = self.per_step
         field = np.where(on, pulse.field_z(step_times), 0.0)
-        acc_steps = ehrenfest_acceleration(per_step[:, 2], field, per_step[:, 0], mu)
+        sample_field = np.where(history.times <= pulse.t_end, pulse.field_z(history.times), 0.0)
+        if atom.model is None:
+            acc_steps = ehrenfest_acceleration(per_step[:, 2], field, per_step[:, 0], mu)
+            acc_samples = ehrenfest_acceleration(history.series["_force_cos"], sample_field, history.series["norm"], mu)
+        else:
+            # a model atom's acceleration is d²⟨z⟩/dt² by central differences of the per-step dipole
+            # (⟨z⟩ before the first step from the initial state), interpolated to the history times.
+            # (The Ehrenfest force ⟨cosθ dV/dr⟩ on the grid is dominated by the coarsely resolved
+            # core, where dV/dr ~ Z/r², and missed the dipole's second derivative by ×5–15 in a test
+            # at dr = 0.02.)
+            psi0 = _initial_psi(self.initial, self.bound, self.grid.n_points, self.n_l)
+            psi0 /= math.sqrt(float(np.sum(abs(psi0) ** 2)))
+            z0 = _observables(psi0, self.grid.r, coupling_coefficients(par.l_max), self.stepper.a["force"])[1]
+            z = np.r_[z0, per_step[:, 1]]
+            acc_steps = np.zeros(n_steps)
+            acc_steps[:-1] = (z[2:] - 2 * z[1:-1] + z[:-2]) / dt**2
+            acc_steps[-1] = acc_steps[-2] if n_steps > 1 else 0.0
+            acc_samples = np.interp(history.times, step_times, acc_steps)
         velocity = per_step[:, 3] / mu
         if s.gauge == "velocity":                       # the kinetic momentum ⟨p_z + A⟩
             velocity = velocity + np.where(on, pulse.vector_potential_z(step_times), 0.0) * per_step[:, 0] / mu
-        sample_field = np.where(history.times <= pulse.t_end, pulse.field_z(history.times), 0.0)
-        acc_samples = ehrenfest_acceleration(history.series["_force_cos"], sample_field, history.series["norm"], mu)
         spectra = {"dipole_response": {"time": step_times, "dipole_z": per_step[:, 1], "velocity_z": velocity,
                                        "acceleration_z": acc_steps}}
         checks = []
