@@ -39,9 +39,15 @@ def same_arrays(a, b):
             assert np.array_equal(a.spectra[name][key], b.spectra[name][key]), (name, key)
 
 
-def test_sigkill_then_resume_gives_identical_arrays(tmp_path):
+VELOCITY_FLUX = {"gauge": "velocity", "photoelectron_methods": ["surface_flux"], "surface_radius": 35,
+                 "after": 50.0, "photoelectron_e_min": "0.1 hartree", "photoelectron_points": 40}
+
+
+@pytest.mark.parametrize("extra", [{}, VELOCITY_FLUX], ids=["length", "velocity_flux"])
+def test_sigkill_then_resume_gives_identical_arrays(tmp_path, extra):
+    """Also for the velocity gauge with the surface-flux sums, which are part of the checkpoint."""
     cfg_path = tmp_path / "grid_ckpt.toml"
-    cfg_path.write_text(tomli_w.dumps(CONFIG))
+    cfg_path.write_text(tomli_w.dumps(dict(CONFIG, solver=dict(CONFIG["solver"], **extra))))
     killed = tmp_path / "killed.h5"
     env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
     proc = subprocess.Popen([sys.executable, "-m", "driven_atom", "run", str(cfg_path), "--out", str(killed),
@@ -71,6 +77,9 @@ def test_sigkill_then_resume_gives_identical_arrays(tmp_path):
     assert fresh.stats["resumed"] is False
     same_arrays(read_result(killed), read_result(tmp_path / "fresh.h5"))
     assert 1e-4 < fresh.ionization < 0.2                # a strong-field run, not a trivial one
+    if extra:
+        assert "route:flux_during" in arrays and np.any(arrays["route:flux_during"])   # the sums were saved mid-run
+        assert "photoelectrons" in fresh.spectra
 
 
 def test_checkpoint_of_other_physics_is_ignored(tmp_path):

@@ -941,19 +941,19 @@ class GridRoute(Route):
                 "power_dipole": forms["power_dipole"], "power_velocity": forms["power_velocity"],
                 "cutoff_order": np.array(cutoff)}
 
+    def _unbound_part(self) -> np.ndarray:
+        """The final state with every bound grid eigenstate projected out (ψ[i, l])."""
+        psi = self.stepper.state()
+        for l in range(self.n_l):
+            vectors = self.bound[l][1]
+            if vectors.shape[1]:
+                psi[:, l] -= vectors @ (vectors.T @ psi[:, l])
+        return psi
+
     def _unbound_inside(self, radius: float) -> float:
         """Norm of the final state inside ``radius`` that no bound state holds: the electrons the
         flux has not counted yet (they leave later, or stay in Rydberg states the box cannot hold)."""
-        psi = self.stepper.state()
-        inside = self.grid.r < radius
-        total = 0.0
-        for l in range(self.n_l):
-            u = psi[:, l]
-            vectors = self.bound[l][1]
-            if vectors.shape[1]:
-                u = u - vectors @ (vectors.T @ u)
-            total += float(np.sum(abs(u[inside]) ** 2))
-        return total
+        return float(np.sum(abs(self._unbound_part()[self.grid.r < radius]) ** 2))
 
     def _photoelectrons(self, ionized: float, checks) -> dict:
         """The spectra of ``photoelectron_methods``: the first as "photoelectrons", the others as
@@ -976,7 +976,8 @@ class GridRoute(Route):
             elif method == "window":
                 spacing = energies[1] - energies[0] if energies.size > 1 else energies[0]
                 gammas = pe.window_widths(energies, spacing, r_abs, atom.reduced_mass)
-                density = pe.window_densities(grid, atom, self.stepper.state(), energies, gammas, x)
+                # the bound states removed first: their windows' far tails would leak into a weak spectrum
+                density = pe.window_densities(grid, atom, self._unbound_part(), energies, gammas, x)
                 fix = (f"raise `solver.r_max` to about {par.spectrum_radius + par.absorber_width:.0f} bohr (or leave "
                        f"it unset: the box is then sized for the spectrum)")
             else:
