@@ -158,14 +158,18 @@ def _has_history(result) -> bool:
     return times.size > 0 and (bool(result.history_populations) or "ionization" in result.series)
 
 
-# spectra drawn by result_figure and the arrays each needs (as the routes store them)
-_SPECTRUM_ARRAYS = {"photoelectron": ("energy", "dP_dE"), "harmonic": ("omega", "power")}
+# spectra drawn by result_figure and the arrays each needs (as the routes store them; "photoelectron"
+# and "harmonic" are the names of files written before the spectra had their final names)
+_SPECTRUM_ARRAYS = {"photoelectrons": ("energy_eV", "dP_dE"), "photoelectron": ("energy", "dP_dE"),
+                    "harmonics": ("order", "power"), "harmonic": ("omega", "power")}
 
 
 def result_panels(result) -> list[str]:
     """Names of the panels :func:`result_figure` draws for ``result``, top to bottom:
     "populations" (histories against time) or, with no history samples, "final_populations";
-    then "photoelectron" and "harmonic" when the result holds those spectra."""
+    then "photoelectrons" (or "photoelectron" of older files), "momentum_map" when the
+    photoelectron spectrum has one, and "harmonics" (or "harmonic") when the result holds those
+    spectra."""
     where = result.metadata.get("file")
     what = f"result {str(where)!r}" if where else "result"
     panels = []
@@ -185,6 +189,8 @@ def result_panels(result) -> list[str]:
                 raise InputError(f"{what}: spectrum {name!r} lacks the array {missing[0]!r} "
                                  f"(has {', '.join(sorted(result.spectra[name])) or 'none'})")
             panels.append(name)
+            if name == "photoelectrons" and "momentum_density" in result.spectra[name]:
+                panels.append("momentum_map")
     if not panels:
         raise InputError(f"{what} holds no populations, history samples or spectra to draw")
     return panels
@@ -236,25 +242,52 @@ def _positive_floor(values: np.ndarray, decades: float) -> np.ndarray:
 
 
 def _draw_photoelectron(ax, spectrum) -> None:
+    """dP/dE (log y) against the electron energy in eV: per eV (``photoelectrons``) or per hartree
+    (``photoelectron`` of older files)."""
     from driven_atom.units import HARTREE_EV
 
-    energy = np.asarray(spectrum["energy"], dtype=float) * HARTREE_EV
+    if "energy_eV" in spectrum:
+        energy, unit = np.asarray(spectrum["energy_eV"], dtype=float), "1/eV"
+    else:
+        energy, unit = np.asarray(spectrum["energy"], dtype=float) * HARTREE_EV, "1/hartree"
     density = np.asarray(spectrum["dP_dE"], dtype=float)
     ax.plot(energy, _positive_floor(density, 12), lw=0.9)
     if np.nanmax(density, initial=0.0) > 0:
         ax.set_yscale("log")
     ax.set_xlabel("photoelectron energy [eV]")
-    ax.set_ylabel("dP/dE [1/hartree]")
+    ax.set_ylabel(f"dP/dE [{unit}]")
+
+
+def _draw_momentum_map(fig, ax, spectrum) -> None:
+    """d³P/dp³ in the polarisation plane as an image (log colour scale over 4 decades), p_z along
+    the polarisation on the horizontal axis."""
+    from matplotlib.colors import LogNorm
+
+    pz = np.asarray(spectrum["momentum_z"], dtype=float)
+    px = np.asarray(spectrum["momentum_x"], dtype=float)
+    density = np.asarray(spectrum["momentum_density"], dtype=float)
+    top = float(np.nanmax(density, initial=0.0))
+    norm = LogNorm(vmin=top * 1e-4, vmax=top) if top > 0 else None
+    image = ax.pcolormesh(pz, px, _positive_floor(density, 4) if top > 0 else density, norm=norm,
+                          shading="nearest", cmap="viridis")
+    fig.colorbar(image, ax=ax, label="d³P/dp³ [au]")
+    ax.set_aspect("equal")
+    ax.set_xlabel("p along the polarisation [au]")
+    ax.set_ylabel("p across [au]")
 
 
 def _draw_harmonic(ax, spectrum, omega0) -> None:
-    """Harmonic power against harmonic order ω/ω₀ (or photon energy in eV without a carrier),
-    cut where the power last exceeds 10⁻¹² of its maximum."""
+    """Harmonic power (log y) against harmonic order ω/ω₀ (``harmonics``: its ``order``; older
+    ``harmonic`` files: ω over the carrier, or photon energy in eV without one), cut where the power
+    last exceeds 10⁻¹² of its maximum, the classical cutoff ``cutoff_order`` marked."""
     from driven_atom.units import HARTREE_EV
 
-    omega = np.asarray(spectrum["omega"], dtype=float)
     power = np.asarray(spectrum["power"], dtype=float)
-    x = omega / omega0 if omega0 else omega * HARTREE_EV
+    if "order" in spectrum:
+        x, in_orders = np.asarray(spectrum["order"], dtype=float), True
+    else:
+        omega = np.asarray(spectrum["omega"], dtype=float)
+        x, in_orders = (omega / omega0, True) if omega0 else (omega * HARTREE_EV, False)
     ax.plot(x, _positive_floor(power, 14), lw=0.8)
     top = np.nanmax(power, initial=0.0)
     if top > 0:
@@ -262,7 +295,11 @@ def _draw_harmonic(ax, spectrum, omega0) -> None:
         above = np.nonzero(power > top * 1e-12)[0]
         if above.size and above[-1] + 1 < x.size:
             ax.set_xlim(x[0], x[above[-1] + 1])
-    ax.set_xlabel("harmonic order ω/ω₀ (pulse 0 carrier)" if omega0 else "photon energy [eV]")
+    if "cutoff_order" in spectrum:
+        cutoff = float(np.asarray(spectrum["cutoff_order"]))
+        ax.axvline(cutoff, color="tab:red", ls="--", lw=0.9, label=f"Iₚ + 3.17 Uₚ = order {cutoff:.1f}")
+        ax.legend(loc="upper right", fontsize="small")
+    ax.set_xlabel("harmonic order ω/ω₀ (pulse 0 carrier)" if in_orders else "photon energy [eV]")
     ax.set_ylabel("harmonic power [au]")
 
 
@@ -273,8 +310,10 @@ def result_figure(result, path, *, name: str = "--out") -> Path:
     * populations: level populations (labels without m) and the ``ionization`` series against
       time in fs, log y (down to 10⁻¹² of the largest value) when they span more than 3 decades;
       without history samples, the final level populations as bars;
-    * photoelectron: dP/dE (per hartree, log y) against electron energy in eV;
-    * harmonic: harmonic power (a.u., log y) against harmonic order ω/ω₀ of the first pulse.
+    * photoelectrons: dP/dE (per eV, log y: the ATI peaks) against electron energy in eV;
+    * momentum_map: d³P/dp³ in the polarisation plane as an image (log colour scale);
+    * harmonics: harmonic power (a.u., log y) against harmonic order ω/ω₀ of the first pulse, the
+      classical cutoff Iₚ + 3.17 Uₚ marked.
 
     The title gives the route, the ionisation and the norm. Errors name the argument ``name``.
 
@@ -294,10 +333,12 @@ def result_figure(result, path, *, name: str = "--out") -> Path:
             _draw_histories(ax, result)
         elif panel == "final_populations":
             _draw_final(ax, result)
-        elif panel == "photoelectron":
-            _draw_photoelectron(ax, result.spectra["photoelectron"])
+        elif panel in ("photoelectrons", "photoelectron"):
+            _draw_photoelectron(ax, result.spectra[panel])
+        elif panel == "momentum_map":
+            _draw_momentum_map(fig, ax, result.spectra["photoelectrons"])
         else:
-            _draw_harmonic(ax, result.spectra["harmonic"], _carrier_omega(result))
+            _draw_harmonic(ax, result.spectra[panel], _carrier_omega(result))
     title = f"{result.route} route: ionization {result.ionization:.4g}, norm {result.norm:.6f}"
     if result.metadata.get("file"):
         title += f"\n{Path(result.metadata['file']).name}"

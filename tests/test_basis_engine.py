@@ -11,6 +11,7 @@ from driven_atom.atom.dipoles import dipole_matrix_element
 from driven_atom.basis.eigenbasis import build_basis
 from driven_atom.config import OutputConfig
 from driven_atom.config import read_settings
+from driven_atom.units import HARTREE_EV
 from driven_atom.routes import propagate
 from driven_atom.routes.basis import MagnusPropagator
 from driven_atom.settings import BasisSettings as Settings
@@ -174,10 +175,10 @@ def test_form_is_a_deprecated_alias_of_gauge():
 def test_photoelectron_spectrum_integrates_to_yield_and_peaks_at_photon_minus_ip():
     pulse = Pulse({"photon_energy": 0.8, "peak_field": 1e-3, "cycles": 10})
     res = _run(pulse, r_max=150.0, dr=0.1, l_max=2, e_max=2.0, tolerance=1e-10)
-    spec = res.spectra["photoelectron"]
-    energy, dpde = spec["energy"], spec["dP_dE"]
+    spec = res.spectra["photoelectrons"]
+    energy, dpde = spec["energy_eV"] / HARTREE_EV, spec["dP_dE"] * HARTREE_EV
     assert spec["dP_dE_l"].shape == (3, energy.size)
-    np.testing.assert_allclose(spec["dP_dE_l"].sum(axis=0), dpde)
+    np.testing.assert_allclose(spec["dP_dE_l"].sum(axis=0) * HARTREE_EV, dpde)
     assert np.trapezoid(dpde, energy) == pytest.approx(res.ionization, rel=0.01)
     assert energy[np.argmax(dpde)] == pytest.approx(0.8 - 0.5, abs=0.02)    # Einstein: E = w - I_p
     assert np.argmax(spec["dP_dE_l"].max(axis=1)) == 1                       # one photon from s: p wave
@@ -205,7 +206,7 @@ def test_run_through_api_writes_file_and_reuses_basis(tmp_path):
     back = open_result(first.metadata["file"])
     assert back.route == "basis" and back.ionization == pytest.approx(first.ionization)
     assert {"1s", "1s0", "2p", "2p0"} <= set(back.populations)
-    assert "dP_dE" in back.spectra["photoelectron"]
+    assert "dP_dE" in back.spectra["photoelectrons"]
     assert back.times[1] - back.times[0] == pytest.approx(0.5 * 41.341373335, rel=1e-9)   # CODATA 2018: 1 a.u. time = 2.4188843266e-17 s
     second = run(dict(config, pulse=[{"photon_energy": "21 eV", "intensity": "1e12 W/cm^2", "cycles": 6}]),
                  out=tmp_path, progress=False)
@@ -242,7 +243,7 @@ def test_resume_from_checkpoint_equals_uninterrupted_run(tmp_path, monkeypatch):
     for key in ("norm", "ionization", "dipole_z"):
         np.testing.assert_array_equal(resumed.series[key], plain.series[key])
     np.testing.assert_allclose(resumed.series["dipole_z"], plain.series["dipole_z"], rtol=0, atol=1e-14)
-    np.testing.assert_allclose(resumed.spectra["photoelectron"]["dP_dE"], plain.spectra["photoelectron"]["dP_dE"],
+    np.testing.assert_allclose(resumed.spectra["photoelectrons"]["dP_dE"], plain.spectra["photoelectrons"]["dP_dE"],
                                rtol=1e-12, atol=1e-300)
 
 

@@ -10,7 +10,7 @@ from driven_atom.result import read_result
 
 ROOT = Path(__file__).resolve().parents[1]
 JSON_KEYS = {"route", "populations", "ionization", "norm", "result_file", "wall_s", "history", "trustworthy",
-             "warnings", "quality", "ionization_err", "populations_err", "caution"}
+             "warnings", "quality", "ionization_err", "populations_err", "caution", "spectra"}
 
 RABI_TOML = """
 [atom]

@@ -158,3 +158,23 @@ def test_damaged_result_exits_2(levels_file, tmp_path, capsys):
     truncated.write_bytes(bytes(data[: len(data) // 2]))
     _one_error_line(capsys, ["plot", str(truncated)], "truncated.h5")
     assert sorted(p.name for p in tmp_path.iterdir()) == ["garbage.h5", "truncated.h5"]
+
+
+def test_strong_field_spectra_give_ati_map_and_harmonic_panels(tmp_path, capsys):
+    """The final names: photoelectrons (per eV, with a momentum map) and harmonics (in orders, the
+    cutoff marked)."""
+    axis = np.linspace(-2.0, 2.0, 41)
+    pz, px = np.meshgrid(axis, axis)
+    spectra = {"photoelectrons": {"energy_eV": np.linspace(0.5, 50.0, 100), "dP_dE": np.exp(-np.linspace(0, 10, 100)),
+                                  "momentum_z": axis, "momentum_x": axis,
+                                  "momentum_density": np.exp(-(pz**2 + 4 * px**2))},
+               "harmonics": {"order": np.linspace(0.0, 40.0, 800), "power": np.exp(-np.linspace(0.0, 40.0, 800) / 5),
+                             "cutoff_order": np.array(21.0)}}
+    path = write_result(tmp_path / "sf.h5", _hand_made(spectra=spectra))
+    out = tmp_path / "sf.svg"
+    assert main(["plot", str(path), "--out", str(out), "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["panels"] == ["populations", "photoelectrons", "momentum_map",
+                                                              "harmonics"]
+    text = out.read_text()
+    assert "order 21.0" in text and "1/eV" in text             # the cutoff marked, densities per eV
+    _no_tmp(tmp_path)

@@ -124,3 +124,33 @@ def test_velocity_and_length_gauge_yields_agree_and_velocity_needs_fewer_waves()
     assert abs(velocity / length - 1) < 0.01
     assert abs(run(p, gauge="velocity", l_max=8, **BOX).ionization / velocity - 1) < 0.02
     assert abs(run(p, l_max=8, **BOX).ionization / length - 1) > 0.1
+
+
+def test_harmonics_odd_orders_cutoff_and_three_forms():
+    """800 nm, 1e14 W/cm², 8 cycles (sin²): the plateau ends within 10 % of (Iₚ + 3.17 Uₚ)/ω
+    (Krause, Schafer & Kulander, PRL 68, 3535 (1992); Corkum, PRL 71, 1994 (1993)); a symmetric
+    multi-cycle pulse radiates odd orders (Ben-Tal, Moiseyev & Beswick, J. Phys. B 26, 3017 (1993));
+    the dipole and velocity forms give the acceleration form's spectrum (Burnett et al., PRA 45,
+    3347 (1992)). The fit stops at twice the expected order: beyond lies the numerical noise floor."""
+    p = Pulse(dict(INFRARED, cycles=8))
+    res = run(p, gauge="velocity", l_max=16, r_max=60, dr=0.2, dt=0.05)
+    h = res.spectra["harmonics"]
+    w0, up = p.components[0].omega, 0.25 * p.components[0].peak_field**2 / p.components[0].omega**2
+    expected = cutoff_order(0.5, up, w0)
+    assert abs(float(h["cutoff_order"]) / 21.0 - 1) < 0.01          # 21 at 800 nm, 1e14 W/cm² (common practice)
+    assert abs(float(h["cutoff_order"]) / expected - 1) < 1e-12
+    assert abs(observed_cutoff(h["order"], h["power"], highest=2 * expected) / expected - 1) < 0.1
+    order, power = h["order"], h["power"]
+
+    def band(q):
+        return power[(order > q - 0.25) & (order < q + 0.25)].sum()
+
+    odd = sum(band(q) for q in range(3, 22, 2))
+    even = sum(band(q) for q in range(4, 22, 2))
+    assert odd > 5 * even
+    peaks = harmonic_peaks(order, power, range(3, 22, 2))
+    for form in ("power_dipole", "power_velocity"):
+        ratio = harmonic_peaks(order, h[form], range(3, 22, 2)) / peaks
+        assert np.all(abs(ratio - 1) < 0.25), (form, ratio)
+    (check,) = [c for c in res.quality["checks"] if c["name"] == "harmonic_forms_mismatch"]
+    assert check["level"] == "ok"

@@ -7,7 +7,11 @@ flagged something, warnings), or with ``--json`` exactly one object::
 
     {"route", "populations", "ionization", "norm", "result_file", "wall_s", "trustworthy",
      "warnings", "quality", "ionization_err", "populations_err", "caution",
-     "history": {"times_au": [...], "populations": {label: [...]}}}
+     "history": {"times_au": [...], "populations": {label: [...]}},
+     "spectra": {name: {array: [...]}}}
+
+``spectra`` holds the result's spectra by name (``photoelectrons``, ``harmonics``, ...; names and
+units in :mod:`driven_atom.result`) except the per-step ``dipole_response`` (in the HDF5 file).
 
 ``--preflight`` makes every check a run makes before its first step (units, keys, resources,
 accuracy) and stops there: ``{"preflight": [...checks...], "trustworthy"}``, exit 2 if one refuses.
@@ -99,7 +103,9 @@ def handle(args):
                 "warnings": result.warnings, "quality": result.quality,
                 "ionization_err": errors.get("ionization"), "populations_err": errors.get("populations"),
                 "caution": caution, "history": {"times_au": result.times,
-                            "populations": dict(result.history_populations)}}
+                            "populations": dict(result.history_populations)},
+                "spectra": {name: dict(arrays) for name, arrays in result.spectra.items()
+                            if name != "dipole_response"}}
     print(summary(result))
     if caution:
         print(caution)

@@ -123,10 +123,12 @@ def harmonic_peaks(order, power, orders) -> np.ndarray:
     return out
 
 
-def observed_cutoff(order, power, lowest: int = 3) -> float:
+def observed_cutoff(order, power, lowest: int = 3, highest: float | None = None) -> float:
     """Where the plateau of odd-harmonic peaks ends: the breakpoint of the best two-piece fit to
-    log₁₀ of the peaks from order ``lowest`` on, flat (the plateau) then falling linearly (the
-    cut-off region), by least squares over every breakpoint (common practice).
+    log₁₀ of the peaks from order ``lowest`` to ``highest`` (default: the whole axis), flat (the
+    plateau) then falling linearly (the cut-off region), by least squares over every breakpoint
+    (common practice); the fit stops at the first peak within a decade of the lowest one (the
+    numerical noise floor).
 
     >>> q = np.arange(0.0, 60.0, 0.125)
     >>> peaks = np.where(q < 21, 1.0, 10.0 ** (-(q - 21) / 2))
@@ -135,11 +137,14 @@ def observed_cutoff(order, power, lowest: int = 3) -> float:
     21.0
     """
     order = np.asarray(order, dtype=float)
-    top = int(order.max() - 0.5)
+    top = int(order.max() - 0.5) if highest is None else int(min(highest, order.max() - 0.5))
     odd = np.arange(lowest, top + 1, 2)
     peaks = harmonic_peaks(order, power, odd)
     keep = peaks > 0
     odd, y = odd[keep], np.log10(peaks[keep])
+    if y.size > 4:                            # the fall ends where the peaks reach the noise floor
+        low = np.nonzero(y < y.min() + 1.0)[0][0]
+        odd, y = odd[:max(low + 1, 5)], y[:max(low + 1, 5)]
     best, where = math.inf, float(odd[-1])
     for j in range(2, odd.size - 2):
         head, tail = y[:j + 1], y[j:]

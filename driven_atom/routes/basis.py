@@ -25,8 +25,9 @@ Results: populations of bound states by label (m-resolved and level) for n up to
 states all lie within 1e-3 of −Z²μ/(2n²) (higher, wall-distorted box states only as the sum
 ``stats["box_rydberg_population"]``), ``ionization`` = total
 continuum population, ``norm``, histories at the ``[output] every`` samples (bound states with
-n ≤ 4, series norm, ionization, dipole_z) and ``spectra["photoelectron"]`` =
-{energy, dP_dE, dP_dE_l} from the box density of states (:mod:`driven_atom.observables.photoelectron`).
+n ≤ 4, series norm, ionization, dipole_z) and ``spectra["photoelectrons"]`` =
+{energy_eV, dP_dE, dP_dE_l} (eV, per eV; :mod:`driven_atom.result`) from the box density of states
+(:mod:`driven_atom.observables.photoelectron`).
 
 Convergence guidance (stats): ``top_l_population`` (largest population in l = l_max over the
 samples) and ``e_max_population`` (largest continuum population within the top 10 % of
@@ -198,7 +199,7 @@ class BasisRoute(Route):
 
     name = "basis"
     Settings = BasisSettings
-    spectra = ("photoelectron",)
+    spectra = ("photoelectrons",)
     tolerance_key = "solver.tolerance"
     norm_tolerance = 1e-7           # each step is unitary to the Krylov accuracy (tolerance/2 per step)
 
@@ -346,6 +347,7 @@ class BasisRoute(Route):
 
     def _finish(self, state, history) -> Outcome:
         from driven_atom.observables.photoelectron import box_spectrum
+        from driven_atom.units import HARTREE_EV
 
         basis, s = self.basis, self.settings
         pop = np.abs(state["c"]) ** 2
@@ -367,5 +369,6 @@ class BasisRoute(Route):
                             "amplitudes differ from length-gauge ones by the gauge phase; use gauge = \"length\"")
         return Outcome(populations={basis.label(i): float(pop[i]) for i in bound_idx},
                        ionization=float(pop[cont].sum()), norm=float(pop.sum()),
-                       spectra={"photoelectron": {"energy": energy, "dP_dE": dP_dE, "dP_dE_l": dP_dE_l}},
+                       spectra={"photoelectrons": {"energy_eV": energy * HARTREE_EV, "dP_dE": dP_dE / HARTREE_EV,
+                                                   "dP_dE_l": dP_dE_l / HARTREE_EV}},
                        stats=stats, warnings=warnings)

@@ -79,6 +79,7 @@ TAPER_MAX = 20.0            # bohr: the potential goes to zero over min(this, R/
 FLUX_SAMPLE_AU = 0.1        # the flux is summed every step or every few steps, at most this far apart
 ABSORBER_WAVELENGTHS = 1.5  # flux runs: the mask spans this many de Broglie wavelengths of the slowest electrons
 FINAL_STATE_METHODS = ("window", "projection")
+HARMONIC_ORDERS_KEPT = 3.0  # harmonic spectra are stored up to this many times the cutoff order (at least 20)
 VELOCITY_STEP_COST = 3.0    # a velocity-gauge step with the field on, in length-gauge steps (benchmarks/grid.py)
 MODEL_DR = 0.05             # model atoms: default dr at most this (He 1s within 4e-5 of its converged value) ...
 MODEL_DR_Z = 0.36           # ... and this over the nuclear charge (Ar 3p: 6.5e-5 at 0.02; the core needs it)
@@ -937,9 +938,10 @@ class GridRoute(Route):
                                  why="largest relative difference of the harmonic power (orders 3 to the cutoff) "
                                      "between the dipole or velocity form and the acceleration form",
                                  fix="lower `solver.dt` and `solver.dr`, raise `solver.l_max`"))
-        return {"order": forms["order"], "photon_energy_eV": forms["omega"] * HARTREE_EV, "power": forms["power"],
-                "power_dipole": forms["power_dipole"], "power_velocity": forms["power_velocity"],
-                "cutoff_order": np.array(cutoff)}
+        keep = forms["order"] <= max(HARMONIC_ORDERS_KEPT * cutoff, 20.0)     # beyond: noise, and large files
+        return {"order": forms["order"][keep], "photon_energy_eV": forms["omega"][keep] * HARTREE_EV,
+                "power": forms["power"][keep], "power_dipole": forms["power_dipole"][keep],
+                "power_velocity": forms["power_velocity"][keep], "cutoff_order": np.array(cutoff)}
 
     def _unbound_part(self) -> np.ndarray:
         """The final state with every bound grid eigenstate projected out (ψ[i, l])."""
