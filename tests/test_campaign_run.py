@@ -88,6 +88,11 @@ class _StandIn(Route):
                        spectra={"photoelectron": {"energy": energy, "dP_dE": p * energy},
                                 # an axis that differs between jobs, complex values, and a time series
                                 "harmonic": {"omega": np.arange(n) * 0.5, "amplitude": np.full(n, p + 1j)},
+                                # a single number and a 2-D array (as the grid route's harmonics, photoelectrons)
+                                "harmonics": {"order": np.arange(4.0), "power": np.full(4, p),
+                                              "cutoff_order": np.array(20.0 + p)},
+                                "photoelectrons": {"energy_eV": energy, "dP_dE": p * energy,
+                                                   "beta": np.zeros((2, energy.size))},
                                 "dipole_response": {"time": np.arange(3.0), "dipole_z": np.zeros(3)}},
                        stats={"steps_here": state["here"], "resumed_from": self.resumed_from})
 
@@ -189,6 +194,9 @@ def test_collect_table_opens_with_xarray(tmp_path, standin, capsys):
         np.testing.assert_array_equal(ds["harmonic_omega"].values[:, 0], [[0.0, 0.5, np.nan], [0.0, 0.5, 1.0]])
         assert ds["harmonic_amplitude"].dtype.kind == "c" and ds["harmonic_amplitude"].values[1, 0, 2].imag == 1.0
         assert not [name for name in ds.variables if name.startswith("dipole_response")]
+        assert ds["harmonics_cutoff_order"].dims == ("pulse.0.intensity", "pulse.0.cep")
+        assert ds["harmonics_cutoff_order"].values[1, 0] == pytest.approx(20 + math.sin(10 * f0) ** 2, rel=1e-12)
+        assert ds["photoelectrons_dP_dE"].attrs["units"] == "eV-1" and "photoelectrons_beta" not in ds
         assert "versions" in ds.attrs and "host" in ds.attrs and "[scan" in ds.attrs["config"]
         assert (ds["status"].values == "done").all() and (ds["trustworthy"].values == 1).all()
         assert np.isnan(ds["ionization_err"].values).all()             # no error bars were asked for
