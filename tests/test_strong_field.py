@@ -154,3 +154,28 @@ def test_harmonics_odd_orders_cutoff_and_three_forms():
         assert np.all(abs(ratio - 1) < 0.25), (form, ratio)
     (check,) = [c for c in res.quality["checks"] if c["name"] == "harmonic_forms_mismatch"]
     assert check["level"] == "ok"
+
+
+def peak_near(e, d, x, half):
+    """The maximum of d within ``half`` of ``x``, refined by a parabola through it and its neighbours."""
+    band = np.nonzero(abs(e - x) < half)[0]
+    i = band[np.argmax(d[band])]
+    y0, y1, y2 = np.log(d[i - 1:i + 2])
+    return e[i] + 0.5 * (e[1] - e[0]) * (y0 - y2) / (y0 - 2 * y1 + y2)
+
+
+@pytest.mark.slow
+def test_ati_peaks_are_one_photon_apart():
+    """800 nm, 3.85e13 W/cm², 20 fs flat top: the surface-flux spectrum has its ATI peaks ħω apart
+    within 1 % (Agostini et al., PRL 42, 1127 (1979); common practice), fitted over seven orders."""
+    pulse = Pulse({"envelope": "flat", "wavelength": "800 nm", "intensity": "3.85e13 W/cm^2", "length": "20 fs",
+                   "ramp": "3 fs"})
+    res = run(pulse, gauge="velocity", l_max=12, dr=0.2, surface_radius=60, photoelectron_methods=["surface_flux"],
+              photoelectron_e_min=1 / HARTREE_EV, photoelectron_e_max=15 / HARTREE_EV, photoelectron_points=701)
+    s = res.spectra["photoelectrons"]
+    e, d = s["energy_eV"], s["dP_dE"]
+    w = pulse.components[0].omega * HARTREE_EV
+    first = e[np.argmax(d[e < 2 + w])]                     # the first peak above 1 eV
+    positions = np.array([peak_near(e, d, first + k * w, w / 2) for k in range(7)])
+    spacing = np.polyfit(np.arange(7), positions, 1)[0]
+    assert abs(spacing / w - 1) < 0.01
