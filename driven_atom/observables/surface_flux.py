@@ -3,11 +3,13 @@
 
 Beyond the radius R the electron is taken as free in the laser field (the grid route tapers the
 potential to zero below R), so the part of ψ that has crossed R evolves under the velocity-gauge
-H_V = (p + A ẑ)²/2μ. Projected on Volkov waves
+H_V = p²/2μ + A p_z/μ: the A²/2μ of (p + A ẑ)²/2μ is a phase common to the whole state, which the
+route's propagation drops, so the Volkov waves must drop it too — kept in one and not the other,
+it would shift every electron that crosses R while the field is on by the ponderomotive energy
+(our derivation). Projected on Volkov waves
 
     χ_k(r, t) = (2π)^(−3/2) e^{ik·r} e^{−iΦ(k, t)},
-    Φ(k, t) = ∫_{t₀}^{t} (k + A(t′)ẑ)²/(2μ) dt′ = k²(t − t₀)/2μ + k_z α(t)/μ + β(t)/2μ,
-    α(t) = ∫_{t₀}^{t} A dt′,  β(t) = ∫_{t₀}^{t} A² dt′,
+    Φ(k, t) = k²(t − t₀)/2μ + k_z α(t)/μ,    α(t) = ∫_{t₀}^{t} A dt′,
 
 the outer part ⟨χ_k|θ(r − R)ψ⟩ changes only by the flux through the sphere,
 d/dt ⟨χ_k|θψ⟩ = i⟨χ_k|[H_V, θ]|ψ⟩, so the momentum amplitude after the time T is
@@ -22,8 +24,8 @@ Wronskian of v_l(r) = r j_l(kr) and u_l at R and [p_z, θ] = −i cos θ δ(r �
 
 c_l = ⟨l|cos θ|l+1⟩, and d³P/dk³ = |b|², d²P/dE dΩ = μk |b|². The direction enters Φ through
 k_z α(t): while the field is on, the amplitude is summed on the emission angles of the spectrum
-(:attr:`SurfaceFlux.during`); once A = 0 for good, α and β are constant, so the rest is summed per
-partial wave (:attr:`SurfaceFlux.after`) and turned by e^{i(k_z α_T/μ + β_T/2μ)} at the end. The
+(:attr:`SurfaceFlux.during`); once A = 0 for good, α is constant, so the rest is summed per
+partial wave (:attr:`SurfaceFlux.after`) and turned by e^{i k_z α_T/μ} at the end. The
 time integral is the trapezoid rule on the samples the route passes (every few steps).
 
 >>> sf = SurfaceFlux([0.5], np.array([-0.5, 0.5]), radius=20.0, l_max=2, mu=1.0)
@@ -39,21 +41,19 @@ import numpy as np
 from driven_atom.errors import InputError
 
 
-def volkov_integrals(times, potential_start, potential_mid, potential_end) -> tuple[np.ndarray, np.ndarray]:
-    """α(t) = ∫A dt and β(t) = ∫A² dt from the first of ``times`` to each of them (uniform steps),
-    by Simpson's rule on every step from A at its start, middle and end.
+def volkov_integral(times, potential_start, potential_mid, potential_end) -> np.ndarray:
+    """α(t) = ∫A dt from the first of ``times`` to each of them, by Simpson's rule on every step from
+    A at its start, middle and end.
 
     >>> t = np.linspace(0.0, np.pi, 101)
-    >>> a, b = volkov_integrals(t, np.sin(t[:-1]), np.sin(t[:-1] + np.pi / 200), np.sin(t[1:]))
-    >>> round(float(a[-1]), 8), round(float(b[-1]), 8)          # 2 and π/2 (analytic)
-    (2.0, 1.57079633)
+    >>> a = volkov_integral(t, np.sin(t[:-1]), np.sin(t[:-1] + np.pi / 200), np.sin(t[1:]))
+    >>> round(float(a[-1]), 8)                                  # 2 (analytic)
+    2.0
     """
     t = np.asarray(times, dtype=float)
     dt = np.diff(t)
     a0, am, a1 = (np.asarray(v, dtype=float) for v in (potential_start, potential_mid, potential_end))
-    alpha = np.r_[0.0, np.cumsum(dt / 6 * (a0 + 4 * am + a1))]
-    beta = np.r_[0.0, np.cumsum(dt / 6 * (a0**2 + 4 * am**2 + a1**2))]
-    return alpha, beta
+    return np.r_[0.0, np.cumsum(dt / 6 * (a0 + 4 * am + a1))]
 
 
 def surface_derivative(rows: np.ndarray, dr: float) -> tuple[np.ndarray, np.ndarray]:
@@ -110,10 +110,10 @@ class SurfaceFlux:
         return ((self.dv[None] * u[:, :, None] - self.v[None] * du[:, :, None]) / (2 * self.mu)
                 - 1j * (a / self.mu) * self.v[None] * w[:, :, None])
 
-    def add(self, times, u, du, potential, alpha, beta, weights, batch: int = 16) -> None:
+    def add(self, times, u, du, potential, alpha, weights, batch: int = 16) -> None:
         """Add the samples at ``times`` with their trapezoid ``weights``: u_l(R), ∂u_l/∂r(R) (n, L),
-        A, α and β at the samples. Samples with A = 0 and the field over for good must come with the
-        final α and β and go to :attr:`after` (pass them in a call of their own, ``potential`` all 0)."""
+        A and α at the samples. Samples with A = 0 and the field over for good must come with the
+        final α and go to :attr:`after` (pass them in a call of their own, ``potential`` all 0)."""
         times = np.asarray(times, dtype=float)
         if times.size == 0:
             return
@@ -127,19 +127,18 @@ class SurfaceFlux:
         for s in range(0, times.size, batch):
             part = slice(s, s + batch)
             g = np.einsum("jl,nlk->njk", self.angular, f[part])                         # Σ_l (−i)^l Y_l0 F_l
-            phase = np.exp(1j * (kx[None] * np.asarray(alpha)[part, None, None]
-                                 + np.asarray(beta)[part, None, None] / (2 * self.mu)))
+            phase = np.exp(1j * kx[None] * np.asarray(alpha)[part, None, None])
             phase *= free_phase[part, None, :]
             self.during += np.einsum("n,njk->jk", weights[part], phase * g)
 
-    def amplitudes(self, alpha_end: float, beta_end: float) -> np.ndarray:
+    def amplitudes(self, alpha_end: float) -> np.ndarray:
         """b(k) on the (emission node, energy) grid, shape (n_x, n_E) (module docstring)."""
-        turn = np.exp(1j * (self.x[:, None] * self.k[None, :] * alpha_end / self.mu + beta_end / (2 * self.mu)))
+        turn = np.exp(1j * self.x[:, None] * self.k[None, :] * alpha_end / self.mu)
         return 1j * math.sqrt(2 / math.pi) * (self.during + turn * (self.angular @ self.after))
 
-    def densities(self, alpha_end: float, beta_end: float) -> np.ndarray:
+    def densities(self, alpha_end: float) -> np.ndarray:
         """d²P/dE dΩ = μk|b|² (per hartree per sr), shape (n_E, n_x)."""
-        b = self.amplitudes(alpha_end, beta_end)
+        b = self.amplitudes(alpha_end)
         return (self.mu * self.k[None, :] * abs(b) ** 2).T
 
 

@@ -692,7 +692,7 @@ class GridRoute(Route):
     def _prepare_flux(self, row: int) -> None:
         """The tapered potential, the flux accumulator and the sample plan of "surface_flux"."""
         from driven_atom.observables.photoelectron import emission_angles
-        from driven_atom.observables.surface_flux import SurfaceFlux, trapezoid_weights, volkov_integrals
+        from driven_atom.observables.surface_flux import SurfaceFlux, trapezoid_weights, volkov_integral
 
         par, grid, pulse = self.par, self.grid, self.pulse
         radius = (row + 1) * grid.dr
@@ -704,7 +704,7 @@ class GridRoute(Route):
         ends = self.t_start + par.dt * np.arange(par.n_steps + 1)
         a_ends = np.where(np.arange(par.n_steps + 1) <= par.n_pulse_steps, pulse.vector_potential_z(ends), 0.0)
         a_mid = np.where(np.arange(par.n_steps) < par.n_pulse_steps, pulse.vector_potential_z(ends[:-1] + par.dt / 2), 0.0)
-        self.alpha, self.beta = volkov_integrals(ends, a_ends[:-1], a_mid, a_ends[1:])
+        self.alpha = volkov_integral(ends, a_ends[:-1], a_mid, a_ends[1:])
         self.a_ends = a_ends
         stride = self._flux_stride(par)
         steps = np.unique(np.r_[np.arange(stride, par.n_steps + 1, stride), par.n_steps])
@@ -819,7 +819,7 @@ class GridRoute(Route):
         for part in (during, ~during):
             if part.any():
                 m = steps[part]
-                self.flux.add(times[part], u[part], du[part], self.a_ends[m], self.alpha[m], self.beta[m],
+                self.flux.add(times[part], u[part], du[part], self.a_ends[m], self.alpha[m],
                               weights[part])
 
     def steps_done(self, state) -> int:
@@ -971,8 +971,7 @@ class GridRoute(Route):
         out = {}
         for i, method in enumerate(s.photoelectron_methods):
             if method == "surface_flux":
-                a_end, b_end = float(self.alpha[-1]), float(self.beta[-1])
-                density = self.flux.densities(a_end, b_end)
+                density = self.flux.densities(float(self.alpha[-1]))
                 fix = ("widen `solver.absorber_width` (slow electrons reflected from a narrow mask) or lower "
                        "`solver.photoelectron_e_min`")
             elif method == "window":
