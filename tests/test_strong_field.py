@@ -164,18 +164,25 @@ def peak_near(e, d, x, half):
     return e[i] + 0.5 * (e[1] - e[0]) * (y0 - y2) / (y0 - 2 * y1 + y2)
 
 
-@pytest.mark.slow
-def test_ati_peaks_are_one_photon_apart():
-    """800 nm, 3.85e13 W/cm², 20 fs flat top: the surface-flux spectrum has its ATI peaks ħω apart
-    within 1 % (Agostini et al., PRL 42, 1127 (1979); common practice), fitted over seven orders."""
+def test_ati_peaks_are_one_photon_apart_and_shifted_by_up():
+    """800 nm, 3.85e13 W/cm² (Uₚ = 2.30 eV, about half a photon), 20 fs flat top: the surface-flux
+    ATI peaks are ħω apart within 1 % over seven orders and sit at nħω − Iₚ − Uₚ, shifted by Uₚ from
+    the field-free nħω − Iₚ (the electron leaves after the pulse without regaining Uₚ) (Agostini et
+    al., PRL 42, 1127 (1979); common practice)."""
     pulse = Pulse({"envelope": "flat", "wavelength": "800 nm", "intensity": "3.85e13 W/cm^2", "length": "20 fs",
                    "ramp": "3 fs"})
     res = run(pulse, gauge="velocity", l_max=12, dr=0.2, surface_radius=60, photoelectron_methods=["surface_flux"],
               photoelectron_e_min=1 / HARTREE_EV, photoelectron_e_max=15 / HARTREE_EV, photoelectron_points=701)
     s = res.spectra["photoelectrons"]
     e, d = s["energy_eV"], s["dP_dE"]
-    w = pulse.components[0].omega * HARTREE_EV
+    c = pulse.components[0]
+    w, up = c.omega * HARTREE_EV, c.peak_field**2 / (4 * c.omega**2) * HARTREE_EV
+    assert abs(up / 2.30 - 1) < 0.01                                      # 9.33 I λ² (common practice)
     first = e[np.argmax(d[e < 2 + w])]                     # the first peak above 1 eV
     positions = np.array([peak_near(e, d, first + k * w, w / 2) for k in range(7)])
     spacing = np.polyfit(np.arange(7), positions, 1)[0]
     assert abs(spacing / w - 1) < 0.01
+    shifted = (positions + 0.5 * HARTREE_EV + up) / w                    # n for nħω − Iₚ − Uₚ
+    field_free = (positions + 0.5 * HARTREE_EV) / w
+    assert np.all(abs(shifted - np.round(shifted)) < 0.1)
+    assert np.all(abs(field_free - np.round(field_free)) > 0.3)
