@@ -137,7 +137,8 @@ def test_sigma_positive_above_threshold_and_z_scaled(n, Z, x, data):
     omega = 0.5 / n**2 * (1.0 + x)
     s1 = cross_section(INF, n, l, omega)
     assert s1 > 0
-    assert cross_section(Atom(Z), n, l, omega * Z**2) == pytest.approx(s1 / Z**2, rel=1e-11)
+    # rel 1e-10: the high-n series lose digits to cancellation (n = 12, l = 1, Z = 5, x = 1/32 gave 4.0e-11)
+    assert cross_section(Atom(Z), n, l, omega * Z**2) == pytest.approx(s1 / Z**2, rel=1e-10)
     assert cross_section(INF, n, l, 0.5 / n**2 * (1 - 1e-9)) == 0.0
 
 
