@@ -69,7 +69,7 @@ def write_plan(folder, plan) -> Path:
     from driven_atom.campaign.scan import axis_table
     from driven_atom.result import provenance
 
-    from driven_atom.campaign.executors import FROM_USER_ONLY
+    from driven_atom.campaign.cluster import FROM_USER_ONLY
 
     config = dict(plan.base)
     if "cluster" in config:            # shell lines are never stored where others can edit them
