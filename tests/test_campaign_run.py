@@ -366,7 +366,7 @@ def test_cluster_table_makes_a_valid_slurm_job_script():
     assert "#SBATCH -p hollow" in script and "export OMP_NUM_THREADS=1" in script
     assert "--nworkers 8" in script and "--nthreads 1" in script    # 8 single-threaded workers per batch job
     # the early warning and the handlers that turn it into checkpoints
-    assert "#SBATCH --signal=B:TERM@60" in script and "--preload-nanny driven_atom.campaign.worker_signals" in script
+    assert "#SBATCH --signal=B:TERM@120" in script and "--preload-nanny driven_atom.campaign.worker_signals" in script
 
 
 def test_killed_grid_job_resumes_from_its_checkpoint(tmp_path):

@@ -396,3 +396,19 @@ def test_losing_all_workers_exits_4_with_one_line(tmp_path, monkeypatch, capsys)
     assert main(["scan", str(path), "--out", str(tmp_path / "camp")]) == 4
     err = capsys.readouterr().err
     assert err == "driven-atom: error: no worker left: batch job 7 (C-0) ended (1 worker(s) lost); 2 job(s) stay pending\n"
+
+
+def test_status_shows_the_workers_of_a_running_cluster_scan(tmp_path, capsys):
+    from driven_atom.campaign import store
+
+    plan = expand({k: v for k, v in _grid_scan().items() if k != "cluster"})
+    store.write_plan(tmp_path, plan)
+    info = {"system": "slurm", "workers": 2, "alive": 1, "lost": 2, "requested": 2, "resubmits": 2,
+            "max_resubmits": 20, "batch_jobs": ["4816", "4817"]}
+    store.write_workers(tmp_path, info)
+    assert store.campaign_status(tmp_path)["workers"] is None           # no scan holds the folder: stale
+    with store.CampaignLock(tmp_path):
+        assert store.campaign_status(tmp_path)["workers"] == info
+        assert main(["status", str(tmp_path)]) == 0
+    assert ("  workers (slurm): 1 of 2 alive, 2 lost, 2 requested (2 of 20 resubmissions); batch jobs 4816, 4817"
+            in capsys.readouterr().out.splitlines())

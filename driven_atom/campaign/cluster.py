@@ -390,6 +390,14 @@ class WorkerWatch:
         self.resubmits += allowed
         self.cluster.sync(_replace_jobs, self.cluster, names, allowed)
 
+    def state(self) -> dict:
+        """What ``status`` shows: workers alive, lost and requested, the batch jobs held."""
+        jobs = [str(getattr(self.cluster.workers.get(name), "job_id", None) or name)
+                for name in self.cluster.worker_spec]
+        return {"system": self.spec.system, "workers": self.spec.workers, "alive": self.alive, "lost": self.lost,
+                "requested": self.requested, "resubmits": self.resubmits, "max_resubmits": self.spec.max_resubmits,
+                "batch_jobs": jobs}
+
     def summary(self) -> str:
         """"2 workers lost, 2 requested" (empty while nothing was lost)."""
         if not self.lost:

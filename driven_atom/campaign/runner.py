@@ -148,7 +148,7 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
     if not todo:
         return
     bar = tqdm(total=total, initial=initial, unit="job", desc="scan", disable=not progress, dynamic_ncols=True)
-    stop, storage, interrupted, finished_here = None, None, 0, 0
+    stop, storage, interrupted, finished_here, noted = None, None, 0, 0, None
     try:
         with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo),
                          log_folder=Path(folder).resolve() / WORKER_LOGS) as runner:
@@ -180,6 +180,9 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
                         for line in runner.watch.events:
                             bar.write(f"driven-atom scan: {line}", file=sys.stderr)
                         runner.watch.events.clear()
+                        if runner.watch.state() != noted:
+                            noted = runner.watch.state()
+                            store.write_workers(folder, noted)
                 bar.set_postfix_str(_postfix(failed, runner.watch), refresh=False)
                 signum = stopping.requested()
                 if (signum is not None or storage is not None) and deadline is None:
@@ -196,6 +199,8 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
                           f"again to resume") from None
     finally:
         bar.close()
+        if noted is not None:
+            store.write_workers(folder, None)
     if storage is not None:
         raise StorageError(28, f"{storage}; the campaign stopped, finished jobs are kept")
     if stop is not None:

@@ -12,6 +12,9 @@ Layout of a campaign folder ``DIR``::
     DIR/jobs/.*.tmp          a file being written (left over only by a killed writer)
     DIR/jobs/<id>.h5.corrupt a job file found unreadable, kept aside for inspection (job re-run)
     DIR/scan.lock            held (flock) by the one `driven-atom scan` working on the folder
+    DIR/workers.json         on a [cluster], while the scan runs: its worker batch jobs (alive, lost,
+                             requested), for `driven-atom status`
+    DIR/worker-logs/         on a [cluster]: the output of the worker batch jobs
     DIR/summary.h5           the collected table (netCDF via h5netcdf), DIR/summary.csv on request
 
 A job is in one of these states: ``done`` (complete, readable, checksum and physics hash = job id),
@@ -45,6 +48,7 @@ from driven_atom.io import atomic_write, write_text
 PLAN_FILE = "campaign.toml"
 JOBS_DIR = "jobs"
 LOCK_FILE = "scan.lock"
+WORKERS_FILE = "workers.json"
 SUMMARY_FILE = "summary.h5"
 CSV_FILE = "summary.csv"
 
@@ -346,13 +350,31 @@ class CampaignLock:
         self.release()
 
 
+# -- cluster workers ----------------------------------------------------------------------------
+def write_workers(folder, info: dict | None) -> None:
+    """Note the scan's worker batch jobs for ``status`` (``None``: remove the note)."""
+    path = Path(folder) / WORKERS_FILE
+    if info is None:
+        path.unlink(missing_ok=True)
+    else:
+        write_text(path, json.dumps(info), sync=False)
+
+
+def read_workers(folder) -> dict | None:
+    try:
+        info = json.loads((Path(folder) / WORKERS_FILE).read_text())
+    except (OSError, ValueError):
+        return None
+    return info if isinstance(info, dict) else None
+
+
 # -- campaign status ----------------------------------------------------------------------------
 def campaign_status(folder) -> dict:
     """Counts of done / running / failed / pending jobs and one row per job.
 
     ``pending`` counts every job neither done, failed nor running (``checkpointed`` and
     ``corrupt`` jobs among them, also counted separately), so done + running + failed + pending
-    = total.
+    = total. ``workers``: the worker batch jobs of a scan on a [cluster] that is running (else None).
     """
     plan = read_plan(folder)
     active = CampaignLock(folder).busy()
@@ -371,4 +393,5 @@ def campaign_status(folder) -> dict:
     walls = [j["wall_s"] for j in jobs if j["wall_s"] is not None]
     untrustworthy = sum(1 for j in jobs if j["status"] == DONE and j["trustworthy"] is False)
     return {"folder": str(folder), "total": len(jobs), **counts, "untrustworthy": untrustworthy,
-            "scan_active": active, "wall_s_total": float(sum(walls)), "jobs": jobs}
+            "scan_active": active, "workers": read_workers(folder) if active else None,
+            "wall_s_total": float(sum(walls)), "jobs": jobs}

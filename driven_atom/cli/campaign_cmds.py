@@ -100,6 +100,12 @@ def _status(args):
           f"failed {status['failed']}  pending {status['pending']}"
           f"  (checkpointed {status['checkpointed']}, corrupt {status['corrupt']}; "
           f"untrustworthy {status['untrustworthy']})")
+    workers = status["workers"]
+    if workers:
+        print(f"  workers ({workers['system']}): {workers['alive']} of {workers['workers']} alive, "
+              f"{workers['lost']} lost, {workers['requested']} requested "
+              f"({workers['resubmits']} of {workers['max_resubmits']} resubmissions); "
+              f"batch jobs {', '.join(workers['batch_jobs']) or 'none'}")
     print(f"  wall time of done jobs: {status['wall_s_total']:.2f} s")
     print(f"  {'job':<18}{'status':<14}{'wall_s':>10}  {'trusted':<8} error")
     for job in status["jobs"]:
