@@ -184,15 +184,20 @@ class _Cluster:
             self._i += 1
         return {f"C-{self._i}": self.new_spec}
 
+    refuse = False                                  # sbatch says no, as dask-jobqueue reports it
+
     def _open(self):
         for name in self.worker_spec:
             if name not in self.workers:
-                self.workers[name] = _Job(str(100 + len(self.submitted)))
+                self.workers[name] = _Job(None if self.refuse else str(100 + len(self.submitted)))
                 self.submitted.append(name)
+                if self.refuse:
+                    raise RuntimeError("Command exited with non-zero exit code.\nExit code: 1\nCommand:\nsbatch "
+                                       "/tmp/x.sh\nstdout:\n\nstderr:\nsbatch: error: QOSMaxSubmitJobPerUserLimit\n")
 
-    def scale(self, n=None, jobs=0):
-        assert n is None and jobs == len(self.worker_spec)
+    def __await__(self):                              # SpecCluster: submit what is listed but not held
         self._open()
+        return iter(())
 
     def sync(self, fn, *args):
         return asyncio.run(fn(*args))
@@ -279,6 +284,21 @@ def test_a_spent_budget_still_leaves_the_survivors_working():
     watch.poll()                                             # no replacement left; C-2 works on
     assert watch.events[-1].endswith("no replacement (`cluster.max_resubmits` = 1 spent)")
     assert watch.summary() == "2 workers lost, 1 requested" and watch.alive == 1
+
+
+def test_a_refused_replacement_is_said_and_the_scan_ends_when_none_is_left():
+    cluster = _Cluster(1)
+    watch, clock = _watch(cluster, workers=1)
+    cluster.connect("C-0")
+    watch.poll()
+    cluster.disconnect("C-0")
+    cluster.refuse = True
+    clock.now = 11.0
+    with pytest.raises(WorkersLost, match=r"^no worker left: batch job 100 \(C-0\) ended \(1 worker\(s\) lost\) "
+                                          r"and no replacement is coming"):
+        watch.poll()
+    assert watch.events[-1] == "1 replacement batch job(s) refused: sbatch: error: QOSMaxSubmitJobPerUserLimit"
+    assert watch.summary() == "1 worker lost, 0 requested" and cluster.worker_spec == {}
 
 
 def test_no_worker_alive_for_the_set_time_ends_the_scan():

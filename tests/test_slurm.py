@@ -244,3 +244,12 @@ def test_a_partition_that_does_not_exist_is_refused_before_anything_is_submitted
     assert err.startswith(f"driven-atom: error: `cluster.queue` = 'hollow' is no partition of this SLURM cluster "
                           f"(sinfo lists: {_partition()})") and err.count("\n") == 1
     assert not (tmp_path / "never").exists() and _batch_jobs() == {}
+
+
+def test_a_batch_job_slurm_refuses_stops_the_scan_with_one_line(tmp_path, capsys):
+    cfg_path = _write(tmp_path, "kestrel_levels.toml", _levels_config(memory="100 TB"))
+    assert main(["scan", str(cfg_path), "--out", str(tmp_path / "refused"), "--no-progress"]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("driven-atom: error: [cluster]: sbatch refused the worker batch job: sbatch: error: ")
+    assert err.count("\n") == 1 and _batch_jobs() == {}
+    assert store.campaign_status(tmp_path / "refused")["pending"] == 4          # nothing ran, nothing lost

@@ -300,9 +300,50 @@ def open_cluster(spec: ClusterSpec, *, log_folder=None):
     with dask.config.set({"distributed.scheduler.worker-saturation": 1.0}):
         jq = cls(job_cls=job_class(spec.system), **kwargs)
     with jq:
-        jq.scale(spec.workers)
+        try:
+            jq.sync(_submit, jq, spec.batch_jobs)
+        except RuntimeError as exc:
+            raise InputError(f"[cluster]: {SUBMIT_COMMAND[spec.system]} refused the worker batch job: "
+                             f"{_refusal(exc)}") from None
         with Client(jq) as client:
             yield client, WorkerWatch(jq, spec)
+
+
+def _refusal(exc: BaseException) -> str:
+    """The batch system's own error lines of a failed submission (dask-jobqueue quotes its stderr)."""
+    text = str(exc).strip()
+    lines = [line.strip() for line in text.split("stderr:", 1)[-1].splitlines() if "error" in line.lower()]
+    if not lines:
+        lines = text.splitlines()[:1] or [type(exc).__name__]
+    return short("; ".join(lines), 300)
+
+
+async def _submit(cluster, count: int) -> None:
+    """In the cluster's event loop: add ``count`` batch jobs and submit them (a refusal raises,
+    the refused ones forgotten)."""
+    new = []
+    for _ in range(count):
+        spec = cluster.new_worker_spec()
+        cluster.worker_spec.update(spec)
+        new += list(spec)
+    try:
+        await cluster
+    except RuntimeError:
+        _forget_refused(cluster, new)
+        raise
+
+
+def _forget_refused(cluster, names) -> int:
+    """Drop the batch jobs of ``names`` that the batch system refused (no job id); how many."""
+    from distributed.core import Status
+
+    refused = [name for name in names if getattr(cluster.workers.get(name), "job_id", None) is None]
+    for name in refused:
+        cluster.worker_spec.pop(name, None)
+        job = cluster.workers.pop(name, None)
+        if job is not None:
+            job.status = Status.failed               # what the cluster expects of a job it never started
+    return len(refused)
 
 
 def _member_names(name, spec: dict) -> set[str]:
@@ -388,7 +429,10 @@ class WorkerWatch:
                 self.events.append(f"{described[name]} ended: {size} worker(s) lost; no replacement "
                                    f"(`cluster.max_resubmits` = {self.spec.max_resubmits} spent)")
         self.resubmits += allowed
-        self.cluster.sync(_replace_jobs, self.cluster, names, allowed)
+        refused = self.cluster.sync(_replace_jobs, self.cluster, names, allowed)
+        if refused:
+            self.requested -= refused[0] * self.spec.cores
+            self.events.append(f"{refused[0]} replacement batch job(s) refused: {refused[1]}")
 
     def state(self) -> dict:
         """What ``status`` shows: workers alive, lost and requested, the batch jobs held."""
@@ -405,16 +449,24 @@ class WorkerWatch:
         return f"{self.lost} worker{'s' if self.lost != 1 else ''} lost, {self.requested} requested"
 
 
-async def _replace_jobs(cluster, lost, count: int) -> None:
+async def _replace_jobs(cluster, lost, count: int):
     """In the cluster's event loop: ``count`` new batch jobs (new names: the lost ones are still
     listed while the names are drawn, so none is used twice), then forget the ``lost`` ones
-    (cancelled in case the batch system still holds them)."""
+    (cancelled in case the batch system still holds them), then submit the new ones. Returns None,
+    or (number refused, the batch system's reason) when it refused some."""
+    new = []
     for _ in range(count):
-        cluster.worker_spec.update(cluster.new_worker_spec())
+        spec = cluster.new_worker_spec()
+        cluster.worker_spec.update(spec)
+        new += list(spec)
     for name in lost:
         cluster.worker_spec.pop(name, None)
         job = cluster.workers.pop(name, None)
         if job is not None:
             with contextlib.suppress(Exception):     # an ended batch job cannot be cancelled: fine
                 await job.close()
-    cluster.scale(jobs=len(cluster.worker_spec))    # submits the new ones
+    try:
+        await cluster
+    except RuntimeError as exc:                      # e.g. a limit on queued jobs: not asked again
+        return _forget_refused(cluster, new), _refusal(exc)
+    return None
