@@ -236,6 +236,7 @@ def test_a_lost_batch_job_is_replaced_and_the_progress_line_says_so():
         cluster.connect(name)
     watch.poll()
     assert (watch.alive, watch.summary()) == (2, "")
+    assert watch.describe_start() == "2 worker batch job(s) submitted (100, 101; 2 worker(s) in all)"
     cluster.disconnect("C-0")
     clock.now = 9.0
     watch.poll()                                           # gone, but not long enough to be lost

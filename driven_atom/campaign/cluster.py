@@ -434,6 +434,16 @@ class WorkerWatch:
             self.requested -= refused[0] * self.spec.cores
             self.events.append(f"{refused[0]} replacement batch job(s) refused: {refused[1]}")
 
+    def describe_start(self) -> str:
+        """One line for the start of the scan: the batch jobs submitted, where the dashboard is."""
+        jobs = [str(getattr(job, "job_id", "?")) for job in self.cluster.workers.values()]
+        try:
+            link = self.cluster.dashboard_link
+        except Exception:  # noqa: BLE001 - no dashboard (bokeh missing): say nothing about it
+            link = ""
+        return (f"{len(jobs)} worker batch job(s) submitted ({', '.join(jobs)}; {self.spec.workers} worker(s) "
+                f"in all)" + (f"; Dask dashboard: {link}" if link else ""))
+
     def state(self) -> dict:
         """What ``status`` shows: workers alive, lost and requested, the batch jobs held."""
         jobs = [str(getattr(self.cluster.workers.get(name), "job_id", None) or name)

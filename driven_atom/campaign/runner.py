@@ -152,6 +152,8 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
     try:
         with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo),
                          log_folder=Path(folder).resolve() / WORKER_LOGS) as runner:
+            if runner.watch is not None:
+                bar.write(f"driven-atom scan: {runner.watch.describe_start()}", file=sys.stderr)
             where = str(Path(folder).resolve())          # workers on other nodes have another cwd
             tag = hashlib.sha256(where.encode()).hexdigest()[:8]   # Dask keys: one per job and folder
             futures = {runner.submit(run_job, job.id, job.config, where, cache_dir,
