@@ -356,12 +356,13 @@ def test_cluster_table_makes_a_valid_slurm_job_script():
     import dask_jobqueue
 
     from driven_atom.routes import load_config
-    from driven_atom.campaign.cluster import cluster_options, job_class
+    from driven_atom.campaign.cluster import cluster_class, cluster_options
 
     spec = cluster_options(load_config(REPO / "configs" / "cluster_example.toml").cluster)
     assert (spec.system, spec.workers, spec.batch_jobs) == ("slurm", 32, 4)
-    with dask_jobqueue.SLURMCluster(job_cls=job_class("slurm"), **spec.kwargs,
-                                    scheduler_options={"host": "127.0.0.1", "dashboard_address": None}) as cluster:
+    cls = cluster_class("slurm")
+    assert issubclass(cls, dask_jobqueue.SLURMCluster)
+    with cls(**spec.kwargs, scheduler_options={"host": "127.0.0.1", "dashboard_address": None}) as cluster:
         script = cluster.job_script()
     assert "#SBATCH -p hollow" in script and "export OMP_NUM_THREADS=1" in script
     assert "--nworkers 8" in script and "--nthreads 1" in script    # 8 single-threaded workers per batch job

@@ -279,12 +279,25 @@ def job_class(system: str):
     return type(f"Checkpointing{base.__name__}", (base,), {"_script_template": JOB_SCRIPT})
 
 
+def cluster_class(system: str):
+    """dask-jobqueue's cluster class of ``system`` with :func:`job_class`, and without its own
+    rule for lost workers (it cancels a batch job whose worker has been gone for a while, and
+    resubmits it unasked at the next change of size): :class:`WorkerWatch` is the one place that
+    decides a batch job has ended and what replaces it."""
+    import dask_jobqueue
+    from distributed.deploy.cluster import Cluster
+
+    base = {"slurm": dask_jobqueue.SLURMCluster, "pbs": dask_jobqueue.PBSCluster}[system]
+    return type(f"Watched{base.__name__}", (base,), {"job_cls": job_class(system),
+                                                     "_update_worker_status": Cluster._update_worker_status})
+
+
 @contextlib.contextmanager
 def open_cluster(spec: ClusterSpec, *, log_folder=None):
     """(``distributed.Client``, :class:`WorkerWatch`) of a dask-jobqueue cluster of ``spec``; its
     batch jobs are cancelled on exit. Worker logs go to ``log_folder`` unless ``options`` names one."""
     try:
-        import dask_jobqueue
+        import dask_jobqueue  # noqa: F401 - present?
     except ImportError:
         raise InputError("[cluster] needs dask-jobqueue: pip install 'driven-atom[cluster]'") from None
     import dask
@@ -292,13 +305,13 @@ def open_cluster(spec: ClusterSpec, *, log_folder=None):
 
     kwargs = dict(spec.kwargs)
     kwargs.setdefault("scheduler_options", {"dashboard_address": ":0"})    # a free port, never a clash
+    kwargs.setdefault("name", "driven-atom")         # workers driven-atom-0, driven-atom-1, ...
     if log_folder is not None and "log_directory" not in kwargs:
         os.makedirs(log_folder, exist_ok=True)
         kwargs["log_directory"] = str(log_folder)
-    cls = {"slurm": dask_jobqueue.SLURMCluster, "pbs": dask_jobqueue.PBSCluster}[spec.system]
     # one job per worker thread at a time: nothing queues on a worker that may be pre-empted
     with dask.config.set({"distributed.scheduler.worker-saturation": 1.0}):
-        jq = cls(job_cls=job_class(spec.system), **kwargs)
+        jq = cluster_class(spec.system)(**kwargs)
     with jq:
         try:
             jq.sync(_submit, jq, spec.batch_jobs)
@@ -374,10 +387,11 @@ class WorkerWatch:
         self.lost_jobs: list[str] = []
         self.events: list[str] = []
         self._seen: dict = {}        # batch job name -> last time one of its workers was connected
+        self._job_ids: dict = {}     # batch job name -> the batch system's job id
         self._since = clock()        # last time a worker was alive (or the start)
 
     def _describe(self, name) -> str:
-        job_id = getattr(self.cluster.workers.get(name), "job_id", None)
+        job_id = self._job_ids.get(name)
         return f"batch job {job_id} ({name})" if job_id else f"batch job {name}"
 
     def poll(self) -> None:
@@ -388,6 +402,9 @@ class WorkerWatch:
             members = _member_names(name, job_spec)
             present = len(members & connected)
             alive += present
+            job = self.cluster.workers.get(name)
+            if getattr(job, "job_id", None):
+                self._job_ids[name] = job.job_id
             if present:
                 self._seen[name] = now
             elif name in self._seen and now - self._seen[name] > self.lost_after_s:
@@ -469,12 +486,15 @@ async def _replace_jobs(cluster, lost, count: int):
         spec = cluster.new_worker_spec()
         cluster.worker_spec.update(spec)
         new += list(spec)
+    from distributed.core import Status
+
     for name in lost:
         cluster.worker_spec.pop(name, None)
         job = cluster.workers.pop(name, None)
         if job is not None:
             with contextlib.suppress(Exception):     # an ended batch job cannot be cancelled: fine
                 await job.close()
+            job.status = Status.closed               # what the cluster expects of a job it let go
     try:
         await cluster
     except RuntimeError as exc:                      # e.g. a limit on queued jobs: not asked again
