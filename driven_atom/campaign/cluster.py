@@ -24,7 +24,9 @@ never from a campaign folder (:data:`FROM_USER_ONLY`).
 Checked at the door (:func:`check_cluster`, :func:`check_walltime`), before anything is written or
 submitted: the keys and ranges, the submit command (``sbatch``/``qsub``) on this machine, the
 partition known to ``sinfo``, and a walltime that leaves the longest job of the scan its
-estimated run time (the resource preflight of its route).
+estimated run time (the resource preflight of its route). A batch job the batch system refuses
+at submission (memory, time or a limit beyond what the site allows) stops the scan with the
+system's own error line before any job runs.
 
 The worker job script starts the workers in the background and waits for them: a stop signal
 (pre-emption, the walltime, ``scancel``; or SLURM's early warning, ``--signal=B:TERM@60``) reaches
@@ -60,7 +62,7 @@ SUBMIT_COMMAND = {"slurm": "sbatch", "pbs": "qsub"}
 FROM_USER_ONLY = ("prologue", "options")     # shell lines and raw arguments: never read from a campaign folder
 KEYS = {"system", "workers", "cores", "memory", "walltime", "queue", "account", "max_resubmits",
         "wait_for_workers", "warning_time", "prologue", "options"}
-THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")
+THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")  # = 1 in workers
 DEFAULT_MAX_RESUBMITS = 20
 DEFAULT_WAIT = "1 h"
 DEFAULT_WARNING_S = {"slurm": 60.0, "pbs": 0.0}   # at most a tenth of the walltime
