@@ -10,7 +10,7 @@ whose error is no larger than the Magnus run's error, divided by the Magnus time
 time interpolated (log–log, between the two rtols whose errors bracket the Magnus error) to the
 Magnus error, divided by the Magnus time; (b) is the figure held against the target. Both use the
 same dipole matrix and the same pulse evaluation, but not the same product: the route applies z
-as dense real l ↔ l+1 blocks with its own numba kernel (:mod:`driven_atom.engines.krylov`), while the
+as dense real l ↔ l+1 blocks with its own numba kernel (:mod:`driven_atom.routes.krylov`), while the
 DOP853 reference is plain ``solve_ivp`` with the complex scipy CSR matrix. The time of one product
 of each kind and the ratio of product counts are printed, so the gain of the integrator (fewer
 products) and of the kernel (cheaper products) can be told apart. Threads as set by
@@ -32,8 +32,8 @@ def main(argv=None) -> None:
 
     from driven_atom.atom import Atom
     from driven_atom.basis.eigenbasis import build_basis
-    from driven_atom.engines.eigenbasis import MagnusPropagator
-    from driven_atom.engines.krylov import Coupling
+    from driven_atom.routes.basis import MagnusPropagator
+    from driven_atom.routes.krylov import Coupling
     from driven_atom.pulse import Pulse
 
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])

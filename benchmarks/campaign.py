@@ -36,20 +36,19 @@ def config(n_jobs: int) -> dict:
 
 def direct(cfg: dict) -> float:
     """Seconds for all jobs through the engine in this process (config parsing excluded)."""
-    from driven_atom.campaign.config import load_config
     from driven_atom.campaign.scan import expand
-    from driven_atom.engines import route_module
+    from driven_atom.pulse import build_pulse
+    from driven_atom.routes import load_config, propagate
 
     prepared = []
     for job in expand(cfg).unique_jobs():
         c = load_config(job.config)
-        prepared.append((c.build_atom(), c.build_pulse(), c.solver_settings(), c.initial_states(), c.output))
-    engine = route_module("levels")
+        prepared.append((c.build_atom(), build_pulse(c), c.solver, c.initial_states(), c.output))
     atom, pulse, settings, initial, output = prepared[0]
-    engine.propagate(atom, pulse, settings, initial=initial, output=output)       # warm-up
+    propagate(atom, pulse, settings, initial=initial, output=output)       # warm-up
     started = time.perf_counter()
     for atom, pulse, settings, initial, output in prepared:
-        engine.propagate(atom, pulse, settings, initial=initial, output=output)
+        propagate(atom, pulse, settings, initial=initial, output=output)
     return time.perf_counter() - started
 
 

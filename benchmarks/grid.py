@@ -30,7 +30,7 @@ import numpy as np
 
 from driven_atom.atom import Atom
 from driven_atom.basis.radial_grid import uniform_grid
-from driven_atom.engines import grid
+from driven_atom.routes import grid
 
 N, L, DR, DT = 4000, 40, 0.1, 0.05
 ATOM = Atom(1)
@@ -74,9 +74,10 @@ class NumpyScheme:
     """The same Strang step in plain numpy/scipy: A B C B A, C by solve_banded per l."""
 
     def __init__(self, stepper: grid._Stepper, r):
-        a = stepper.a
-        n, nl = stepper.wr.shape
-        self.tau, self.r, self.mask = stepper.tau, r, stepper.mask
+        a = stepper.a                                # named views into the stacked operator arrays
+        n, nl = stepper.psi.shape[1:]
+        self.tau, inv2mu, _ = stepper.consts
+        self.r, self.mask = r, stepper.mask
         self.c = grid.coupling_coefficients(nl - 1)
         self.ap, self.am = [], []
         for l in range(nl):
@@ -85,9 +86,9 @@ class NumpyScheme:
             md = a["m_diag"].copy()
             dd = a["d_diag"].copy()
             md[0], dd[0] = a["m_first"][j], a["d_first"][j]
-            k_diag = -dd * stepper.inv2mu + md * v
-            up = -a["d_off"] * stepper.inv2mu + a["m_off"] * v[1:]      # (i, i+1)
-            lo = -a["d_off"] * stepper.inv2mu + a["m_off"] * v[:-1]     # (i+1, i)
+            k_diag = -dd * inv2mu + md * v
+            up = -a["d_off"] * inv2mu + a["m_off"] * v[1:]      # (i, i+1)
+            lo = -a["d_off"] * inv2mu + a["m_off"] * v[:-1]     # (i+1, i)
             ab = np.zeros((3, n), complex)
             ab[0, 1:] = a["m_off"] + 1j * self.tau * up
             ab[1] = md + 1j * self.tau * k_diag
@@ -144,16 +145,15 @@ def qutip_ratio(window=2.0, n=600, nl=16, dr=0.1):
     g = uniform_grid(n * dr, dr)
     r = g.r
     stepper = grid._Stepper(g, ATOM, nl, DT, np.ones(n), threads=1)
-    a = stepper.a                                # switch to plain three-point: M = 1, no corrections
-    a["m_diag"][:] = 1.0
-    a["m_off"][:] = 0.0
-    a["m_first"][:] = 1.0
-    a["d_first"][:] = -2.0 / dr**2
-    a["d_diag"][:] = -2.0 / dr**2
     fine = grid._Stepper(g, ATOM, nl, DT / 16, np.ones(n), threads=1)
-    fine.a = a
-    for s in (stepper, fine):
+    for s in (stepper, fine):                    # switch to plain three-point: M = 1, no corrections
+        s.a["m_diag"][:] = 1.0
+        s.a["m_off"][:] = 0.0
+        s.a["m_first"][:] = 1.0
+        s.a["d_first"][:] = -2.0 / dr**2
+        s.a["d_diag"][:] = -2.0 / dr**2
         s.refactor()
+    a = stepper.a
     omega, f0 = 0.057, 0.05
 
     def field(t):

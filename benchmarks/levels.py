@@ -25,7 +25,7 @@ def reference_populations(atom, pulse, settings, initial_index: int):
     from scipy.integrate import solve_ivp
     from scipy.interpolate import make_interp_spline
 
-    from driven_atom.engines.levels import build_model, coupling
+    from driven_atom.routes.levels import build_model, coupling
 
     model = build_model(atom, settings.sublevels(), decay=settings.decay)
     terms, (ts, vals) = coupling(atom, pulse, model, settings)
@@ -69,9 +69,10 @@ def main(argv=None):
 
     from driven_atom.atom import Atom, State
     from driven_atom.atom.levels import energy
-    from driven_atom.campaign.config import OutputConfig
-    from driven_atom.engines.levels import Settings, propagate
+    from driven_atom.config import OutputConfig
     from driven_atom.pulse import Pulse
+    from driven_atom.routes import propagate
+    from driven_atom.settings import LevelsSettings as Settings
 
     atom = Atom.from_name("H")
     w21 = energy(atom, 2) - energy(atom, 1)
@@ -80,7 +81,7 @@ def main(argv=None):
     pulse = Pulse([{**common, "photon_energy": w21, "polarization": "z"},
                    {**common, "photon_energy": w42, "polarization": "circular+"}])
     states = ["1s", "2s", "2p", "3s", "3p", "3d", "4s", "4p", "4d", "4f"]
-    settings = Settings(route="levels", states=states, rwa=True, decay=True)
+    settings = Settings(states=states, rwa=True, decay=True)
 
     started = time.perf_counter()
     result = propagate(atom, pulse, settings, initial=[(State(1, 0), 1.0)],

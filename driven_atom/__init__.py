@@ -27,6 +27,7 @@ _EXPORTS = {
     "estimate": "driven_atom.api",
     "scan": "driven_atom.campaign.runner",
     "open_campaign": "driven_atom.campaign.summary",
+    "plot_campaign": "driven_atom.campaign.figure",
     "lines": "driven_atom.atom.tables",
     "transition": "driven_atom.atom.tables",
     "state": "driven_atom.atom.tables",

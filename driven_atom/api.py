@@ -65,8 +65,9 @@ def open_result(path) -> Result:
     return result
 
 
-def estimate(config, **lab) -> dict:
-    """Quick lab estimate of excitation and ionisation (:func:`driven_atom.lab.estimate`)."""
+def estimate(config=None, **keys) -> dict:
+    """The lab estimate from a ``[lab]`` table, keyword arguments named like its keys, or a run
+    configuration's atom and pulse (:func:`driven_atom.lab.estimate`)."""
     from driven_atom.lab import estimate as lab_estimate
 
-    return lab_estimate(config, **lab)
+    return lab_estimate(config, **keys)

@@ -58,18 +58,31 @@ class WeightedState(_Section):
 
 
 class AtomConfig(_Section):
-    """``[atom]``: nuclear charge, nucleus (name or mass), level structure and initial state."""
+    """``[atom]``: nuclear charge, nucleus (name or mass), or a single-active-electron model atom by
+    ``species``; level structure and initial state."""
 
     Z: Integer(ge=1, le=118) | None = Field(None, description="nuclear charge")
     nucleus: str = Field("infinite", description="nucleus name (H, D, T, He3, He, Li, ...), ion name "
                          "(He+, Li2+, ...), \"infinite\" or a mass with units (\"1.00728 u\")")
+    species: str | None = Field(None, description=(
+        "a single-active-electron model atom instead of a hydrogen-like one: He, Ne, Ar, Kr, Xe (Tong & Lin "
+        "2005) or Li, Na, K, Rb, Cs (Marinescu et al. 1994, l-dependent); parameters and sources in "
+        "driven_atom/atom/data/model_atoms.toml; excludes `Z` and `nucleus`"))
     structure: Literal["bohr", "fine", "hyperfine"] = Field("bohr", description=(
         "level structure: bohr (reduced-mass Bohr levels), fine (Dirac energies with recoil and the Lamb "
         "shift; states |n l j m_j>) or hyperfine (also the magnetic hyperfine structure; states |n l j F m_F>); "
-        "fine and hyperfine need route \"levels\""))
+        "fine and hyperfine need route \"levels\" and a hydrogen-like atom"))
     initial: str | list[WeightedState] = Field("1s", description="state label (\"1s\", or a component such as "
-                                               "\"1s1/2 F=1 m=0\" with structure), or a list of weighted "
+                                               "\"1s1/2 F=1 m=0\" with structure; \"ground\" for the ground state, "
+                                               "the default of a model atom: Ar 3p, Na 3s), or a list of weighted "
                                                "states ({state, weight, phase}; a plain label has weight 1)")
+
+    @model_validator(mode="before")
+    @classmethod
+    def _ground_by_default(cls, data):
+        if isinstance(data, dict) and data.get("species") is not None and "initial" not in data:
+            data = {**data, "initial": "ground"}
+        return data
 
     @field_validator("initial", mode="before")
     @classmethod
@@ -79,13 +92,36 @@ class AtomConfig(_Section):
         return value
 
     @model_validator(mode="after")
+    def _species(self):
+        if self.species is None:
+            return self
+        from driven_atom.atom.model_atoms import model_potential
+
+        model = model_potential(self.species)
+        if self.nucleus != "infinite":
+            raise ValueError("`atom.species` and `atom.nucleus` exclude each other (a model atom carries the mass "
+                             "of its most abundant isotope); give one")
+        if self.Z is not None and self.Z != model.Z:
+            raise ValueError(f"`atom.Z` = {self.Z} does not fit `atom.species` = {self.species!r} (Z = {model.Z}); "
+                             f"drop `atom.Z`")
+        if self.structure != "bohr":
+            raise ValueError(f"`atom.structure` = {self.structure!r} is for hydrogen-like atoms; a model atom has "
+                             f"\"bohr\" levels (its fine structure: `driven-atom transition` with --species)")
+        return self
+
+    def _label(self, label):
+        if label == "ground":
+            return self.build_atom().model.ground if self.species is not None else check_label("1s", self.structure)
+        return check_label(label, self.structure, name="atom.initial")
+
+    @model_validator(mode="after")
     def _labels(self):
         labels = [self.initial] if isinstance(self.initial, str) else [c.state for c in self.initial]
         if not labels:
             raise ValueError("`atom.initial` must name at least one state")
         seen = set()
         for label in labels:
-            state = check_label(label, self.structure, name="atom.initial")
+            state = self._label(label)
             if state in seen:
                 raise ValueError(f"`atom.initial` lists {state.label} twice (the norm would not be 1); "
                                  f"give each state once with its weight")
@@ -102,15 +138,17 @@ class AtomConfig(_Section):
         return self
 
     def build_atom(self) -> Atom:
+        if self.species is not None:
+            return Atom.from_species(self.species)
         return Atom.from_name(self.nucleus, Z=self.Z)
 
     def initial_states(self) -> list:
         """The initial state as a normalised list of (State or Component, complex amplitude)."""
         if isinstance(self.initial, str):
-            return [(check_label(self.initial, self.structure, name="atom.initial"), 1.0 + 0j)]
+            return [(self._label(self.initial), 1.0 + 0j)]
         total = sum(c.weight for c in self.initial)
-        return [(check_label(c.state, self.structure, name="atom.initial"),
-                 math.sqrt(c.weight / total) * cmath.exp(1j * c.phase)) for c in self.initial]
+        return [(self._label(c.state), math.sqrt(c.weight / total) * cmath.exp(1j * c.phase))
+                for c in self.initial]
 
 
 MAX_MAGNETIC_T = 10.0                # the diamagnetic term (left out) reaches ~30 MHz at n = 2 there
@@ -231,7 +269,8 @@ class OutputConfig(_Section):
 
 class RunConfig(_Section):
     """A whole run: ``[atom]``, optional ``[fields]``, ``[[pulse]]``, ``[solver]``, ``[output]``,
-    optional ``[scan]`` and ``[cluster]`` (checked by the campaign)."""
+    optional ``[scan]`` and ``[cluster]`` (checked by the campaign) and ``[lab]`` (the lab numbers of
+    ``driven-atom estimate``, checked by :mod:`driven_atom.lab`; a run does not use them)."""
 
     atom: AtomConfig
     fields: FieldsConfig = Field(default_factory=FieldsConfig)
@@ -240,6 +279,7 @@ class RunConfig(_Section):
     output: OutputConfig = Field(default_factory=OutputConfig)
     scan: dict[str, Any] | None = None
     cluster: dict[str, Any] | None = None
+    lab: dict[str, Any] | None = None
     _source: dict = PrivateAttr(default_factory=dict)
 
     @model_validator(mode="wrap")
@@ -304,9 +344,12 @@ class RunConfig(_Section):
         """The values that shape the numbers, in atomic units (the content of the job id)."""
         atom = self.build_atom()
         initial = [[s.label, a.real, a.imag] for s, a in self.initial_states()]
+        atom_physics = {"Z": atom.Z, "nuclear_mass": atom.nuclear_mass, "initial": initial,
+                        "structure": self.atom.structure}
+        if atom.model is not None:                   # the potential's identity (hydrogen-like ids unchanged)
+            atom_physics["species"] = atom.model.key
         return _canonical({"hash_version": HASH_VERSION,
-                           "atom": {"Z": atom.Z, "nuclear_mass": atom.nuclear_mass, "initial": initial,
-                                    "structure": self.atom.structure},
+                           "atom": atom_physics,
                            "fields": self.fields.model_dump(mode="json"),
                            "pulse": [p.physics() for p in self.pulse],
                            "solver": self.solver.physics()})

@@ -20,6 +20,7 @@ The cost is reported in units of the first run (typically 6–9 runs for four kn
 the work the sizes imply (the routes' resource estimates: grid points × partial waves × steps and
 the eigen-solves), which a busy machine does not distort; wall times are recorded beside it.
 
+>>> from driven_atom.routes.base import Knob
 >>> Knob("dt", 0.05, refine=0.025, coarsen=0.1, order=2, cost=2.0).predicted_error(1e-3)
 0.0013333333333333333
 """
@@ -30,32 +31,6 @@ import time
 from dataclasses import dataclass, field
 
 from driven_atom.errors import InputError
-
-
-@dataclass(frozen=True)
-class Knob:
-    """One numerical setting: its current value, the refined and coarsened values (refinement by a
-    factor 2 in the error's variable), the order p of its error (None: faster than any power) and
-    the cost of the refined run relative to the current one."""
-
-    name: str
-    value: float
-    refine: float
-    coarsen: float | None
-    order: float | None
-    cost: float
-
-    def predicted_error(self, change: float) -> float:
-        """Error at the current value from the change on refinement: change/(1 − 2^−p)."""
-        if self.order is None:
-            return abs(change)
-        return abs(change) / (1 - 2.0 ** -self.order)
-
-    def coarse_error(self, change: float) -> float | None:
-        """Predicted error at the coarsened value (known order only): error·2^p."""
-        if self.order is None or self.coarsen is None:
-            return None
-        return self.predicted_error(change) * 2.0**self.order
 
 
 @dataclass

@@ -303,3 +303,60 @@ def result_figure(result, path, *, name: str = "--out") -> Path:
         title += f"\n{Path(result.metadata['file']).name}"
     fig.suptitle(title, fontsize="medium")
     return _save(fig, path, name)
+
+
+def yield_figure(estimate: dict, path) -> Path:
+    """The yield of a lab estimate (:func:`driven_atom.lab.estimate` with ``curve=True``) against the
+    pulse energy, log–log: ions (and excited atoms) per shot — or the single-atom probability when
+    no gas is given — with the local slopes at both ends, the saturation energy and the operating
+    point, into ``path`` (.png, .pdf or .svg).
+
+    >>> import tempfile, os
+    >>> from driven_atom.lab import estimate
+    >>> out = estimate(species="H", wavelength="121.5684 nm", pulse_energy="10 uJ", fwhm="2 ns", waist="100 um",
+    ...                density="1e10 cm^-3", length="5 mm", temperature="0 K", curve=True)
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     yield_figure(out, os.path.join(d, "y.png")).stat().st_size > 0
+    True
+    """
+    curve = estimate.get("curve")
+    if not curve:
+        raise InputError("yield_figure needs an estimate made with curve=True")
+    per_shot = curve["per_shot"]
+    energy = curve["pulse_energy_J"]
+    x = np.asarray(energy if energy is not None else curve["scale"], dtype=float)
+    y = np.asarray(curve["ions"], dtype=float)
+    x0 = estimate.get("pulse_energy_J") or 1.0
+    y0 = estimate.get("ions_per_shot") if per_shot else estimate.get("probability_peak")
+    fig = _figure(figsize=(6.5, 4.8), layout="constrained")
+    ax = fig.subplots()
+    what = "ions per shot" if per_shot else "ionisation at the focus centre"
+    ax.loglog(x, np.where(y > 0, y, np.nan), color="C0", label=what)
+    if curve.get("excited"):
+        exc = np.asarray(curve["excited"], dtype=float)
+        ax.loglog(x, np.where(exc > 0, exc, np.nan), color="C1", ls="--",
+                  label="excited atoms per shot" if per_shot else "excited after the pulse")
+    good = (y > 0) & np.isfinite(y)
+    lx, ly = np.log(x[good]), np.log(y[good])
+    if lx.size > 6:
+        for i, where in ((slice(0, 4), "low"), (slice(-4, None), "high")):
+            slope = float(np.polyfit(lx[i], ly[i], 1)[0])
+            xm, ym = float(np.exp(lx[i].mean())), float(np.exp(ly[i].mean()))
+            ax.annotate(f"slope {slope:.2f}", (xm, ym), textcoords="offset points",
+                        xytext=(0, 10 if where == "low" else -16), ha="center", fontsize=9)
+    if curve.get("saturation_scale"):
+        ax.axvline(x0 * curve["saturation_scale"], color="0.5", lw=0.8, ls=":")
+        ax.annotate("saturation (P = 1 - 1/e at the centre)", (x0 * curve["saturation_scale"], np.nanmin(y[good])),
+                    rotation=90, fontsize=8, color="0.4", va="bottom", ha="right")
+    if y0:
+        ax.plot([x0], [y0], "o", color="C3", label="operating point")
+    ax.set_xlabel("pulse energy [J]" if energy is not None else "intensity / peak intensity")
+    ax.set_ylabel(what)
+    inputs = estimate.get("inputs", {})
+    title = f"{estimate.get('species', '')} {estimate.get('state', '')}"
+    if "wavelength_nm" in inputs:
+        title += f" at {inputs['wavelength_nm']:.5g} nm"
+    ax.set_title(f"{title}: {estimate.get('regime', '')}", fontsize=10)
+    ax.legend(fontsize=8)
+    ax.grid(True, which="both", alpha=0.3)
+    return _save(fig, path)

@@ -28,7 +28,7 @@ from typing import Annotated
 
 from pydantic import BeforeValidator
 
-from driven_atom.units import AU_TIME_S, UnitError, convert, kind_phrase
+from driven_atom.units import AU_TIME_S, SI_KINDS, UnitError, convert, kind_phrase, si_value
 
 AU_UNIT_NAME = {"energy": "hartree", "length": "bohr", "time": "au of time", "intensity": "au",
                 "field": "au", "rate": "au", "mass": "electron masses", "area": "bohr^2",
@@ -84,6 +84,31 @@ def Quantity(kind: str, *, gt=None, ge=None, lt=None, le=None):
     """The field type of a quantity of ``kind`` with optional bounds (in atomic units)."""
     bounds = Bounds(gt, ge, lt, le)
     return Annotated[float, UnitKind(kind), BeforeValidator(partial(_convert, kind, bounds))]
+
+
+def _convert_si(kind: str, bounds: Bounds, value):
+    unit, _, example = SI_KINDS[kind]
+    if isinstance(value, bool) or not isinstance(value, str) and type(value).__module__.split(".")[0] != "pint":
+        raise ValueError(f"needs units, e.g. \"{example}\"")
+    try:
+        x = si_value(value, kind)
+    except UnitError as exc:
+        raise ValueError(f"{exc} (e.g. \"{example}\")") from None
+    if bounds.check(x) is not None:
+        raise ValueError(f"must be {bounds.text} {unit}")
+    return x
+
+
+def LabQuantity(kind: str, *, gt=None, ge=None, lt=None, le=None):
+    """The field type of a lab quantity of ``kind`` (:data:`driven_atom.units.SI_KINDS`: "2 mJ",
+    "1e-6 Torr", "20 degC"), stored in SI units (J, Pa, K, m, ...); units are required and the
+    bounds are in SI.
+
+    >>> from pydantic import TypeAdapter
+    >>> TypeAdapter(LabQuantity("pressure", gt=0)).validate_python("1 mbar")
+    100.0
+    """
+    return Annotated[float, BeforeValidator(partial(_convert_si, kind, Bounds(gt, ge, lt, le)))]
 
 
 def _number(bounds: Bounds, integer: bool, value):

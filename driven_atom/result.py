@@ -12,6 +12,16 @@ HDF5 layout of a result file (``NAME.h5``)::
     /history/series/<name>       other sampled series (norm, ionization, dipole_z, ...)
     /spectra/<name>/<array>      spectra, each a group of named arrays with a "units" attribute
 
+Units: every dataset carries a ``units`` attribute and a ``long_name`` (the CF metadata
+conventions). The numbers are stored in Hartree atomic units, as computed, and ``units`` spells the
+atomic unit in the UDUNITS-2 grammar CF uses: its SI value times the SI unit (``"2.4188843265864e-17
+s"`` for the atomic unit of time, ``"4.359744722206e-18 J"`` for the hartree, ``"5.29177210544e-11 m"``
+for the bohr); ``long_name`` names the atomic unit in words. Probabilities are ``"1"``; text
+datasets (labels) carry ``"1"`` as well. Plain ``"au"`` is never written (UDUNITS reads it as the
+astronomical unit). The one table of units and names is :mod:`driven_atom.stored_units`; the
+campaign summary follows the same rule. Files written before these attributes existed read the same
+(readers use no attribute of a dataset).
+
 A run's checkpoint lives in a file of its own, ``NAME.ckpt.h5`` (group ``/checkpoint``), so a
 complete result is never rewritten by a run that resumes or repeats it.
 
@@ -61,12 +71,54 @@ class Result:
     quality: dict = field(default_factory=dict)
 
     def __repr__(self) -> str:
+        r"""A short summary (route, atom, pulse, ionisation, norm, file), never the arrays.
+
+        >>> Result(route="levels", populations={"1s": 1.0}, ionization=0.0, norm=1.0,
+        ...        config='[atom]\nZ = 1\n[[pulse]]\nwavelength = "121.6 nm"\nintensity = "1e3 W/cm^2"\n')
+        Result(route='levels', atom='Z=1 1s', pulse='121.6 nm 1e3 W/cm^2', ionization=0, norm=1, 1 populations, 0 samples)
+        """
+        from driven_atom.errors import short
+
         trust = self.quality.get("trustworthy")
         flag = "" if trust is None else (", trustworthy" if trust else ", NOT trustworthy")
         where = self.metadata.get("file")
-        return (f"Result(route={self.route!r}, ionization={self.ionization:.6g}, norm={self.norm:.10g}, "
-                f"{len(self.populations)} populations, {len(self.times)} samples, "
-                f"spectra={sorted(self.spectra)}{flag}" + (f", file={where!r}" if where else "") + ")")
+        atom, pulse = _config_brief(self.config)
+        text = (f"Result(route={self.route!r}" + (f", atom={atom!r}" if atom else "")
+                + (f", pulse={pulse!r}" if pulse else "")
+                + f", ionization={self.ionization:.6g}, norm={self.norm:.10g}, "
+                f"{len(self.populations)} populations, {len(self.times)} samples"
+                + (f", spectra={sorted(self.spectra)}" if self.spectra else "") + flag
+                + (f", file={short(where, 300)!r}" if where else "") + ")")
+        return short(text, 990)
+
+    def to_xarray(self):
+        """The result as an :class:`xarray.Dataset` with ``units`` and ``long_name`` on every
+        variable (:func:`driven_atom.result_xarray.result_dataset`)."""
+        from driven_atom.result_xarray import result_dataset
+
+        return result_dataset(self)
+
+
+def _config_brief(text: str) -> tuple[str, str]:
+    """("Z=1 1s", "800 nm 1e14 W/cm^2") from a config's TOML text; empty strings where it says nothing."""
+    import tomllib
+
+    try:
+        data = tomllib.loads(text) if text else {}
+    except (tomllib.TOMLDecodeError, RecursionError):
+        return "", ""
+    atom = data.get("atom") if isinstance(data.get("atom"), dict) else {}
+    parts = [f"Z={atom['Z']}" if "Z" in atom else "", str(atom.get("nucleus", "")) if "nucleus" in atom else ""]
+    initial = atom.get("initial", "1s")            # the config default
+    parts.append(initial if isinstance(initial, str) else "superposition")
+    pulses = data.get("pulse") if isinstance(data.get("pulse"), list) else []
+    described = []
+    for p in pulses[:3]:
+        if isinstance(p, dict):
+            keys = ("wavelength", "photon_energy", "intensity", "peak_field", "fwhm", "cycles", "length")
+            described.append(" ".join(str(p[k]) for k in keys if k in p and not isinstance(p[k], dict)))
+    pulse = " + ".join(described) + (f" + {len(pulses) - 3} more" if len(pulses) > 3 else "")
+    return " ".join(x for x in parts if x)[:120], pulse[:200]
 
 
 @lru_cache(maxsize=1)
@@ -115,24 +167,33 @@ def _label(name: str) -> str:
     return name.replace("%2F", "/").replace("%25", "%") if "%" in name else name
 
 
+def _dataset(group, name: str, data, *, where: str, label: str | None = None, **kwargs) -> None:
+    """One dataset with its ``units`` and ``long_name`` (:func:`driven_atom.stored_units.describe`)."""
+    from driven_atom.stored_units import describe
+
+    dataset = group.create_dataset(name, data=data, **kwargs)
+    for key, value in describe(where, label if label is not None else name).items():
+        dataset.attrs[key] = value
+
+
 def _write_body(f, result: Result) -> None:
-    f.create_dataset("times", data=np.asarray(result.times, dtype=float))
+    _dataset(f, "times", np.asarray(result.times, dtype=float), where="")
     pops = f.create_group("populations")
     labels = list(result.populations)
-    pops.create_dataset("labels", data=np.array(labels, dtype=object), dtype=_str_dtype())
-    pops.create_dataset("values", data=np.array([result.populations[k] for k in labels], dtype=float))
+    _dataset(pops, "labels", np.array(labels, dtype=object), where="populations", dtype=_str_dtype())
+    _dataset(pops, "values", np.array([result.populations[k] for k in labels], dtype=float), where="populations")
     hist = f.create_group("history")
     hp = hist.create_group("populations", track_order=True)
     for label, values in result.history_populations.items():
-        hp.create_dataset(_h5_name(label), data=np.asarray(values))
+        _dataset(hp, _h5_name(label), np.asarray(values), where="history/populations", label=label)
     hs = hist.create_group("series", track_order=True)
     for name, values in result.series.items():
-        hs.create_dataset(_h5_name(name), data=np.asarray(values))
+        _dataset(hs, _h5_name(name), np.asarray(values), where="history/series", label=name)
     spec = f.create_group("spectra")
     for name, arrays in result.spectra.items():
         g = spec.create_group(name)
         for key, values in arrays.items():
-            g.create_dataset(key, data=np.asarray(values))
+            _dataset(g, key, np.asarray(values), where=f"spectra/{name}")
 
 
 def digest(parts) -> str:

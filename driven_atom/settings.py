@@ -62,7 +62,7 @@ class RouteSettings(BaseModel):
 
 
 class LevelsSettings(RouteSettings):
-    """``[solver]`` of route ``levels``: master equation of chosen hydrogenic sublevels (qutip)."""
+    """``[solver]`` of route ``levels``: master equation of chosen sublevels (qutip)."""
 
     route: Literal["levels"] = Field("levels", description="the few-level master-equation route")
     states: list[str] = Field(..., min_length=1, description=(
@@ -71,6 +71,10 @@ class LevelsSettings(RouteSettings):
         '("2p" then brings all its j, F and m)'))
     rwa: Flag = Field(True, description=(
         "rotating-wave approximation: each pulse drives only the transitions nearest its carrier"))
+    energies: Literal["model", "measured"] = Field("model", description=(
+        "level energies of a model atom (`atom.species`): the model's own, or the measured ones (NIST ASD "
+        "fine-structure centroids, where the data file has them) so that resonances sit at the lab's "
+        "wavelengths; dipoles and cross sections stay the model's"))
     decay: Flag = Field(True, description="spontaneous decay with the Einstein A of each m->m' channel")
     dephasing: Quantity("rate", ge=0) = Field(0.0, description=(
         'pure dephasing rate of coherences between different energies ("1 GHz" = 1e9 s^-1); with '
@@ -198,7 +202,7 @@ class GridSettings(RouteSettings):
 
     route: Literal["grid"] = Field("grid", description="propagation route")
     r_max: Quantity("length", gt=0) | None = Field(None, description=(
-        "radial box size (bohr); default: room for the initial state (40 n²/(Zμ)), 3 quiver radii + "
+        "radial box size (bohr); default: room for the initial state (40 n²/(Zμ)), 5 quiver radii + "
         "20 bohr and, for a static field F, the tunnel exit I_p/F twice + 40 bohr; plus the absorber"))
     dr: Quantity("length", gt=0) | None = Field(None, description=(
         "grid spacing (bohr); default min(0.1/Z, 0.5/k_max), which puts the grid 1s energy within "

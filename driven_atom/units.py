@@ -175,10 +175,124 @@ def split_quantity(text: str) -> tuple[float, str]:
     return magnitude, unit
 
 
-def _parse_to_au(value, kind: str) -> float:
-    import pint
+# --- the quick reader: common unit spellings without pint -------------------------------------------
+# pint takes about half a second to import and build; the light commands (`driven-atom estimate`,
+# the atom tables) read their quantities here instead. A unit expression made of the symbols below
+# (with SI prefixes where marked), products, quotients and integer powers is converted in closed form;
+# anything else goes to pint. tests/test_units.py checks every symbol against pint.
+PLANCK_JS = 6.62607015e-34                            # exact (SI 2019)
+BOLTZMANN_JK = 1.380649e-23                           # exact (SI 2019)
+ELEMENTARY_CHARGE_C = 1.602176634e-19                 # exact (SI 2019)
+_DIMENSIONS = ("m", "kg", "s", "A", "K")              # SI base dimensions, in this order
+_PREFIXES = {"Y": 1e24, "Z": 1e21, "E": 1e18, "P": 1e15, "T": 1e12, "G": 1e9, "M": 1e6, "k": 1e3,
+             "h": 1e2, "da": 1e1, "d": 1e-1, "c": 1e-2, "m": 1e-3, "u": 1e-6, "\u00b5": 1e-6, "\u03bc": 1e-6,
+             "n": 1e-9, "p": 1e-12, "f": 1e-15, "a": 1e-18, "z": 1e-21, "y": 1e-24}
+_ENERGY, _PRESSURE = (2, 1, -2, 0, 0), (-1, 1, -2, 0, 0)
+# symbol -> (value in SI, dimension exponents, takes a prefix)
+_SYMBOLS = {
+    "m": (1.0, (1, 0, 0, 0, 0), True), "meter": (1.0, (1, 0, 0, 0, 0), False),
+    "s": (1.0, (0, 0, 1, 0, 0), True), "second": (1.0, (0, 0, 1, 0, 0), False),
+    "min": (60.0, (0, 0, 1, 0, 0), False),
+    "g": (1e-3, (0, 1, 0, 0, 0), True),
+    "J": (1.0, _ENERGY, True), "eV": (ELEMENTARY_CHARGE_C, _ENERGY, True), "erg": (1e-7, _ENERGY, False),
+    "hartree": (HARTREE_J, _ENERGY, False), "E_h": (HARTREE_J, _ENERGY, False),
+    "W": (1.0, (2, 1, -3, 0, 0), True),
+    "Hz": (1.0, (0, 0, -1, 0, 0), True),
+    "V": (1.0, (2, 1, -3, -1, 0), True),
+    "Pa": (1.0, _PRESSURE, True), "bar": (1e5, _PRESSURE, True), "atm": (101325.0, _PRESSURE, False),
+    "Torr": (101325.0 / 760.0, _PRESSURE, True), "torr": (101325.0 / 760.0, _PRESSURE, True),
+    "mmHg": (133.322387415, _PRESSURE, False), "psi": (6894.757293168361, _PRESSURE, False),
+    "bohr": (BOHR_M, (1, 0, 0, 0, 0), False), "a0": (BOHR_M, (1, 0, 0, 0, 0), False),
+    "a_0": (BOHR_M, (1, 0, 0, 0, 0), False), "angstrom": (1e-10, (1, 0, 0, 0, 0), False),
+    "\u00c5": (1e-10, (1, 0, 0, 0, 0), False),
+    "rad": (1.0, (0, 0, 0, 0, 0), True), "deg": (math.pi / 180.0, (0, 0, 0, 0, 0), False),
+    "degree": (math.pi / 180.0, (0, 0, 0, 0, 0), False),
+    "K": (1.0, (0, 0, 0, 0, 1), True), "kelvin": (1.0, (0, 0, 0, 0, 1), False),
+}
+_FAST_FACTOR = re.compile(r"^([^\s*/^()]+?)\s*(?:(?:\*\*|\^)\s*\(?\s*([+-]?\d{1,2})\s*\)?)?$")
+# the SI value and the dimensions of one atomic unit of each kind
+_AU_SI = {
+    "energy": (HARTREE_J, _ENERGY), "length": (BOHR_M, (1, 0, 0, 0, 0)),
+    "time": (AU_TIME_S, (0, 0, 1, 0, 0)), "intensity": (AU_INTENSITY_WM2, (0, 1, -3, 0, 0)),
+    "field": (AU_FIELD_VM, (1, 1, -3, -1, 0)), "rate": (1.0 / AU_TIME_S, (0, 0, -1, 0, 0)),
+    "mass": (ELECTRON_MASS_KG, (0, 1, 0, 0, 0)), "area": (BOHR_M**2, (2, 0, 0, 0, 0)),
+    "fluence": (AU_INTENSITY_WM2 * AU_TIME_S, (0, 1, -2, 0, 0)), "density": (BOHR_M**-3, (-3, 0, 0, 0, 0)),
+    "chirp": (AU_TIME_S**-2, (0, 0, -2, 0, 0)),
+}
 
-    ureg = registry()
+
+def _symbol(name: str):
+    """(SI value, dimensions) of one unit symbol, with an SI prefix where it takes one; None if unknown."""
+    if name in _SYMBOLS:
+        value, dims, _ = _SYMBOLS[name]
+        return value, dims
+    for size in (2, 1):
+        prefix, rest = name[:size], name[size:]
+        if prefix in _PREFIXES and rest in _SYMBOLS and _SYMBOLS[rest][2]:
+            value, dims, _ = _SYMBOLS[rest]
+            return _PREFIXES[prefix] * value, dims
+    return None
+
+
+def quick_unit(unit: str):
+    """(SI value, dimension exponents (m, kg, s, A, K)) of a unit expression made of the package's
+    common symbols (module comment), or None when pint must read it.
+
+    >>> quick_unit("W/cm^2")
+    (10000.0, (0, 1, -3, 0, 0))
+    >>> quick_unit("1/(cm^2 s)") is None        # parentheses: pint reads them
+    True
+    """
+    text = unit.strip()
+    if not text or "(" in text and not re.search(r"\^\s*\(", text):
+        return None
+    text = re.sub(r"\s*(\*\*|\^)\s*", r"\1", text)       # "cm ^ 2" -> "cm^2"
+    if text.startswith("1/") or text.startswith("1 /"):
+        text = text[1:].lstrip()
+    tokens = re.findall(r"/|\*(?!\*)|[^\s*/]+(?:\*\*[^\s*/]+)?", text)
+    value, dims, sign = 1.0, [0, 0, 0, 0, 0], 1
+    expect_factor = True
+    for token in tokens:
+        if token in ("/", "*"):
+            if expect_factor and token == "*":
+                return None
+            sign = -1 if token == "/" else 1
+            expect_factor = True
+            continue
+        match = _FAST_FACTOR.match(token)
+        found = _symbol(match.group(1)) if match else None
+        if found is None:
+            return None
+        power = sign * int(match.group(2) or 1)
+        value = value * found[0] ** power if power > 0 else value / found[0] ** -power
+        dims = [d + power * e for d, e in zip(dims, found[1])]
+        sign, expect_factor = 1, False
+    return (None if expect_factor else (value, tuple(dims)))
+
+
+def _quick_to_au(magnitude: float, unit: str, kind: str) -> float | None:
+    """``magnitude unit`` in atomic units of ``kind`` by :func:`quick_unit` (with the photon-energy,
+    rate and chirp equivalences of :func:`to_au`); None when pint must decide."""
+    found = quick_unit(unit) if kind in _AU_SI else None
+    if found is None:
+        return None
+    value, dims = found
+    si, target = _AU_SI[kind]
+    if dims == target:
+        return magnitude * value / si
+    hbar = PLANCK_JS / (2 * math.pi)
+    if kind == "energy" and dims == (0, 0, -1, 0, 0):                 # E = h nu
+        return magnitude * value * PLANCK_JS / si
+    if kind == "energy" and dims == (-1, 0, 0, 0, 0):                 # E = h c / lambda
+        return magnitude * value * PLANCK_JS * SPEED_OF_LIGHT_MS / si
+    if kind == "rate" and dims == _ENERGY:                            # E / hbar
+        return magnitude * value / hbar / si
+    if kind == "chirp" and dims == (2, 1, -3, 0, 0):                  # (E / t) / hbar
+        return magnitude * value / hbar / si
+    raise UnitError(f"must be {kind_phrase(kind)}")
+
+
+def _parse_to_au(value, kind: str) -> float:
     if isinstance(value, str):
         try:
             magnitude, unit = split_quantity(value)
@@ -186,11 +300,20 @@ def _parse_to_au(value, kind: str) -> float:
             raise UnitError(f"could not be read as a quantity (write e.g. \"{_EXAMPLE[kind]}\")") from None
         if unit in ("", "au", "a.u."):
             return magnitude
+        quick = _quick_to_au(magnitude, unit, kind)
+        if quick is not None:
+            return quick
+        import pint
+
+        ureg = registry()
         try:
             quantity = ureg.Quantity(magnitude, ureg.parse_units("1" + unit if unit.startswith("/") else unit))
         except Exception:
             raise UnitError(f"could not be read as a quantity (write e.g. \"{_EXAMPLE[kind]}\")") from None
-    elif isinstance(value, pint.Quantity):
+    elif type(value).__module__.split(".")[0] == "pint":
+        import pint
+
+        ureg = registry()
         quantity = value
     else:
         raise UnitError("must be a number or a string with units")
@@ -211,6 +334,97 @@ def _parse_to_au(value, kind: str) -> float:
     if kind == "magnetic field" and quantity.dimensionality == ureg.gauss.dimensionality:
         return float(quantity.to("gauss").magnitude) * 1e-4 / AU_MAGNETIC_T   # pint's gauss is Gaussian-CGS
     raise UnitError(f"must be {kind_phrase(kind)}")
+
+
+# --- lab quantities in SI (the estimate's macroscopic inputs) ---------------------------------------
+# kind -> (SI unit name, dimension exponents (m, kg, s, A, K), example)
+SI_KINDS = {
+    "length": ("m", (1, 0, 0, 0, 0), "50 um"), "area": ("m^2", (2, 0, 0, 0, 0), "1 mm^2"),
+    "volume": ("m^3", (3, 0, 0, 0, 0), "1 mm^3"), "time": ("s", (0, 0, 1, 0, 0), "5 ns"),
+    "energy": ("J", _ENERGY, "2 mJ"), "power": ("W", (2, 1, -3, 0, 0), "1.5 W"),
+    "intensity": ("W/m^2", (0, 1, -3, 0, 0), "1e12 W/cm^2"), "frequency": ("Hz", (0, 0, -1, 0, 0), "10 Hz"),
+    "pressure": ("Pa", _PRESSURE, "1e-6 mbar"), "temperature": ("K", (0, 0, 0, 0, 1), "293 K"),
+    "density": ("m^-3", (-3, 0, 0, 0, 0), "1e12 cm^-3"), "velocity": ("m/s", (1, 0, -1, 0, 0), "2 km/s"),
+    "flux": ("m^-2 s^-1", (-2, 0, -1, 0, 0), "1e14 cm^-2 s^-1"), "angle": ("rad", (0, 0, 0, 0, 0), "5 mrad"),
+}
+# temperature scales with an offset: symbol -> (scale, offset) with T[K] = scale * value + offset
+_TEMPERATURE_SCALES = {"K": (1.0, 0.0), "kelvin": (1.0, 0.0), "mK": (1e-3, 0.0), "degC": (1.0, 273.15),
+                       "\u00b0C": (1.0, 273.15), "celsius": (1.0, 273.15), "degF": (5.0 / 9.0, 459.67 * 5.0 / 9.0),
+                       "\u00b0F": (5.0 / 9.0, 459.67 * 5.0 / 9.0), "fahrenheit": (5.0 / 9.0, 459.67 * 5.0 / 9.0),
+                       "degR": (5.0 / 9.0, 0.0), "rankine": (5.0 / 9.0, 0.0)}
+
+
+def to_si(value, kind: str, *, name: str = "value") -> float:
+    """A lab quantity with units ("2 mJ", "1e-6 Torr", "20 degC", "50 um") as a float in the SI unit
+    of ``kind`` (:data:`SI_KINDS`: m, J, W, Pa, K, Hz, ...). Plain numbers are refused (a lab number
+    needs its unit); temperatures take K, degC/°C, degF/°F; pressures any pressure unit; other
+    spellings go to pint. Errors are one line naming ``name``.
+
+    >>> to_si("1 Torr", "pressure")
+    133.32236842105263
+    >>> round(to_si("20 °C", "temperature"), 2)
+    293.15
+    >>> to_si(5, "energy", name="pulse_energy")
+    Traceback (most recent call last):
+    ...
+    driven_atom.errors.InputError: `pulse_energy` needs units, e.g. "2 mJ", got 5
+    """
+    example = SI_KINDS[kind][2]
+    if isinstance(value, bool) or isinstance(value, (int, float)):
+        raise InputError(f"`{name}` needs units, e.g. \"{example}\", got {short(repr(value))}")
+    try:
+        return si_value(value, kind)
+    except UnitError as exc:
+        raise InputError(f"`{name}` {exc} (e.g. \"{example}\"), got {short(repr(value))}") from None
+
+
+def si_value(value, kind: str) -> float:
+    """:func:`to_si` without a key name: raises :class:`UnitError` ("must be a pressure")."""
+    unit_name, target, _ = SI_KINDS[kind]
+    phrase = f"must be a {kind}" if kind != "angle" else "must be an angle"
+    if isinstance(value, bool) or isinstance(value, (int, float)):
+        raise UnitError("needs units")
+    result = _si_value(value, kind, unit_name, target, phrase)
+    if not math.isfinite(result):
+        raise UnitError("must be finite")
+    return result
+
+
+def _si_value(value, kind: str, unit_name: str, target: tuple, phrase: str) -> float:
+    if isinstance(value, str):
+        try:
+            magnitude, unit = split_quantity(value)
+        except UnitError:
+            raise UnitError("could not be read as a quantity") from None
+        if not unit:
+            raise UnitError("needs units")
+        if kind == "temperature" and unit in _TEMPERATURE_SCALES:
+            scale, offset = _TEMPERATURE_SCALES[unit]
+            return scale * magnitude + offset
+        found = quick_unit(unit) if kind != "temperature" else None
+        if found is not None:
+            if found[1] != target:
+                raise UnitError(phrase)
+            return magnitude * found[0]
+        import pint
+
+        ureg = registry()
+        try:
+            quantity = ureg.Quantity(magnitude, ureg.parse_units("1" + unit if unit.startswith("/") else unit))
+        except Exception:
+            raise UnitError("could not be read as a quantity") from None
+    elif type(value).__module__.split(".")[0] == "pint":
+        import pint
+
+        ureg, quantity = registry(), value
+    else:
+        raise UnitError("must be a string with units")
+    try:
+        return float(quantity.to(ureg.parse_units(unit_name.replace("^", "**"))).magnitude)
+    except pint.DimensionalityError:
+        raise UnitError(phrase) from None
+    except Exception:                   # offset units in a product, and the like
+        raise UnitError("could not be read as a quantity") from None
 
 
 def from_au(value: float, kind: str, unit: str) -> float:

@@ -4,7 +4,7 @@ from pathlib import Path
 
 import pytest
 
-from driven_atom.cli import SAFETY_CAUTION, main
+from driven_atom.cli import main
 
 CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 JSON_KEYS = {"peak_field_au", "intensity_Wcm2", "photon_energy_eV", "wavelength_nm", "fwhm_fs", "length_fs",
@@ -25,18 +25,27 @@ route = "grid"
 """
 
 
-def test_demo_prints_table_and_caution(capsys):
+def test_demo_prints_table_and_no_caution_for_a_weak_pulse(capsys):
+    # 100 W/cm^2 for 1 ns: 1e-7 J/cm^2, far below the skin limit of 0.02 J/cm^2 (IEC 60825-1, from memory)
     assert main(["pulse", str(CONFIGS / "demo.toml")]) == 0
     out = capsys.readouterr().out
     assert "Keldysh gamma" in out and "fluence [J/cm^2]" in out and "121.57" in out
-    assert SAFETY_CAUTION in out
+    assert "CAUTION" not in out
+    assert main(["pulse", str(CONFIGS / "demo.toml"), "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["caution"] is None
+
+
+def test_a_strong_pulse_gets_the_caution_with_its_numbers(capsys):
+    assert main(["pulse", str(CONFIGS / "kestrel_ir_grid.toml")]) == 0
+    (line,) = [text for text in capsys.readouterr().out.splitlines() if "CAUTION" in text]
+    assert "1e+14 W/cm^2" in line and "J/cm^2" in line and "skin exposure limit" in line
 
 
 def test_json_is_one_object_with_the_issue_keys(capsys):
     assert main(["pulse", str(CONFIGS / "kestrel_ir_grid.toml"), "--json"]) == 0
     captured = capsys.readouterr()
     data = json.loads(captured.out)                       # stdout: exactly one JSON object
-    assert SAFETY_CAUTION in captured.err and SAFETY_CAUTION not in captured.out
+    assert captured.err == "" and "class-4" in data["caution"] and "1e+14 W/cm^2" in data["caution"]
     row = data["pulses"][0]
     assert JSON_KEYS <= set(row)
     # 800 nm, 1e14 W/cm^2: Up = 5.976 eV (common practice), gamma = sqrt(13.598/(2*5.976)) (Keldysh 1965)

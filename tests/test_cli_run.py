@@ -5,12 +5,12 @@ from pathlib import Path
 
 import pytest
 
-from driven_atom.cli import SAFETY_CAUTION, main
+from driven_atom.cli import main
 from driven_atom.result import read_result
 
 ROOT = Path(__file__).resolve().parents[1]
 JSON_KEYS = {"route", "populations", "ionization", "norm", "result_file", "wall_s", "history", "trustworthy",
-             "warnings", "quality", "ionization_err", "populations_err"}
+             "warnings", "quality", "ionization_err", "populations_err", "caution"}
 
 RABI_TOML = """
 [atom]
@@ -55,21 +55,26 @@ def test_json_run_writes_the_file(tmp_path, capsys):
     assert path.parent == tmp_path / "out" and path.name.startswith("rabi-")
     back = read_result(path)
     assert back.populations == payload["populations"]
-    assert "CAUTION" not in out + err          # atomic-unit field: no lab intensity given
+    # 1e-3 au = 3.5e10 W/cm^2 for 0.2 ps: above the sub-ns skin limit however the field is written
+    assert "CAUTION" not in err and "3.51e+10 W/cm^2" in payload["caution"]
 
 
-def test_text_summary_and_caution_for_lab_units(tmp_path, capsys):
+def test_text_summary_and_caution_where_the_fluence_is_hazardous(tmp_path, capsys):
+    # 3.5e10 W/cm^2 for 0.1 ps: ~2 mJ/cm^2, above the sub-ns skin limit 2e7 W/cm^2 x 0.1 ps
+    # (IEC 60825-1, from memory)
     text = RABI_TOML.replace("peak_field = 1e-3", 'intensity = "3.50945e10 W/cm^2"')
     cfg = _config(tmp_path, text)
     target = tmp_path / "one.h5"
     assert main(["run", str(cfg), "--out", str(target), "--no-progress"]) == 0
     out, _ = capsys.readouterr()
-    assert "final populations" in out and "2p0" in out and SAFETY_CAUTION in out
+    assert "final populations" in out and "2p0" in out and "CAUTION" in out and "3.51e+10 W/cm^2" in out
     assert target.exists()
     assert main(["run", str(cfg), "--out", str(target), "--json", "--no-progress"]) == 0
     out, err = capsys.readouterr()
-    json.loads(out)
-    assert SAFETY_CAUTION in err
+    assert "class-4" in json.loads(out)["caution"] and "CAUTION" not in err
+    weak = _config(tmp_path, RABI_TOML.replace("peak_field = 1e-3", 'intensity = "1e3 W/cm^2"'), "weak.toml")
+    assert main(["run", str(weak), "--out", str(tmp_path / "weak.h5"), "--no-progress"]) == 0
+    assert "CAUTION" not in capsys.readouterr().out     # a weak pulse in lab units: no caution
 
 
 @pytest.mark.parametrize("edit, word", [

@@ -426,10 +426,10 @@ def test_status_shows_the_workers_of_a_running_cluster_scan(tmp_path, capsys):
     store.write_plan(tmp_path, plan)
     info = {"system": "slurm", "workers": 2, "alive": 1, "lost": 2, "requested": 2, "resubmits": 2,
             "max_resubmits": 20, "batch_jobs": ["4816", "4817"]}
-    store.write_workers(tmp_path, info)
-    assert store.campaign_status(tmp_path)["workers"] is None           # no scan holds the folder: stale
-    with store.CampaignLock(tmp_path):
-        assert store.campaign_status(tmp_path)["workers"] == info
+    with store.CampaignLock(tmp_path) as lock:
+        lock.note(workers=2, cluster=info)                  # what the scan notes while it runs
+        assert store.campaign_status(tmp_path)["cluster"] == info
         assert main(["status", str(tmp_path)]) == 0
     assert ("  workers (slurm): 1 of 2 alive, 2 lost, 2 requested (2 of 20 resubmissions); batch jobs 4816, 4817"
             in capsys.readouterr().out.splitlines())
+    assert store.campaign_status(tmp_path)["cluster"] is None           # no scan holds the folder

@@ -2,6 +2,9 @@
 from __future__ import annotations
 
 import math
+import os
+import subprocess
+import sys
 
 import numpy as np
 import pytest
@@ -45,7 +48,7 @@ def test_default_grid_follows_the_pulse():
     f0, w = p.components[0].peak_field, p.components[0].omega
     assert math.isclose(par.quiver_radius, f0 / w**2, rel_tol=1e-12)      # alpha0 = F0/w^2 (analytic)
     assert math.isclose(f0 / w**2, 16.46, rel_tol=2e-3)  # 800 nm, 1e14 W/cm^2 (common practice)
-    assert par.r_max >= 3 * par.quiver_radius + 20
+    assert par.r_max >= 5 * par.quiver_radius + 20
     assert par.dr == 0.1 and par.l_max >= 20
     assert math.isclose(par.dt * par.n_steps, p.t_end - p.t_start, rel_tol=1e-12)
     stronger = Pulse({"wavelength": "800 nm", "intensity": "4e14 W/cm^2", "cycles": 4})
@@ -149,6 +152,51 @@ def test_threads_path_agrees_with_fused_kernel():
     assert one.ionization > 1e-4
     assert abs(one.ionization - two.ionization) < 1e-12
     np.testing.assert_allclose(one.series["dipole_z"], two.series["dipole_z"], atol=1e-12)
+
+
+NUMBA_THREADS_SCRIPT = """
+import numba
+from driven_atom.atom import Atom, State
+from driven_atom.config import OutputConfig
+from driven_atom.pulse import Pulse
+from driven_atom.routes import propagate
+from driven_atom.settings import GridSettings
+
+def run(threads):
+    pulse = Pulse({"wavelength": "400 nm", "peak_field": 0.05, "cycles": 1})
+    settings = GridSettings(r_max=20, dr=0.2, l_max=3, threads=threads)
+    return propagate(Atom(1), pulse, settings, initial=[(State(1, 0), 1.0 + 0j)], output=OutputConfig())
+
+layer = numba.config.THREADING_LAYER
+import driven_atom.routes._grid_kernels
+assert numba.config.THREADING_LAYER == layer, "the import chose a threading layer"
+run(1)
+assert numba.config.THREADING_LAYER == layer, "a threads = 1 run chose a threading layer"
+try:
+    numba.threading_layer()
+    raise AssertionError("a threads = 1 run started numba's threads")
+except ValueError:
+    pass
+run(2)                                          # nothing chosen or running: picks workqueue
+assert numba.threading_layer() == "workqueue"
+assert numba.get_num_threads() == 2, "threads = 2 left another count"
+for count in (1, 2):                            # the layer is running now and stays
+    numba.set_num_threads(count)
+    run(2)
+    assert numba.get_num_threads() == count, "threads = 2 did not restore the count"
+    run(1)
+    assert numba.get_num_threads() == count, "threads = 1 changed the count"
+print("ok")
+"""
+
+
+def test_runs_leave_numba_threading_as_they_found_it():
+    """Only a threads > 1 run touches numba's threading (a fresh process, NUMBA_NUM_THREADS = 2)."""
+    env = dict(os.environ, NUMBA_NUM_THREADS="2", OMP_NUM_THREADS="1")
+    env.pop("NUMBA_THREADING_LAYER", None)
+    done = subprocess.run([sys.executable, "-c", NUMBA_THREADS_SCRIPT], capture_output=True, text=True,
+                          env=env)
+    assert done.returncode == 0 and done.stdout.strip() == "ok", done.stderr[-2000:]
 
 
 @pytest.mark.parametrize("pulse, solver, initial, message", [

@@ -20,7 +20,7 @@ from driven_atom.routes import load_config
 PACKAGE = Path(driven_atom.__file__).resolve().parent
 REPO = PACKAGE.parent
 EXPECTED = ["Atom", "Pulse", "Result", "State", "estimate", "lines", "load_config", "open_campaign",
-            "open_result", "parse_state", "run", "scan", "state", "transition", "xsec"]
+            "open_result", "parse_state", "plot_campaign", "run", "scan", "state", "transition", "xsec"]
 BASE = {"atom": {"Z": 1, "nucleus": "H", "initial": "1s"},
         "pulse": [{"envelope": "sin2", "wavelength": "800 nm", "intensity": "1e13 W/cm^2", "cycles": 4}],
         "solver": {"route": "basis"}}

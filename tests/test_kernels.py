@@ -93,8 +93,8 @@ def test_cn_factorize_matches_lu_of_dense_matrix(setup):
     st = stepper_for(grid, np.ones(N))
     for l in (0, 1, L - 1):
         j = st.column_of[l]
-        w = st.wr[:, j] + 1j * st.wi[:, j]
-        cp = st.cr[:, j] + 1j * st.ci[:, j]
+        w = st.thomas[0, :, j] + 1j * st.thomas[1, :, j]
+        cp = st.thomas[2, :, j] + 1j * st.thomas[3, :, j]
         o = ops[l]
         M = np.diag(o.m_diag) + np.diag(o.m_off, 1) + np.diag(o.m_off, -1)
         D = np.diag(o.d_diag) + np.diag(o.d_off, 1) + np.diag(o.d_off, -1)
@@ -145,7 +145,8 @@ def test_rotate_all_matches_twin(setup):
     grid, ops, psi0 = setup
     st = stepper_for(grid, np.ones(N))
     st.set_state(psi0)
-    kernels.rotate_all(st.pr, st.pi, 0.3, TAU, DR, st.ca, st.cb, st.rot, st.stp)
+    assert st.consts[0] == TAU and st.consts[2] == DR           # rotation time tau, grid step
+    kernels.rotate_all(st.psi, 0.3, st.consts, st.coupling, st.scratch)
     ref = twin_rotate(twin_rotate(psi0, 0.3, TAU, grid.r, coupling(L), 0), 0.3, TAU, grid.r,
                       coupling(L), 1)
     np.testing.assert_allclose(st.state(), ref, atol=1e-13)

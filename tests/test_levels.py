@@ -141,15 +141,20 @@ def test_rwa_and_full_coupling_agree_for_every_polarisation(polarization):
 
 def test_ionization_rate_in_lab_units():
     # rate = σ I/(ħω) with I = F0² · 3.50945e16 W/cm² (linear, cycle-averaged; docs/physics.md)
-    from driven_atom.atom.photoionization import cross_section
+    # σ of the sublevel 2p0 for light along z: the m-resolved cross section (Bethe & Salpeter 1957)
+    from driven_atom.atom.photoionization import cross_section, cross_section_sublevel
 
     F0, w, length, ramp = 0.0035, 0.375, 40000.0, 8000.0      # below barrier suppression of 2p (0.0039)
     items = [{"envelope": "flat", "photon_energy": w, "peak_field": F0, "length": length, "ramp": ramp}]
-    res = run(items, ["2p0"], initial=[(State(2, 1, 0), 1.0)], ionization_loss=True, decay=False)
-    sigma_cm2 = float(cross_section(Atom(1), 2, 1, w)) * BOHR2_CM2
-    rate_per_s = sigma_cm2 * F0**2 * AU_INTENSITY_WCM2 / (w * HARTREE_J)
     exposure_s = (length - 2 * ramp + 2 * 3 * ramp / 8) * AU_TIME_S      # ∫f² dt, sin⁴ ramps (analytic)
-    assert res.ionization == pytest.approx(1 - math.exp(-rate_per_s * exposure_s), rel=1e-5)
+    for m in (0, 1):
+        res = run(items, ["2p"], initial=[(State(2, 1, m), 1.0)], ionization_loss=True, decay=False)
+        sigma_cm2 = float(cross_section_sublevel(Atom(1), State(2, 1, m), w, 0)) * BOHR2_CM2
+        rate_per_s = sigma_cm2 * F0**2 * AU_INTENSITY_WCM2 / (w * HARTREE_J)
+        assert res.ionization == pytest.approx(1 - math.exp(-rate_per_s * exposure_s), rel=1e-5)
+    # the sublevels' cross sections average to the level's (m-averaged) one
+    sigmas = [float(cross_section_sublevel(Atom(1), State(2, 1, m), w, 0)) for m in (-1, 0, 1)]
+    assert sum(sigmas) / 3 == pytest.approx(float(cross_section(Atom(1), 2, 1, w)), rel=1e-12)
     assert res.ionization > 0.01 and res.norm == pytest.approx(1, abs=1e-9)
 
 

@@ -185,7 +185,7 @@ def test_preempted_workers_are_replaced_and_their_jobs_resume_from_the_signal(tm
     scan = _start_scan(tmp_path, cfg_path, folder)                 # with the progress line, on stderr
     try:
         (first, second), before = _wait_until_propagating(scan, folder)
-        workers = store.campaign_status(folder)["workers"]                # what `status` shows meanwhile
+        workers = store.campaign_status(folder)["cluster"]                # what `status` shows meanwhile
         assert (workers["alive"], workers["lost"], sorted(workers["batch_jobs"])) == (2, 0, [first, second])
         # what a pre-emption or the walltime does (every process of the job), and what the early
         # warning --signal=B:TERM does (the job script's shell only)

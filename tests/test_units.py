@@ -86,3 +86,50 @@ def test_nuclear_mass_ratios_match_scipy_codata():
     for name, key in [("H", "proton"), ("D", "deuteron"), ("T", "triton"), ("He3", "helion"),
                       ("He", "alpha particle")]:
         assert NUCLEI[name][1] == pytest.approx(pc[f"{key}-electron mass ratio"][0], rel=1e-9)
+
+
+# -- the quick reader (no pint) and the lab's SI quantities -----------------------------------------------
+QUICK = ["nm", "um", "µm", "mm", "cm", "m", "fs", "ps", "ns", "us", "ms", "s", "eV", "meV", "keV", "J", "mJ",
+         "uJ", "nJ", "W", "mW", "kW", "MW", "Hz", "kHz", "MHz", "GHz", "THz", "Pa", "hPa", "kPa", "mbar", "bar",
+         "Torr", "torr", "mTorr", "atm", "psi", "mmHg", "W/cm^2", "W/cm**2", "W / cm ^ 2", "TW/cm^2", "W/m^2",
+         "J/cm^2", "V/m", "V/cm", "cm^-3", "1/cm^3", "m^-3", "cm^-2 s^-1", "1/cm", "m/s", "km/s", "mrad", "rad",
+         "deg", "mm^3", "bohr", "a0", "angstrom", "hartree", "min", "K", "mK"]
+
+
+@pytest.mark.parametrize("unit", QUICK)
+def test_quick_reader_agrees_with_pint(unit):
+    # pint (the library behind the slow path) is the reference for every symbol the quick path reads
+    found = units.quick_unit(unit)
+    assert found is not None, unit
+    ureg = units.registry()
+    spelling = {"Torr": "torr", "mTorr": "millitorr"}.get(unit, unit)      # pint spells it lower-case only
+    quantity = ureg.Quantity(1.0, ureg.parse_units(spelling))
+    base = quantity.to_base_units()
+    assert float(base.magnitude) == pytest.approx(found[0], rel=1e-12)
+    dims = dict(base.dimensionality)
+    assert tuple(int(dims.get(f"[{d}]", 0)) for d in ("length", "mass", "time", "current", "temperature")) == found[1]
+
+
+def test_quick_reader_leaves_the_rest_to_pint():
+    assert units.quick_unit("inch") is None and units.quick_unit("J/(cm^2 s)") is None
+    assert units.to_au("1 inch", "length") == pytest.approx(0.0254 / units.BOHR_M, rel=1e-12)   # 1 in = 25.4 mm (definition)
+
+
+@pytest.mark.parametrize("text, kind, expected", [
+    ("1e-6 Torr", "pressure", 101325 / 760 * 1e-6),           # 1 Torr = 1/760 atm (definition)
+    ("1 psi", "pressure", 6894.757293168361),                 # avoirdupois pound-force per square inch (NIST SP 811)
+    ("20 degC", "temperature", 293.15), ("20 °C", "temperature", 293.15),     # T[K] = t[°C] + 273.15 (SI)
+    ("68 degF", "temperature", 293.15), ("68 °F", "temperature", 293.15),     # (t[°F] + 459.67) 5/9 (NIST SP 811)
+    ("2 mJ", "energy", 2e-3), ("1.5 W", "power", 1.5), ("10 Hz", "frequency", 10.0),
+    ("1e14 cm^-2 s^-1", "flux", 1e18), ("2.5 km/s", "velocity", 2500.0), ("5 mrad", "angle", 5e-3),
+])
+def test_lab_quantities_in_si(text, kind, expected):
+    assert units.to_si(text, kind) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize("value, kind, phrase", [(5, "energy", "needs units"), ("3 s", "length", "must be a length"),
+                                                 ("3 kg", "pressure", "must be a pressure"), ("x", "power", "could not")])
+def test_lab_quantities_refused_in_one_line(value, kind, phrase):
+    with pytest.raises(InputError) as info:
+        units.to_si(value, kind, name="the_key")
+    assert "`the_key`" in str(info.value) and phrase in str(info.value) and "\n" not in str(info.value)

@@ -9,11 +9,17 @@ energy (< 4 keV up to Ne) changes the reduced mass by < 1e-12 relative and is ne
 2
 >>> round(Atom(1, 1836.15267343).reduced_mass, 9)
 0.999455679
+
+A single-active-electron model atom (:mod:`driven_atom.atom.model_atoms`) is the same dataclass with
+a ``model``: Z is then its nuclear charge and V_l(r) the model's screened potential.
+
+>>> Atom.from_species("Ar").Z, Atom.from_species("Ar").species
+(18, 'Ar')
 """
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from driven_atom.errors import InputError
 from driven_atom.units import ATOMIC_MASS_UNIT_ME, to_au
@@ -59,12 +65,53 @@ class Atom:
 
     Z: int
     nuclear_mass: float = math.inf
+    model: object = field(default=None, repr=False)   # a model_atoms.ModelPotential, or None (V = -Z/r)
+
+    def __repr__(self) -> str:
+        base = f"Atom(Z={self.Z}, nuclear_mass={self.nuclear_mass!r}"
+        return base + (")" if self.model is None else f", species={self.model.species!r})")
 
     def __post_init__(self):
         if isinstance(self.Z, bool) or not isinstance(self.Z, int) or not 1 <= self.Z <= Z_MAX:
             raise InputError(f"`Z` must be an integer from 1 to {Z_MAX}, got {self.Z!r}")
         if not (self.nuclear_mass > 0):
             raise InputError(f"`nucleus` mass must be > 0 electron masses, got {self.nuclear_mass!r}")
+
+    @property
+    def species(self) -> str | None:
+        """The model atom's species ("Ar"), None for a hydrogen-like atom."""
+        return None if self.model is None else self.model.species
+
+    @property
+    def hydrogenic(self) -> bool:
+        """True for V = −Z/r (no model potential)."""
+        return self.model is None
+
+    @property
+    def l_dependent(self) -> bool:
+        """Whether the potential depends on l (an l-dependent model such as the alkalis')."""
+        return self.model is not None and self.model.l_dependent
+
+    def potential(self, r, l: int = 0):
+        """V_l(r) in hartree at radii ``r`` (bohr): −Z/r, or the model's screened potential."""
+        if self.model is None:
+            return -self.Z / r
+        return self.model.potential(r, l)
+
+    def potential_derivative(self, r, l: int = 0):
+        """dV_l/dr (hartree/bohr): Z/r², or the model's."""
+        if self.model is None:
+            return self.Z / r**2
+        return self.model.derivative(r, l)
+
+    @classmethod
+    def from_species(cls, species: str) -> "Atom":
+        """The model atom of ``species`` ("He", "Ne", "Ar", "Kr", "Xe", "Li", "Na", "K", "Rb", "Cs"),
+        with the mass of its most abundant isotope (the electron moves relative to the ion)."""
+        from driven_atom.atom.model_atoms import model_potential
+
+        model = model_potential(species)
+        return cls(model.Z, model.mass_u * ATOMIC_MASS_UNIT_ME - model.Z, model)
 
     @property
     def reduced_mass(self) -> float:
@@ -74,7 +121,10 @@ class Atom:
 
     @property
     def ionization_potential(self) -> float:
-        """I_p of the ground state, Z^2 mu / 2 (hartree)."""
+        """I_p of the ground state (hartree): Z²μ/2, or the measured I_p of a model atom (NIST ASD,
+        from the data file; the model's own value: :mod:`driven_atom.basis.model_levels`)."""
+        if self.model is not None:
+            return self.model.ip_measured
         return 0.5 * self.Z**2 * self.reduced_mass
 
     @classmethod

@@ -112,7 +112,8 @@ def basis_inputs(atom, *, r_max=200.0, dr=0.08, l_max=3, n_max=None, e_max=3.0, 
     if not e_max > 0:
         raise InputError(f"`e_max` must be > 0 hartree, got {e_max!r}")
     stretched = dr_min is not None
-    return {"Z": atom.Z, "nuclear_mass": repr(float(atom.nuclear_mass)), "r_max": grid.r_max,
+    model = {} if atom.model is None else {"species": atom.model.key}     # hydrogen-like keys unchanged
+    return {**model, "Z": atom.Z, "nuclear_mass": repr(float(atom.nuclear_mass)), "r_max": grid.r_max,
             "dr": grid.dr_max if stretched else grid.dr, "dr_min": grid.dr_min if stretched else None,
             "r_stretch": float(r_stretch) if stretched else None, "l_max": int(l_max), "n_max": None if n_max is None else int(n_max),
             "e_max": float(e_max), "m": int(m), "version": _FORMAT_VERSION}

@@ -108,6 +108,17 @@ class Runner:
             return self.executor.submit(fn, *args, key=key, pure=False)
         return self.executor.submit(fn, *args)
 
+    @property
+    def workers(self) -> int | None:
+        """How many jobs run at once, where the executor tells (pool size, Dask worker threads)."""
+        if self.is_dask:
+            try:
+                return int(sum(self.executor.nthreads().values())) or None
+            except Exception:  # noqa: BLE001 - a client that cannot tell
+                return None
+        count = getattr(self.executor, "_max_workers", None)
+        return int(count) if isinstance(count, int) else None
+
     def wait(self, futures, timeout: float) -> tuple[set, set]:
         """(finished, still pending) after at most ``timeout`` seconds, as soon as one finishes."""
         futures = set(futures)

@@ -129,7 +129,7 @@ def scan(config, out, *, executor=None, workers: int | None = None, retry_failed
                 todo.append(job)
         _run_all(todo, folder, executor=executor, workers=workers, cluster=cluster,
                  progress=progress, total=len(jobs), initial=done, failed=failed,
-                 cache_dir=None if cache_dir is None else str(Path(cache_dir).resolve()))
+                 cache_dir=None if cache_dir is None else str(Path(cache_dir).resolve()), lock=lock)
     return folder
 
 
@@ -137,7 +137,8 @@ def _note(text: str) -> None:
     sys.stderr.write(f"driven-atom scan: {text}\n")
 
 
-def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initial, failed, cache_dir) -> None:
+def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initial, failed, cache_dir,
+             lock=None) -> None:
     from tqdm.auto import tqdm
 
     from driven_atom import stopping
@@ -154,6 +155,8 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
                          log_folder=Path(folder).resolve() / WORKER_LOGS) as runner:
             if runner.watch is not None:
                 bar.write(f"driven-atom scan: {runner.watch.describe_start()}", file=sys.stderr)
+            if lock is not None:               # for the ETA of `driven-atom status`
+                lock.note(workers=runner.workers if cluster is None else cluster.workers)
             where = str(Path(folder).resolve())          # workers on other nodes have another cwd
             tag = hashlib.sha256(where.encode()).hexdigest()[:8]   # Dask keys: one per job and folder
             futures = {runner.submit(run_job, job.id, job.config, where, cache_dir,
@@ -182,9 +185,9 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
                         for line in runner.watch.events:
                             bar.write(f"driven-atom scan: {line}", file=sys.stderr)
                         runner.watch.events.clear()
-                        if runner.watch.state() != noted:
+                        if runner.watch.state() != noted and lock is not None:
                             noted = runner.watch.state()
-                            store.write_workers(folder, noted)
+                            lock.note(cluster=noted)     # what `driven-atom status` shows of the workers
                 bar.set_postfix_str(_postfix(failed, runner.watch), refresh=False)
                 signum = stopping.requested()
                 if (signum is not None or storage is not None) and deadline is None:
@@ -201,8 +204,6 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
                           f"again to resume") from None
     finally:
         bar.close()
-        if noted is not None:
-            store.write_workers(folder, None)
     if storage is not None:
         raise StorageError(28, f"{storage}; the campaign stopped, finished jobs are kept")
     if stop is not None:

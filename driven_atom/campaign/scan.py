@@ -130,20 +130,42 @@ def _convert(magnitude: float, unit: str, target: str, name: str) -> float:
         raise InputError(f"`{name}`: cannot express {magnitude!r} {unit} in {target} ({exc})") from None
 
 
-def _plain_units(path: str, route: str) -> str:
-    """The unit of a plain number on this key: atomic units for quantities (the unit kind comes
-    with the field's type), radians for cep, "1" else."""
+def axis_kind(path: str, route: str) -> str | None:
+    """The unit kind ("length", "intensity", ...) of the key a scan axis sets, or None for plain
+    values (the kind comes with the field's type).
+
+    >>> axis_kind("pulse.0.intensity", "levels"), axis_kind("solver.l_max", "grid")
+    ('intensity', None)
+    """
     from driven_atom.config import AtomConfig, FieldsConfig, OutputConfig, PulseConfig
     from driven_atom.quantities import unit_kind
     from driven_atom.settings import SETTINGS
 
-    leaf = path.rsplit(".", 1)[-1]
-    if leaf == "cep":
-        return "rad"
-    section = path.split(".", 1)[0]
+    section, leaf = path.split(".", 1)[0], path.rsplit(".", 1)[-1]
     model = {"pulse": PulseConfig, "atom": AtomConfig, "output": OutputConfig, "fields": FieldsConfig,
              "solver": SETTINGS.get(route)}.get(section)
-    return "au" if model is not None and unit_kind(model, leaf) is not None else "1"
+    return unit_kind(model, leaf) if model is not None else None
+
+
+def unit_label(path: str, units: str, route: str) -> str:
+    """An axis unit as people read it: the plan's "au" named by the key's kind ("bohr", "hartree").
+
+    >>> unit_label("solver.r_max", "au", "grid"), unit_label("pulse.0.wavelength", "nm", "grid")
+    ('bohr', 'nm')
+    """
+    if units != "au":
+        return units or "1"
+    from driven_atom.stored_units import au_name
+
+    kind = axis_kind(path, route)
+    return au_name(kind) if kind else "1"
+
+
+def _plain_units(path: str, route: str) -> str:
+    """The unit of a plain number on this key: atomic units for quantities, radians for cep, "1" else."""
+    if path.rsplit(".", 1)[-1] == "cep":
+        return "rad"
+    return "au" if axis_kind(path, route) is not None else "1"
 
 
 def _coordinates(path: str, values: list, name: str, route: str) -> tuple[tuple, str]:
@@ -264,17 +286,8 @@ def _groups(zip_table, axis_paths: list) -> dict:
     return owner
 
 
-def expand(config, *, max_jobs: int | None = None, progress: bool = False) -> Plan:
-    """Expand the ``[scan]`` table of ``config`` (path, dict or RunConfig) into a :class:`Plan`.
-
-    Without a ``[scan]`` table the plan holds the single base job. Every job config is validated
-    with :func:`driven_atom.routes.load_config` (keys, units, pulse and route), so a misspelt key
-    on a scan axis stops here, before any job starts. A grid of more than ``max_jobs`` points is
-    refused before it is built; ``progress`` shows a bar while a large one is checked.
-    """
-    from driven_atom.routes import load_config
-
-    cfg = load_config(config)
+def _grid(cfg):
+    """(config data without [scan]/[cluster], axes, dims, shape, key parts) of a RunConfig's scan."""
     data = cfg.to_dict()
     scan_table = data.pop("scan", None) or {}
     data.pop("cluster", None)
@@ -297,9 +310,39 @@ def expand(config, *, max_jobs: int | None = None, progress: bool = False) -> Pl
         elif shape[dims.index(dim)] != len(values):
             raise InputError(f"`scan.zip.{dim}`: zipped axes need equal lengths, "
                              f"{path!r} has {len(values)}, expected {shape[dims.index(dim)]}")
+    return data, axes, dims, shape, parts
 
+
+def _point(data: dict, axes, dims, parts, index):
+    """(job config, axis values) at grid ``index``, validated (InputError naming the point)."""
+    from driven_atom.routes import load_config
+
+    job_data = copy.deepcopy(data)
+    values = {}
+    for axis in axes:
+        value = axis.values[index[dims.index(axis.dim)]]
+        _set(job_data, parts[axis.path], value)
+        values[axis.path] = value
+    try:
+        return load_config(job_data), values
+    except InputError as exc:
+        raise InputError(f"`scan` point {values}: {exc}") from None
+
+
+def expand(config, *, max_jobs: int | None = None, progress: bool = False) -> Plan:
+    """Expand the ``[scan]`` table of ``config`` (path, dict or RunConfig) into a :class:`Plan`.
+
+    Without a ``[scan]`` table the plan holds the single base job. Every job config is validated
+    with :func:`driven_atom.routes.load_config` (keys, units, pulse and route), so a misspelt key
+    on a scan axis stops here, before any job starts. A grid of more than ``max_jobs`` points is
+    refused before it is built; ``progress`` shows a bar while a large one is checked.
+    """
     import math
 
+    from driven_atom.routes import load_config
+
+    cfg = load_config(config)
+    data, axes, dims, shape, parts = _grid(cfg)
     total = math.prod(shape)
     if max_jobs is not None and total > max_jobs:
         raise InputError(f"`scan` has {total} grid points ({' x '.join(map(str, shape))}); more than {max_jobs} "
@@ -310,20 +353,31 @@ def expand(config, *, max_jobs: int | None = None, progress: bool = False) -> Pl
     points = tqdm(itertools.product(*(range(n) for n in shape)), total=total, unit="job", desc="checking scan",
                   disable=not progress or total < 2000, leave=False)
     for index in points:
-        job_data = copy.deepcopy(data)
-        values = {}
-        for axis in axes:
-            value = axis.values[index[dims.index(axis.dim)]]
-            _set(job_data, parts[axis.path], value)
-            values[axis.path] = value
-        try:
-            job_cfg = load_config(job_data)
-        except InputError as exc:
-            raise InputError(f"`scan` point {values}: {exc}") from None
+        job_cfg, values = _point(data, axes, dims, parts, index)
         jobs.append(Job(id=job_cfg.physics_hash(), index=tuple(index), values=values,
                         config=job_cfg.to_dict()))
     base = cfg.to_dict()
     return Plan(base=base, axes=tuple(axes), dims=tuple(dims), shape=tuple(shape), jobs=tuple(jobs))
+
+
+def corner_configs(config, *, most_dims: int = 8) -> list:
+    """The validated job configs (RunConfig) at the corners of the scan grid: every dimension at its
+    first or last value (of the first ``most_dims`` dimensions; the others at their first). Quantities
+    that grow monotonically along the axes (intensity, duration, fluence) take their extremes there,
+    without expanding a large grid.
+
+    >>> cfg = {"atom": {"Z": 1}, "solver": {"route": "levels", "states": ["1s", "2p"]},
+    ...        "pulse": [{"wavelength": "800 nm", "intensity": "1e12 W/cm^2", "cycles": 4}],
+    ...        "scan": {"pulse.0.intensity": ["1e10 W/cm^2", "1e11 W/cm^2", "1e12 W/cm^2"]}}
+    >>> [round(c.pulse[0].intensity * 3.50945e16, -8) for c in corner_configs(cfg)]
+    [10000000000.0, 1000000000000.0]
+    """
+    from driven_atom.routes import load_config
+
+    cfg = load_config(config)
+    data, axes, dims, shape, parts = _grid(cfg)
+    ends = [sorted({0, n - 1}) if k < most_dims else [0] for k, n in enumerate(shape)]
+    return [_point(data, axes, dims, parts, index)[0] for index in itertools.product(*ends)]
 
 
 def axis_table(plan: Plan) -> dict[str, Any]:

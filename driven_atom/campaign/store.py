@@ -12,8 +12,6 @@ Layout of a campaign folder ``DIR``::
     DIR/jobs/.*.tmp          a file being written (left over only by a killed writer)
     DIR/jobs/<id>.h5.corrupt a job file found unreadable, kept aside for inspection (job re-run)
     DIR/scan.lock            held (flock) by the one `driven-atom scan` working on the folder
-    DIR/workers.json         on a [cluster], while the scan runs: its worker batch jobs (alive, lost,
-                             requested), for `driven-atom status`
     DIR/worker-logs/         on a [cluster]: the output of the worker batch jobs
     DIR/summary.h5           the collected table (netCDF via h5netcdf), DIR/summary.csv on request
 
@@ -48,7 +46,6 @@ from driven_atom.io import atomic_write, write_text
 PLAN_FILE = "campaign.toml"
 JOBS_DIR = "jobs"
 LOCK_FILE = "scan.lock"
-WORKERS_FILE = "workers.json"
 SUMMARY_FILE = "summary.h5"
 CSV_FILE = "summary.csv"
 
@@ -209,13 +206,19 @@ def write_failed(path, *, job_id: str, config: str, error: BaseException) -> Pat
 
 
 # -- running markers ----------------------------------------------------------------------------
-def _process_start(pid: int) -> str | None:
-    """Start time of a process (Linux /proc), to tell a live pid from a reused one."""
+def _proc_stat(pid: int) -> list[str] | None:
+    """The fields of ``/proc/PID/stat`` after the command name (Linux), or None."""
     try:
         with open(f"/proc/{pid}/stat") as fh:
-            return fh.read().rsplit(")", 1)[1].split()[19]
+            return fh.read().rsplit(")", 1)[1].split()
     except (OSError, IndexError):
         return None
+
+
+def _process_start(pid: int) -> str | None:
+    """Start time of a process (Linux /proc), to tell a live pid from a reused one."""
+    fields = _proc_stat(pid)
+    return fields[19] if fields and len(fields) > 19 else None
 
 
 def _identity() -> dict:
@@ -236,6 +239,9 @@ def _alive(info: dict) -> bool:
     except PermissionError:
         return True
     except (OSError, ValueError):
+        return False
+    fields = _proc_stat(pid)
+    if fields and fields[0] in ("Z", "X"):   # killed, not yet reaped (a container's init may never reap it)
         return False
     start = info.get("start")
     return start is None or _process_start(pid) in (None, start)
@@ -330,6 +336,15 @@ class CampaignLock:
             self._fh.flush()
         return self
 
+    def note(self, **extra) -> None:
+        """Add ``extra`` (JSON-able, e.g. ``workers``) to the holder's note that ``status`` reads."""
+        if self._fh is not None:
+            info = {**_identity(), **self.holder(), **extra}
+            self._fh.seek(0)
+            self._fh.truncate()
+            self._fh.write(json.dumps(info))
+            self._fh.flush()
+
     def release(self) -> None:
         if self._fh is not None:
             self._fh.seek(0)
@@ -350,36 +365,54 @@ class CampaignLock:
         self.release()
 
 
-# -- cluster workers ----------------------------------------------------------------------------
-def write_workers(folder, info: dict | None) -> None:
-    """Note the scan's worker batch jobs for ``status`` (``None``: remove the note)."""
-    path = Path(folder) / WORKERS_FILE
-    if info is None:
-        path.unlink(missing_ok=True)
-    else:
-        write_text(path, json.dumps(info), sync=False)
-
-
-def read_workers(folder) -> dict | None:
-    try:
-        info = json.loads((Path(folder) / WORKERS_FILE).read_text())
-    except (OSError, ValueError):
-        return None
-    return info if isinstance(info, dict) else None
-
-
 # -- campaign status ----------------------------------------------------------------------------
+def job_points(plan: dict) -> dict:
+    """job id -> (grid index of its first point, number of grid points it stands for)."""
+    points: dict = {}
+    for job in plan.get("job", []):
+        first, count = points.get(job["id"], (tuple(job["index"]), 0))
+        points[job["id"]] = (first, count + 1)
+    return points
+
+
+def axis_values(plan: dict, index) -> dict:
+    """The scan-axis values (coordinates in each axis's units) at grid ``index``."""
+    dims = list(plan["campaign"]["dims"])
+    return {path: axis["coords"][index[dims.index(axis["dim"])]] for path, axis in plan.get("axes", {}).items()}
+
+
+def eta_seconds(mean_wall: float | None, pending: int, running: int, workers: int | None) -> float | None:
+    """Time until the jobs left are done: the mean wall time of the done jobs times the work left
+    (pending jobs, and half of each running one), spread over the workers (as many as the scan
+    noted, else as many as are running, at least one). None without a done job to time.
+
+    >>> eta_seconds(10.0, pending=4, running=2, workers=2)
+    25.0
+    """
+    if mean_wall is None:
+        return None
+    return mean_wall * (pending + 0.5 * running) / max(1, workers or running or 1)
+
+
 def campaign_status(folder) -> dict:
-    """Counts of done / running / failed / pending jobs and one row per job.
+    """Counts of done / running / failed / pending jobs, one row per job with its scan-axis values,
+    and an ETA while a scan works on the folder.
 
     ``pending`` counts every job neither done, failed nor running (``checkpointed`` and
     ``corrupt`` jobs among them, also counted separately), so done + running + failed + pending
-    = total. ``workers``: the worker batch jobs of a scan on a [cluster] that is running (else None).
+    = total. Each row: ``id``, ``status``, ``wall_s``, ``error`` (the one-line reason of a failed
+    or corrupt job), ``trustworthy``, ``values`` (axis path -> value in the units of ``axes``:
+    the user's, plain numbers of a quantity in its atomic unit, named),
+    ``index`` (grid position) and ``points`` (grid points of equal physics it stands for).
+    ``cluster``: the worker batch jobs of a running scan on a [cluster] (alive, lost, requested;
+    else None).
     """
     plan = read_plan(folder)
-    active = CampaignLock(folder).busy()
+    lock = CampaignLock(folder)
+    active = lock.busy()
     jobs = []
     counts = {DONE: 0, RUNNING: 0, FAILED: 0, PENDING: 0, CHECKPOINTED: 0, CORRUPT: 0}
+    points = job_points(plan)
     for job_id in plan_job_ids(plan):
         state = job_state(folder, job_id)
         status = state.status
@@ -388,10 +421,22 @@ def campaign_status(folder) -> dict:
         if status in (CHECKPOINTED, CORRUPT):
             counts[status] += 1
         counts[status if status in (DONE, RUNNING, FAILED) else PENDING] += 1
+        index, count = points[job_id]
         jobs.append({"id": job_id, "status": status, "wall_s": state.wall_s, "error": state.error,
-                     "trustworthy": state.trustworthy})
-    walls = [j["wall_s"] for j in jobs if j["wall_s"] is not None]
+                     "trustworthy": state.trustworthy, "values": axis_values(plan, index), "index": list(index),
+                     "points": count})
+    walls = [j["wall_s"] for j in jobs if j["wall_s"] is not None and j["status"] == DONE]
     untrustworthy = sum(1 for j in jobs if j["status"] == DONE and j["trustworthy"] is False)
+    holder = lock.holder()
+    workers = holder.get("workers") if active else None
+    mean_wall = sum(walls) / len(walls) if walls else None
+    eta = eta_seconds(mean_wall, counts[PENDING], counts[RUNNING], workers) if active else None
+    from driven_atom.campaign.scan import unit_label
+
+    route = str(plan.get("config", {}).get("solver", {}).get("route", ""))
+    axes = {path: {"dim": axis["dim"], "units": unit_label(path, axis["units"], route)}
+            for path, axis in plan.get("axes", {}).items()}
     return {"folder": str(folder), "total": len(jobs), **counts, "untrustworthy": untrustworthy,
-            "scan_active": active, "workers": read_workers(folder) if active else None,
-            "wall_s_total": float(sum(walls)), "jobs": jobs}
+            "scan_active": active, "wall_s_total": float(sum(walls)), "wall_s_mean": mean_wall,
+            "eta_s": eta, "workers": workers, "cluster": holder.get("cluster") if active else None,
+            "axes": axes, "jobs": jobs}

@@ -3,7 +3,8 @@
 ``collect(folder)`` reads ``campaign.toml`` and the job files and writes ``summary.h5`` (netCDF-4
 through h5netcdf, temp file + rename), optionally ``summary.csv`` (one row per grid point).
 The Dataset has one dimension per scan axis (a zipped group is one dimension carrying all its
-axes as coordinates); every axis coordinate has a ``units`` attribute. Variables:
+axes as coordinates) in the user's units; every variable and coordinate has ``units`` and
+``long_name`` (CF spellings, :mod:`driven_atom.stored_units`). Variables:
 
 * ``ionization``, ``norm`` (scan dims), ``population`` (scan dims + ``state``), and their error bars
   ``ionization_err``, ``norm_err``, ``population_err`` (NaN where a job asked for none);
@@ -37,16 +38,38 @@ from driven_atom.io import atomic_write, write_text
 SPECTRUM_AXES = ("energy", "omega", "frequency", "order", "k")
 
 
+def axis_attributes(path: str, units: str, route: str) -> dict:
+    """``units``, ``long_name``, ``key_path`` and ``user_units`` (for labels) of a scan-axis
+    coordinate: the user's own unit (plain numbers of a quantity, stored as "au" in the plan, get the
+    UDUNITS spelling of the atomic unit, :mod:`driven_atom.stored_units`, and its name as
+    ``user_units``).
+
+    >>> axis_attributes("solver.r_max", "au", "basis")["units"]
+    '5.29177210544e-11 m'
+    """
+    from driven_atom.campaign.scan import axis_kind, unit_label
+    from driven_atom.stored_units import attributes
+
+    name = f"scan axis {path}"
+    if units == "au":
+        return {**attributes(axis_kind(path, route) or "1", name), "key_path": path,
+                "user_units": unit_label(path, units, route)}
+    return {"units": units or "1", "long_name": name, "key_path": path, "user_units": units or "1"}
+
+
 def _coordinates(plan: dict) -> dict:
+    route = str(plan.get("config", {}).get("solver", {}).get("route", ""))
     coords = {}
     for path, axis in plan.get("axes", {}).items():
         values = np.asarray(axis["coords"])
-        coords[path] = ((axis["dim"],), values, {"units": axis["units"], "key_path": path})
+        coords[path] = ((axis["dim"],), values, axis_attributes(path, axis["units"], route))
     return coords
 
 
 def _spectra_variables(results: dict, index_of: dict, dims: tuple, shape: tuple) -> dict:
     """Spectrum arrays of all done jobs -> data variables with the spectrum axis as extra dim."""
+    from driven_atom.stored_units import attributes, describe
+
     names = list(dict.fromkeys(name for r in results.values() for name, arrays in r.spectra.items()
                                if "time" not in arrays))
     out = {}
@@ -69,9 +92,11 @@ def _spectra_variables(results: dict, index_of: dict, dims: tuple, shape: tuple)
                     values = np.ravel(np.asarray(arrays[key]))
                     for idx in index_of[jid]:
                         data[idx + (slice(0, len(values)),)] = values
-            out[f"{name}_{key}"] = (dims + (extra,), data, {"units": "au"})
+            out[f"{name}_{key}"] = (dims + (extra,), data, describe(f"spectra/{name}", key))
         if shared:
-            out[extra] = ((extra,), np.asarray(first[axis_key], dtype=float), {"units": "au"})
+            out[extra] = ((extra,), np.asarray(first[axis_key], dtype=float), describe(f"spectra/{name}", axis_key))
+        else:
+            out[extra] = ((extra,), np.arange(length), attributes("1", f"index into the {name} spectrum arrays"))
     return out
 
 
@@ -127,12 +152,19 @@ def build_dataset(folder):
                            {"units": "1", "long_name": "estimated numerical error of the final population"}),
         "trustworthy": (dims, trustworthy, {"units": "1", "long_name": "every quality check passed "
                                             "(1 yes, 0 no, -1 no result or no checks)"}),
-        "job_id": (dims, job_ids.astype(str)),
-        "status": (dims, statuses.astype(str)),
+        "job_id": (dims, job_ids.astype(str), {"units": "1", "long_name": "job id (physics hash; file "
+                                                "jobs/<job_id>.h5)"}),
+        "status": (dims, statuses.astype(str), {"units": "1", "long_name": "job status (done, failed, "
+                                                "checkpointed, corrupt, pending)"}),
     }
     data_vars.update(_spectra_variables(results, index_of, dims, shape))
     coords = _coordinates(plan)
-    coords["state"] = (("state",), np.array(labels, dtype=str))
+    for dim, size in zip(dims, shape):
+        if dim not in coords:          # a zipped group: its position, so no dimension is left without units
+            members = ", ".join(p for p, a in plan.get("axes", {}).items() if a["dim"] == dim)
+            coords[dim] = ((dim,), np.arange(size), {"units": "1", "long_name": f"position along the zipped scan "
+                                                     f"dimension {dim} ({members})"})
+    coords["state"] = (("state",), np.array(labels, dtype=str), {"units": "1", "long_name": "state label"})
     counts = {s: sum(1 for v in status.values() if v == s)
               for s in (store.DONE, store.FAILED, store.CHECKPOINTED, store.CORRUPT, store.PENDING)}
     import tomli_w

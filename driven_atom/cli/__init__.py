@@ -2,7 +2,7 @@
 
 Each area registers its subcommands from its own module (``register(subparsers)``); a handler
 returns a dict (printed as one JSON object with ``--json``) or prints its own table.
-Bad input -> one line on stderr, exit code 2.
+Bad input -> one line on stderr, exit code 2 (every exit code: :func:`main`).
 """
 from __future__ import annotations
 
@@ -16,7 +16,7 @@ from driven_atom.errors import InputError
 # modules that define subcommands; each has register(subparsers)
 _COMMAND_MODULES = ["driven_atom.cli.atom_cmds", "driven_atom.cli.pulse_cmd", "driven_atom.cli.run_cmd", "driven_atom.cli.campaign_cmds",
                     "driven_atom.cli.estimate_cmd", "driven_atom.cli.plot_cmd", "driven_atom.cli.check_cmd",
-                    "driven_atom.cli.converge_cmd"]
+                    "driven_atom.cli.converge_cmd", "driven_atom.cli.keys_cmd", "driven_atom.cli.report_cmd"]
 
 SAFETY_CAUTION = (
     "CAUTION: lasers at these intensities are class-4 hazards: direct, reflected and scattered beams "
@@ -93,8 +93,9 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv=None) -> int:
     """Run one command; exit codes: 0 done, 1 a check failed or a file could not be written (disk
-    full, read-only), 2 bad input or a refused run, 4 a campaign on a batch system lost all its
-    workers (jobs stay pending), 128 + signal when a signal stopped a run after its checkpoint."""
+    full, read-only), 2 bad input or a refused run, 3 a scan that ended with failed jobs, 4 a
+    campaign on a batch system that lost all its workers (jobs stay pending), 128 + signal when a
+    signal stopped a run after its checkpoint."""
     import warnings
 
     from driven_atom.errors import Interrupted, WorkersLost, one_line, short

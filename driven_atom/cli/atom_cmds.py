@@ -25,6 +25,7 @@ def register(subparsers) -> None:
     _add_structure(p)
     add_atom_options(p)
     add_common(p)
+    _add_species(p)
     p.set_defaults(handler=handle_lines)
 
     p = subparsers.add_parser("transition", help="energy, wavelength, dipole, f-value, Einstein A of a transition",
@@ -34,6 +35,7 @@ def register(subparsers) -> None:
     _add_structure(p)
     add_atom_options(p)
     add_common(p)
+    _add_species(p)
     p.set_defaults(handler=handle_transition)
 
     p = subparsers.add_parser("state", help="energy, binding energy, lifetime, <r> of one state",
@@ -42,6 +44,7 @@ def register(subparsers) -> None:
     _add_structure(p)
     add_atom_options(p)
     add_common(p)
+    _add_species(p)
     p.set_defaults(handler=handle_state)
 
     p = subparsers.add_parser("xsec", help="photoionisation cross section of a level",
@@ -53,7 +56,14 @@ def register(subparsers) -> None:
                    help='photon energies evenly spaced, e.g. "14 eV:100 eV:50"')
     add_atom_options(p)
     add_common(p)
+    _add_species(p)
     p.set_defaults(handler=handle_xsec)
+
+
+def _add_species(parser) -> None:
+    parser.add_argument("--species", default=None,
+                        help="a single-active-electron model atom: He, Ne, Ar, Kr, Xe, Li, Na, K, Rb, Cs "
+                             "(levels from the model, measured levels beside them)")
 
 
 def _num(value, fmt: str) -> str:
@@ -78,8 +88,19 @@ def _atom_label(args) -> str:
     return f"Z = {atom.Z}, {mass}"
 
 
+def _model_only(args, *keys) -> None:
+    from driven_atom.errors import InputError
+
+    for key in keys:
+        if getattr(args, key, None) not in (None, "bohr"):
+            raise InputError(f"`--{key}` does not apply with `--species` (a model atom has its own potential)")
+
+
 def handle_lines(args):
     from driven_atom.atom.tables import lines
+
+    if args.species is not None:
+        return _model_lines(args)
 
     out = lines(args.series, args.upto, Z=args.Z, nucleus=args.nucleus, structure=args.structure)
     if args.json:
@@ -99,8 +120,43 @@ def handle_lines(args):
     return None
 
 
+def _model_lines(args):
+    from driven_atom.basis.model_tables import lines
+
+    _model_only(args, "Z", "nucleus", "structure")
+    out = lines(args.species, args.upto)
+    if args.json:
+        return out
+    rows = [[f"{ln['upper']} -> {ln['lower']}", _num(ln["vacuum_nm"], "{:.3f}"), _num(ln.get("measured_vacuum_nm"), "{:.3f}"),
+             _num(ln["f_absorption"], "{:.4g}"), _num(ln["A_s"], "{:.4g}")] for ln in out["lines"]]
+    print(f"lines from the ground level of the {args.species} model (measured: NIST ASD)")
+    print(_grid(["transition", "model [nm]", "measured [nm]", "f", "A [1/s]"], rows))
+    print(f"series limit: {out['limit_vacuum_nm']:.3f} nm (Ip {out['ionization_potential_eV']:.4f} eV; measured "
+          f"{out['measured_ionization_potential_eV']:.4f} eV)")
+    return None
+
+
 def handle_transition(args):
     from driven_atom.atom.tables import transition
+
+    if args.species is not None:
+        from driven_atom.basis.model_tables import transition as model_transition
+
+        _model_only(args, "Z", "nucleus", "structure")
+        out = model_transition(args.species, args.state_a, args.state_b)
+        if args.json:
+            return out
+        items = [("photon energy", _num(out["energy_eV"], "{:.6f} eV")),
+                 ("vacuum wavelength", _num(out["vacuum_nm"], "{:.4f} nm")),
+                 ("measured (NIST ASD)", _num(out.get("measured_vacuum_nm"), "{:.4f} nm")),
+                 ("radial dipole", _num(out["radial_dipole_au"], "{:.6g} bohr")),
+                 ("f (absorption)", _num(out["f_absorption"], "{:.6g}")),
+                 ("Einstein A", _num(out["A_s"], "{:.6g} 1/s"))]
+        items += [(f"{c['upper']} -> {c['lower']}", f"{c['vacuum_nm']:.4f} nm (measured "
+                   f"{_num(c.get('measured_vacuum_nm'), '{:.4f}')} nm), A {c['A_s']:.4g} 1/s")
+                  for c in out.get("components", [])]
+        print(_pairs(f"transition {out['upper']} -> {out['lower']} ({args.species} model)", items))
+        return None
 
     out = transition(args.state_a, args.state_b, Z=args.Z, nucleus=args.nucleus, structure=args.structure)
     if args.json:
@@ -125,6 +181,23 @@ def handle_transition(args):
 def handle_state(args):
     from driven_atom.atom.tables import state
 
+    if args.species is not None:
+        from driven_atom.basis.model_tables import state as model_state
+
+        _model_only(args, "Z", "nucleus", "structure")
+        out = model_state(args.species, args.state)
+        if args.json:
+            return out
+        items = [("energy", f"{out['energy_eV']:.6f} eV"), ("binding energy", f"{out['binding_eV']:.6f} eV"),
+                 ("excitation", f"{out['excitation_eV']:.6f} eV")]
+        if "measured_excitation_eV" in out:
+            items.append(("measured (NIST ASD)", f"{out['measured_excitation_eV']:.6f} eV above the ground state, "
+                                                 f"model - measured {out['deviation_eV']:+.5f} eV"))
+        items += [(f"j = {j}", f"{e:.6f} eV above the ground state") for j, e in out.get("fine", {}).items()]
+        items += [("radiative lifetime", _num(out["lifetime_s"], "{:.6g} s")), ("<r>", f"{out['r_mean_au']:.6g} bohr")]
+        print(_pairs(f"state {out['label']} ({args.species} model)", items))
+        return None
+
     out = state(args.state, Z=args.Z, nucleus=args.nucleus, structure=args.structure)
     if args.json:
         return out
@@ -143,11 +216,20 @@ def handle_state(args):
 def handle_xsec(args):
     from driven_atom.atom.tables import xsec
 
-    out = xsec(args.state, args.photon_energy, wavelength=args.wavelength, energy_range=args.energy_range,
-               Z=args.Z, nucleus=args.nucleus)
+    if args.species is not None:
+        from driven_atom.atom.tables import _photon_energies
+        from driven_atom.basis.model_tables import xsec as model_xsec
+
+        _model_only(args, "Z", "nucleus")
+        out = model_xsec(args.species, args.state, _photon_energies(args.photon_energy, args.wavelength,
+                                                                    args.energy_range))
+    else:
+        out = xsec(args.state, args.photon_energy, wavelength=args.wavelength, energy_range=args.energy_range,
+                   Z=args.Z, nucleus=args.nucleus)
     if args.json:
         return out
-    title = f"photoionisation of {args.state} ({_atom_label(args)}), m-averaged"
+    what = f"{args.species} model" if args.species is not None else _atom_label(args)
+    title = f"photoionisation of {args.state} ({what}), m-averaged"
     if isinstance(out["sigma_cm2"], list):
         rows = [[f"{e:.4f}", f"{s:.5g}", f"{m:.5g}"]
                 for e, s, m in zip(out["photon_energy_eV"], out["sigma_cm2"], out["sigma_Mb"])]

@@ -1,11 +1,10 @@
 """``driven-atom pulse CONFIG [--plot FILE] [--json]``: derived quantities of the config's pulses.
 
-Prints a table (or one JSON object with ``pulses`` and ``field_area_au``) and the laser-safety
-caution (stderr with ``--json`` so stdout stays one JSON object).
+Prints a table (or one JSON object with ``pulses``, ``field_area_au`` and ``caution``) and, when
+the pulse's fluence reaches the skin exposure limit (:func:`driven_atom.safety.laser_caution`), the
+laser-safety caution with the numbers that call for it (``caution``: null when none).
 """
 from __future__ import annotations
-
-import sys
 
 # (JSON key, table heading, format)
 _COLUMNS = [
@@ -55,9 +54,10 @@ def table(derived: dict) -> str:
 
 def handle(args):
     from driven_atom.routes import load_config
-    from driven_atom.cli import SAFETY_CAUTION, significant
+    from driven_atom.cli import significant
     from driven_atom.errors import InputError
     from driven_atom.pulse import build_pulse, derived_quantities
+    from driven_atom.safety import laser_caution
 
     cfg = load_config(args.config)
     pulse = build_pulse(cfg)
@@ -68,11 +68,12 @@ def handle(args):
         from driven_atom.plotting import pulse_figure
 
         pulse_figure(pulse, args.plot)
+    caution = laser_caution(pulse)
     if args.json:
-        sys.stderr.write(SAFETY_CAUTION + "\n")
-        return derived
+        return {**derived, "caution": caution}
     print(table(derived))
     if args.plot:
         print(f"figure written to {args.plot}")
-    print(SAFETY_CAUTION)
+    if caution:
+        print(caution)
     return None

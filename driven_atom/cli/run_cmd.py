@@ -6,18 +6,18 @@ summary (final populations, ionisation, norm, error bars with ``--error``, the q
 flagged something, warnings), or with ``--json`` exactly one object::
 
     {"route", "populations", "ionization", "norm", "result_file", "wall_s", "trustworthy",
-     "warnings", "quality", "ionization_err", "populations_err",
+     "warnings", "quality", "ionization_err", "populations_err", "caution",
      "history": {"times_au": [...], "populations": {label: [...]}}}
 
 ``--preflight`` makes every check a run makes before its first step (units, keys, resources,
 accuracy) and stops there: ``{"preflight": [...checks...], "trustworthy"}``, exit 2 if one refuses.
 
-A config whose pulses are given in lab units (an intensity, or a field with units) also gets the
-laser-safety caution (on stderr with ``--json``).
+When a pulse's fluence reaches the skin exposure limit (:func:`driven_atom.safety.laser_caution`)
+the laser-safety caution with its numbers follows the summary (``caution`` in the JSON, null when
+none).
 """
 from __future__ import annotations
 
-import sys
 from pathlib import Path
 
 
@@ -41,24 +41,6 @@ def register(subparsers) -> None:
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
     add_common(p)
     p.set_defaults(handler=handle)
-
-
-def has_lab_intensity(cfg) -> bool:
-    """True when a pulse strength is given in lab units (any intensity, or a field with units
-    other than atomic units): then the printed numbers feed an experiment.
-
-    >>> from driven_atom.routes import load_config
-    >>> has_lab_intensity(load_config({"atom": {"Z": 1}, "pulse": [{"photon_energy": 0.375,
-    ...     "peak_field": 1e-3, "cycles": 10}], "solver": {"route": "levels", "states": ["1s"]}}))
-    False
-    """
-    for p in cfg.to_dict().get("pulse", []):
-        if p.get("intensity") is not None:
-            return True
-        field = p.get("peak_field")
-        if isinstance(field, str) and not field.strip().lower().endswith(("au", "a.u.")):
-            return True
-    return False
 
 
 def summary(result) -> str:
@@ -99,27 +81,26 @@ def _preflight(cfg, args):
 
 def handle(args):
     from driven_atom.api import run
+    from driven_atom.pulse import build_pulse
     from driven_atom.routes import load_config
-    from driven_atom.cli import SAFETY_CAUTION
+    from driven_atom.safety import laser_caution
 
     cfg = load_config(args.config)
     if args.preflight:
         return _preflight(cfg, args)
     result = run(cfg, out=args.out, progress=not (args.no_progress or args.json), name=Path(args.config).stem,
                  error_estimate=True if args.error else None, max_hours=args.max_hours, cache_dir=args.cache_dir)
-    caution = has_lab_intensity(cfg)
+    caution = laser_caution(build_pulse(cfg))
     if args.json:
-        if caution:
-            sys.stderr.write(SAFETY_CAUTION + "\n")
         errors = result.quality.get("errors", {})
         return {"route": result.route, "populations": result.populations, "ionization": result.ionization,
                 "norm": result.norm, "result_file": result.metadata.get("file"),
                 "wall_s": result.stats.get("wall_s"), "trustworthy": result.quality.get("trustworthy"),
                 "warnings": result.warnings, "quality": result.quality,
                 "ionization_err": errors.get("ionization"), "populations_err": errors.get("populations"),
-                "history": {"times_au": result.times,
+                "caution": caution, "history": {"times_au": result.times,
                             "populations": dict(result.history_populations)}}
     print(summary(result))
     if caution:
-        print(SAFETY_CAUTION)
+        print(caution)
     return None

@@ -20,12 +20,9 @@
 
   at the envelope F(t); as γ → 0 it tends to the cycle-averaged ADK rate w·√(3F/(πF₀)) (checked
   in the tests), for γ ≫ 1 it describes multiphoton ionisation. P = 1 − exp(−∫w dt) (depletion).
-* One photon above threshold: the golden-rule probability P₁ of
-  :func:`driven_atom.observables.perturbation.first_order_ionization`, saturated as P = 1 − exp(−P₁).
-* Bound–bound excitation of one dipole transition l → u in the rotating-wave picture: first-order
-  amplitude a = (1/2) Σ ⟨u|r|l⟩·∫ℰ(t) e^{−iδt} dt with ℰ the complex envelope and δ = ω − ω_ul, and
-  P = sin²(√P₁), P₁ = Σ_{m_u}|a|²: the pulse-area result sin²(θ/2) on resonance (Allen & Eberly
-  1975) and first-order theory off resonance; no decay, no other levels.
+  The rate is taken along the intensity profile of the pulse (:func:`ppt_exponent`) for linear
+  light (m along the polarisation); a run configuration's static field uses ADK at the
+  instantaneous field over its ramp and plateau (:func:`static_exponent`).
 """
 from __future__ import annotations
 
@@ -33,33 +30,29 @@ import math
 
 import numpy as np
 
-RESONANCE_WIDTHS = 10.0     # a carrier drives a transition when within this many spectral widths
 
-
-def spectral_width(component) -> float:
-    """2π/FWHM (the window length without a FWHM) plus the chirp sweep |β|T/2, in a.u. of frequency."""
-    duration = component.fwhm if component.fwhm is not None else component.length
-    return 2 * math.pi / duration + abs(component.chirp) * component.length / 2
-
-
-def _adk_constants(ip: float, Z: float, l: int, m: int) -> tuple[float, float, float]:
-    """(n*, C²_{n*l*}·f(l, m)·Iₚ, F₀) of the module docstring, with l* = n* − 1."""
+def _adk_constants(ip: float, Z: float, l: int, m: int, c2: float | None = None) -> tuple[float, float, float]:
+    """(n*, C²_{n*l*}·f(l, m)·Iₚ, F₀) of the module docstring, with l* = n* − 1; ``c2`` replaces
+    that Hartree-type C²_{n*l*} where the atom's own asymptotic coefficient is known (a model atom:
+    :func:`driven_atom.atom.model_atoms.adk_coefficient`, Tong, Zhao & Lin 2002)."""
     n_star = Z / math.sqrt(2.0 * ip)
     l_star = n_star - 1.0
-    c2 = 2.0 ** (2 * n_star) / (n_star * math.gamma(n_star + l_star + 1) * math.gamma(n_star - l_star))
+    if c2 is None:
+        c2 = 2.0 ** (2 * n_star) / (n_star * math.gamma(n_star + l_star + 1) * math.gamma(n_star - l_star))
     m = abs(m)
     f_lm = (2 * l + 1) * math.factorial(l + m) / (2**m * math.factorial(m) * math.factorial(l - m))
     return n_star, c2 * f_lm * ip, (2.0 * ip) ** 1.5
 
 
-def adk_rate(field, ip: float, Z: float, l: int = 0, m: int = 0) -> np.ndarray:
-    """Static tunnelling rate w(F) (a.u.) of the module docstring; 0 where F = 0.
+def adk_rate(field, ip: float, Z: float, l: int = 0, m: int = 0, c2: float | None = None) -> np.ndarray:
+    """Static tunnelling rate w(F) (a.u.) of the module docstring; 0 where F = 0 (``c2``: see
+    :func:`_adk_constants`; Z is the charge the electron leaves behind).
 
     >>> round(float(adk_rate(0.05, 0.5, 1)), 10) == round(4 / 0.05 * math.exp(-2 / 0.15), 10)   # Landau
     True
     """
     F = np.abs(np.asarray(field, dtype=float))
-    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m)
+    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m, c2)
     m = abs(m)
     out = np.zeros_like(F)
     on = F > 0
@@ -106,10 +99,11 @@ def ppt_factor(omega: float, gamma: float, ip: float, m: int = 0) -> float:
     return 4 / math.sqrt(3 * math.pi) / math.factorial(m) * gamma**2 / (1 + gamma**2) * total
 
 
-def ppt_rate(field, omega: float, ip: float, Z: float, l: int = 0, m: int = 0) -> np.ndarray:
+def ppt_rate(field, omega: float, ip: float, Z: float, l: int = 0, m: int = 0,
+             c2: float | None = None) -> np.ndarray:
     """Cycle-averaged PPT rate (a.u.) at envelope field F and carrier ω (module docstring); 0 at F = 0."""
     F = np.abs(np.asarray(field, dtype=float))
-    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m)
+    n_star, prefactor, f0 = _adk_constants(ip, Z, l, m, c2)
     m = abs(m)
     out = np.zeros_like(F)
     for i in np.flatnonzero(F > 0):
@@ -135,72 +129,40 @@ def _compress(fields: np.ndarray, weights: np.ndarray, bins: int = 4096) -> tupl
     return moment[full] / total[full], total[full]
 
 
-def ionization_exponent(pulse, ip: float, Z: float, l: int = 0, m: int = 0):
-    """The function s ↦ ∫ w dt over the pulse with the field scaled to s times the intensity
-    (array in, array out), so that P(s) = 1 − exp(−exponent(s)).
-
-    Laser pulses: the cycle-averaged PPT rate at the envelope F(t) = Σ_k |ℰ_k(t)| (an upper bound
-    where several colours beat) and the carrier of the strongest pulse, on 16 Gauss points per
-    1/64 of the shortest FWHM; static fields: the ADK rate of the instantaneous field. The field
-    values enter through their distribution (:func:`_compress`), the PPT rate through a table of
-    ln w on 800 log-spaced fields, so the cost does not grow with the number of cycles."""
-    from driven_atom.pulse import quadrature
-
-    edges = sorted({b for c in pulse.components for b in c.breakpoints})
-    lasers = [c for c in pulse.components if c.omega > 0]
-    if not lasers:
-        t, wt = quadrature(edges, (edges[-1] - edges[0]) / 64)
-        fields, weights = _compress(np.linalg.norm(pulse.electric_field(t), axis=1), wt)
-
-        def exponent(scales):
-            scales = np.asarray(scales, dtype=float)
-            F = np.sqrt(scales.ravel())[:, None] * fields[None, :]
-            return (adk_rate(F, ip, Z, l, m) @ weights).reshape(scales.shape)
-
-        return exponent
-    omega = max(lasers, key=lambda c: c.intensity).omega
-    scale = min(c.fwhm if c.fwhm is not None else c.length for c in lasers)
-    t, wt = quadrature(edges, scale / 64)
-    fields, weights = _compress(sum(np.linalg.norm(c.complex_envelope(t), axis=1) for c in lasers), wt)
+def _rate_table(rate, fields: np.ndarray, weights: np.ndarray):
+    """s ↦ Σ weights · rate(√s · fields), with ln rate tabulated on 800 log-spaced fields (the rate
+    is smooth in ln F; the cost does not grow with the number of nodes)."""
+    fields, weights = _compress(fields, weights)
     table_f = np.geomspace(fields.min() * 1e-4, fields.max() * 1e4, 800)
     with np.errstate(divide="ignore"):
-        table_lnw = np.log(ppt_rate(table_f, omega, ip, Z, l, m))
+        table_lnw = np.log(rate(table_f))
 
     def exponent(scales):
         scales = np.asarray(scales, dtype=float)
         F = np.sqrt(scales.ravel())[:, None] * fields[None, :]
-        rate = np.exp(np.interp(np.log(F), np.log(table_f), table_lnw))
-        return (rate @ weights).reshape(scales.shape)
+        values = np.exp(np.interp(np.log(F), np.log(table_f), table_lnw))
+        return (values @ weights).reshape(scales.shape)
 
     return exponent
 
 
-def excitation_first_order(pulse, atom, lower, upper_level) -> float:
-    """P₁ = Σ_{m_u} |(1/2) ⟨u|r|l⟩·∫ℰ(t) e^{−iδt} dt|² for the level ``upper_level`` (State n, l)
-    from the sublevel ``lower`` (State with m), summed over the pulse components within
-    RESONANCE_WIDTHS spectral widths 2π/FWHM of the transition (module docstring)."""
-    from driven_atom.atom import State
-    from driven_atom.atom.dipoles import dipole_matrix_element, spherical_coefficients
-    from driven_atom.atom.levels import energy
+def ppt_exponent(envelope, peak_field: float, omega: float, ip: float, Z: float, l: int = 0, m: int = 0,
+                 c2: float | None = None):
+    """The function s ↦ ∫ w dt (a.u.) of the cycle-averaged PPT rate along the envelope field
+    F(t) = √(s f(t)) F₀ of a pulse with intensity profile ``envelope`` (times in s), peak field
+    ``peak_field`` and carrier ``omega`` (a.u.); P(s) = 1 − exp(−exponent(s))."""
+    from driven_atom.units import AU_TIME_S
+
+    t, wt = envelope.nodes(per_fwhm=64)
+    fields = peak_field * np.sqrt(envelope.intensity(t))
+    return _rate_table(lambda F: ppt_rate(F, omega, ip, Z, l, m, c2), fields, wt / AU_TIME_S)
+
+
+def static_exponent(component, ip: float, Z: float, l: int = 0, m: int = 0, c2: float | None = None):
+    """s ↦ ∫ w dt (a.u.) of the ADK rate at the instantaneous field of a static-field pulse
+    component (its ramp and plateau; 16 Gauss points per 1/64 of its window), the field scaled by √s."""
     from driven_atom.pulse import quadrature
 
-    w_ul = energy(atom, upper_level.n) - energy(atom, lower.n)
-    total = 0.0
-    for m_u in range(-upper_level.l, upper_level.l + 1):
-        upper = State(upper_level.n, upper_level.l, m_u)
-        d = np.array([dipole_matrix_element(atom, upper, lower, q) for q in (-1, 0, 1)])
-        if not np.any(d):
-            continue
-        amplitude = 0j
-        for c in pulse.components:
-            delta = c.omega - w_ul
-            if abs(delta) > RESONANCE_WIDTHS * spectral_width(c):
-                continue                  # far from resonance: its rotating-wave term averages out
-            scale = c.fwhm if c.fwhm is not None else c.length
-            rate = abs(delta) + abs(c.chirp) * c.length / 2
-            panel = min(scale / 16, 2 * math.pi / rate / 4 if rate > 0 else math.inf)
-            t, wts = quadrature(sorted(set(c.breakpoints)), panel)
-            e_q = spherical_coefficients(c.complex_envelope(t))          # ℰ·r = Σ_q e_q r_q
-            amplitude += 0.5 * (wts * np.exp(-1j * delta * t)) @ (e_q @ d)
-        total += abs(amplitude) ** 2
-    return float(total)
+    t, wt = quadrature(sorted(set(component.breakpoints)), component.length / 64)
+    fields = np.linalg.norm(component.electric_field(t), axis=1)
+    return _rate_table(lambda F: adk_rate(F, ip, Z, l, m, c2), fields, wt)

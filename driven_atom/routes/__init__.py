@@ -49,6 +49,14 @@ def check_config(cfg: RunConfig) -> None:
     from driven_atom.pulse import build_pulse
 
     atom = cfg.build_atom()
+    if atom.model is not None:                   # a model atom's core shells are filled in the real atom
+        from driven_atom.basis.model_levels import is_core
+
+        for state, _ in cfg.initial_states():
+            if is_core(atom, state):
+                raise InputError(f"`atom.initial` {state.label!r} is a core shell of the {atom.model.name} model "
+                                 f"(filled in the real atom); its valence ground state is "
+                                 f"{atom.model.ground.label!r} (\"ground\")")
     pulse = build_pulse(cfg, atom)
     route_class(cfg.route).check(atom, pulse, cfg.initial_states(), cfg)
 

@@ -1,13 +1,26 @@
 """numba kernels of the grid route (nothing else lives here).
 
-Layout. The state is two float64 arrays ``pr``, ``pi`` (real and imaginary parts) of shape (N, L),
-C order: row i holds all partial waves at r_i = (i+1)·dr, so inner loops run across partial waves
-(SIMD) and the Thomas recurrences of all partial waves advance side by side along r. Within a
-row the columns are ordered even l first, then odd l: column p is l = 2p (p < ne = ⌈L/2⌉) and
-column ne + p is l = 2p + 1. The coupled pairs are then contiguous slices:
+Layout. The kernels take a few stacked float64 arrays, all C order, which
+:class:`driven_atom.routes.grid._Stepper` prepares once:
 
-* A pairs (2p, 2p+1): columns p and ne + p, p < no = ⌊L/2⌋;
-* B pairs (2p+1, 2p+2): columns ne + p and p + 1, p < nb = ⌈L/2⌉ − 1.
+* ``psi`` (2, N, L): the state, Re u = psi[0] and Im u = psi[1]. Row i holds all partial waves at
+  r_i = (i+1)·dr, so inner loops run across partial waves (SIMD) and the Thomas recurrences of all
+  partial waves advance side by side along r;
+* ``thomas`` (4, N, L): the Thomas factors of A⁺ (below), Re w, Im w, Re c′, Im c′;
+* ``rows`` (6, N), one entry per radial point: m_diag, d_diag, coul = −Z/r, invr2 = 1/r², m_off,
+  d_off (the off-diagonals (i, i+1) are N − 1 long and padded with a zero);
+* ``cols`` (3, L), one entry per column: m_first, d_first (the Numerov-corrected first rows, which
+  depend on l), cent = l(l+1)/2μ;
+* ``consts`` (3,): τ = dt/2, 1/2μ, dr;
+* ``coupling`` (2, P): the c_l of the A pairs in coupling[0, :na] and of the B pairs in
+  coupling[1, :nb], na = ⌊L/2⌋, nb = ⌈L/2⌉ − 1 (P ≥ max(na, nb, 1));
+* ``scratch`` = (carry, rot, stp): rows for the sweeps and the rotors (shapes on each kernel).
+
+Within a row the columns are ordered even l first, then odd l: column p is l = 2p (p < ne = ⌈L/2⌉)
+and column ne + p is l = 2p + 1. The coupled pairs are then contiguous slices:
+
+* A pairs (2p, 2p+1): columns p and ne + p, p < na;
+* B pairs (2p+1, 2p+2): columns ne + p and p + 1, p < nb.
 
 One time step of length dt at mid-step field E (Strang splitting, second order in dt):
 
@@ -16,43 +29,42 @@ One time step of length dt at mid-step field E (Strang splitting, second order i
                      C = Crank–Nicolson for H_l = −(1/2μ)M⁻¹Δ + V_l, τ = dt/2:
                      (M(1 + iτV) − iτΔ/2μ) ψ′ = (M(1 − iτV) + iτΔ/2μ) ψ.
 
-A⁺ = M(1 + iτV) − iτΔ/2μ is field free: its Thomas factors (``w`` = 1/b′, ``cp`` = c′ per row and
-column) are computed once (:func:`cn_factorize`); A⁻ = conj(A⁺) is formed on the fly from
+A⁺ = M(1 + iτV) − iτΔ/2μ is field free: its Thomas factors (w = 1/b′, c′ per row and column) are
+computed once (:func:`cn_factorize`); A⁻ = conj(A⁺) is formed on the fly from
 V[i, col] = cent[col]·invr2[i] + coul[i]. The forward sweep forms the right-hand side and eliminates.
 Both kernels write the result y over the state (row i of the right-hand side needs the original
-ψ_{i−1}, ψᵢ, ψ_{i+1}; ψ_{i−1} waits in a scratch row), so no second (N, L) pair is streamed. A row
-loop that writes one row of an (N, L) array and reads other rows of the same array stays scalar
-(the compiler hoists its overlap test out of the row loop, where it fails), so the forward sweep
-writes yᵢ into a scratch row and copies it (:func:`_forward_inplace`). The backward sweep
-substitutes and, row by row while the row is in cache, applies the closing rotations of this step
-(B then A), the edge mask, the per-step observables and the opening rotations of the next step
-(A then B). The rotation angle is linear in r, so the rotors cos θ + i sin θ follow a
-complex-multiply recurrence along r, re-seeded exactly every ``RESEED`` rows. No kernel allocates; :mod:`driven_atom.routes.grid` validates, allocates and converts layouts.
+ψ_{i−1}, ψᵢ, ψ_{i+1}; ψ_{i−1} waits in a scratch row), so no second state is streamed. A row loop
+that writes one row of an (N, L) array and reads other rows of the same array stays scalar (the
+compiler hoists its overlap test out of the row loop, where it fails), so the forward sweep writes
+yᵢ into a scratch row and copies it (:func:`_forward_inplace`). The backward sweep substitutes
+(:func:`_back_substitute`) and, row by row while the row is in cache, applies the closing rotations
+of this step (B then A), the edge mask, the per-step observables and the opening rotations of the
+next step (A then B). The rotation angle is linear in r, so the rotors cos θ + i sin θ follow a
+complex-multiply recurrence along r, re-seeded exactly every ``RESEED`` rows. No kernel allocates;
+:mod:`driven_atom.routes.grid` validates, allocates, stacks and converts layouts.
 """
 from __future__ import annotations
 
 import math
 
-import numba
 from numba import njit, prange
 
 RESEED = 128                      # rows between exact re-seeds of the rotor recurrence
 
-# Threads for the optional parallel path: workqueue needs no TBB/OpenMP and is enough for a
-# bandwidth-bound step (set before any parallel kernel is compiled or run).
-if numba.config.THREADING_LAYER == "default":
-    numba.config.THREADING_LAYER = "workqueue"
-
 
 @njit(cache=True, fastmath=False)
-def cn_factorize(m_diag, m_off, d_diag, d_off, m_first, d_first, cent, coul, invr2, tau, inv2mu,
-                 wr, wi, cr, ci):
+def cn_factorize(rows, cols, consts, thomas):
     """Thomas factors of A⁺ = M(1 + iτV) − iτΔ/(2μ) for every column, in place.
 
     Row 0 of column j uses ``m_first[j]``, ``d_first[j]`` (the corrected first rows); V[i, j] =
-    cent[j]·invr2[i] + coul[i]. Fills w = 1/b′ᵢ (``wr`` + i``wi``) and c′ᵢ = (upper)ᵢ/b′ᵢ (``cr`` +
-    i``ci``) of the standard tridiagonal elimination (A⁺ is diagonally dominant: no pivoting).
+    cent[j]·invr2[i] + coul[i]. Fills w = 1/b′ᵢ (``thomas[0]`` + i``thomas[1]``) and
+    c′ᵢ = (upper)ᵢ/b′ᵢ (``thomas[2]`` + i``thomas[3]``) of the standard tridiagonal elimination
+    (A⁺ is diagonally dominant: no pivoting).
     """
+    m_diag, d_diag, coul, invr2, m_off, d_off = rows[0], rows[1], rows[2], rows[3], rows[4], rows[5]
+    m_first, d_first, cent = cols[0], cols[1], cols[2]
+    tau, inv2mu = consts[0], consts[1]
+    wr, wi, cr, ci = thomas[0], thomas[1], thomas[2], thomas[3]
     n, nl = wr.shape
     for j in range(nl):
         prev_c = 0.0 + 0.0j
@@ -126,14 +138,18 @@ def _rotate(xr, xi, lo, hi, m, rc, rs, sc, ss):
 
 
 @njit(cache=True, fastmath=False)
-def rotate_all(pr, pi, field, h, dr, ca, cb, rot, stp):
-    """Opening half of a step on every row: A then B at field ``field``, time ``h``.
+def rotate_all(psi, field, consts, coupling, scratch):
+    """Opening half of a step on every row: A then B at field ``field`` over time τ = ``consts[0]``.
 
-    ``rot``, ``stp`` are (4, P) scratch (rows 0–1 used). Same recurrence and re-seeding as the
-    opening rotations inside :func:`propagate_chunk`, so a chunk boundary changes no bit.
+    Uses rows 0–3 of the (8, P) ``rot`` and ``stp`` of ``scratch``. Same recurrence and re-seeding
+    as the opening rotations inside :func:`propagate_chunk`, so a chunk boundary changes no bit.
     """
+    pr, pi = psi[0], psi[1]
+    h, dr = consts[0], consts[2]
+    _, rot, stp = scratch
     n, nl = pr.shape
     ne = (nl + 1) // 2
+    ca, cb = coupling[0, :nl // 2], coupling[1, :ne - 1]
     na, nb = ca.shape[0], cb.shape[0]
     ra, ia, sa, ta = rot[0], rot[1], stp[0], stp[1]
     rb, ib, sb, tb = rot[2], rot[3], stp[2], stp[3]
@@ -150,63 +166,72 @@ def rotate_all(pr, pi, field, h, dr, ca, cb, rot, stp):
 
 
 @njit(cache=True, fastmath=False)
-def _forward_edge_row(xmr, xmi, ymr, ymi, x0r, x0i, xpr, xpi, outr, outi, wr, wi, i, n, md_row,
-                      dd_row, m_off, d_off, cent, coul, invr2, tau, inv2mu, col):
-    """Right-hand side and elimination for one column of row 0 or row N−1 (with the edge cases).
+def _forward_edge_row(psi, thomas, rows, cols, consts, i, j0, j1, carry):
+    """Right-hand side and elimination of row 0 or row N−1 (with the edge cases), columns j0..j1−1.
 
-    Rows of the state: ``xm`` = ψ_{i−1} (read only if i > 0), ``x0`` = ψᵢ, ``xp`` = ψ_{i+1} (read
-    only if i < n − 1); ``ym`` = y_{i−1}; yᵢ goes to ``out`` (which may be ``x0``: column ``col``
-    of ``x0`` is read before it is written).
+    Reads ψ_{i−1} from ``carry[2:4]`` (only if i > 0), y_{i−1} from ``carry[4:6]``, ψᵢ and ψ_{i+1}
+    (only if i < N − 1) from ``psi``; writes yᵢ into ``carry[4:6]`` (column by column, each read
+    before it is written).
     """
-    v = cent[col] * invr2[i] + coul[i]
-    dim = -tau * (md_row * v - dd_row * inv2mu)
-    rr = md_row * x0r[col] - dim * x0i[col]
-    ri = md_row * x0i[col] + dim * x0r[col]
-    if i > 0:
-        vm = cent[col] * invr2[i - 1] + coul[i - 1]
-        lre = m_off[i - 1]
-        lim = -tau * (m_off[i - 1] * vm - d_off[i - 1] * inv2mu)
-        rr += lre * xmr[col] - lim * xmi[col] - (lre * ymr[col] + lim * ymi[col])
-        ri += lre * xmi[col] + lim * xmr[col] - (lre * ymi[col] - lim * ymr[col])
-    if i < n - 1:
-        vp = cent[col] * invr2[i + 1] + coul[i + 1]
-        ure = m_off[i]
-        uim = -tau * (m_off[i] * vp - d_off[i] * inv2mu)
-        rr += ure * xpr[col] - uim * xpi[col]
-        ri += ure * xpi[col] + uim * xpr[col]
-    outr[col] = rr * wr[i, col] - ri * wi[i, col]
-    outi[col] = rr * wi[i, col] + ri * wr[i, col]
+    m_diag, d_diag, coul, invr2, m_off, d_off = rows[0], rows[1], rows[2], rows[3], rows[4], rows[5]
+    m_first, d_first, cent = cols[0], cols[1], cols[2]
+    tau, inv2mu = consts[0], consts[1]
+    n = psi.shape[1]
+    hr, hi, yr, yi = carry[2], carry[3], carry[4], carry[5]
+    for j in range(j1 - j0):
+        col = j0 + j
+        md = m_first[col] if i == 0 else m_diag[i]
+        dd = d_first[col] if i == 0 else d_diag[i]
+        x0r = psi[0, i, col]
+        x0i = psi[1, i, col]
+        v = cent[col] * invr2[i] + coul[i]
+        dim = -tau * (md * v - dd * inv2mu)
+        rr = md * x0r - dim * x0i
+        ri = md * x0i + dim * x0r
+        if i > 0:
+            vm = cent[col] * invr2[i - 1] + coul[i - 1]
+            lre = m_off[i - 1]
+            lim = -tau * (m_off[i - 1] * vm - d_off[i - 1] * inv2mu)
+            rr += lre * hr[j] - lim * hi[j] - (lre * yr[j] + lim * yi[j])
+            ri += lre * hi[j] + lim * hr[j] - (lre * yi[j] - lim * yr[j])
+        if i < n - 1:
+            xpr = psi[0, i + 1, col]
+            xpi = psi[1, i + 1, col]
+            vp = cent[col] * invr2[i + 1] + coul[i + 1]
+            ure = m_off[i]
+            uim = -tau * (m_off[i] * vp - d_off[i] * inv2mu)
+            rr += ure * xpr - uim * xpi
+            ri += ure * xpi + uim * xpr
+        wr = thomas[0, i, col]
+        wi = thomas[1, i, col]
+        yr[j] = rr * wr - ri * wi
+        yi[j] = rr * wi + ri * wr
 
 
 @njit(cache=True, fastmath=False)
-def _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent, coul,
-                     invr2, tau, inv2mu, j0, j1, hr, hi, sr, si):
+def _forward_inplace(psi, thomas, rows, cols, consts, j0, j1, carry):
     """y = L⁻¹ A⁻ ψ for columns j0..j1−1 (all rows), written over ψ in those columns.
 
     When row i is formed, rows > i still hold ψ and rows < i hold y. The row loop reads the
-    state only: ``hr``, ``hi`` (≥ j1 − j0 long) carry the original ψ_{i−1}, ``sr``, ``si`` carry
-    y_{i−1} and receive yᵢ, which a second short loop copies into row i. (Written straight into
-    the state, yᵢ would share an array with the rows the loop reads, and the compiler's overlap
-    test, hoisted out of the row loop, would then keep the loop scalar.) Rows are taken as
+    state only: ``carry[2:4]`` (rows ≥ j1 − j0 long) hold the original ψ_{i−1}, ``carry[4:6]``
+    hold y_{i−1} and receive yᵢ, which a second short loop copies into row i. (Written straight
+    into the state, yᵢ would share an array with the rows the loop reads, and the compiler's
+    overlap test, hoisted out of the row loop, would then keep the loop scalar.) Rows are taken as
     slices pr[i, j0:j1], so the inner loops index from 0 over contiguous memory.
     """
+    pr, pi, wr, wi = psi[0], psi[1], thomas[0], thomas[1]
+    m_diag, d_diag, coul, invr2, m_off, d_off = rows[0], rows[1], rows[2], rows[3], rows[4], rows[5]
+    tau, inv2mu = consts[0], consts[1]
+    hr, hi, sr, si = carry[2], carry[3], carry[4], carry[5]
     n = pr.shape[0]
     m = j1 - j0
-    i1 = 1 if n > 1 else 0
-    cen = cent[j0:j1]
-    wrb = wr[:, j0:j1]
-    wib = wi[:, j0:j1]
+    cen = cols[2, j0:j1]
     x0r = pr[0, j0:j1]
     x0i = pi[0, j0:j1]
     for j in range(m):
         hr[j] = x0r[j]
         hi[j] = x0i[j]
-    xpr = pr[i1, j0:j1]
-    xpi = pi[i1, j0:j1]
-    for j in range(m):
-        _forward_edge_row(hr, hi, sr, si, hr, hi, xpr, xpi, sr, si, wrb, wib, 0, n,
-                          m_first[j0 + j], d_first[j0 + j], m_off, d_off, cen, coul, invr2, tau,
-                          inv2mu, j)
+    _forward_edge_row(psi, thomas, rows, cols, consts, 0, j0, j1, carry)
     for j in range(m):
         x0r[j] = sr[j]
         x0i[j] = si[j]
@@ -255,12 +280,28 @@ def _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_fi
             xr[j] = sr[j]
             xi[j] = si[j]
     if n > 1:
-        i = n - 1
-        xr = pr[i, j0:j1]
-        xi = pi[i, j0:j1]
+        _forward_edge_row(psi, thomas, rows, cols, consts, n - 1, j0, j1, carry)
+        xr = pr[n - 1, j0:j1]
+        xi = pi[n - 1, j0:j1]
         for j in range(m):
-            _forward_edge_row(hr, hi, sr, si, xr, xi, xr, xi, xr, xi, wrb, wib, i, n, m_diag[i],
-                              d_diag[i], m_off, d_off, cen, coul, invr2, tau, inv2mu, j)
+            xr[j] = sr[j]
+            xi[j] = si[j]
+
+
+@njit(cache=True, fastmath=False, inline="always")   # LLVM would not inline it into a prange body
+def _back_substitute(xr, xi, cpr, cpi, car, cai):
+    """One row of the backward sweep ψ′ᵢ = yᵢ − c′ᵢ ψ′ᵢ₊₁ over row slices: ``xr`` + i``xi`` holds
+    yᵢ and receives ψ′ᵢ, ``cpr`` + i``cpi`` = c′ᵢ, the carry ``car`` + i``cai`` holds ψ′ᵢ₊₁ (zero
+    below the last row) and receives ψ′ᵢ."""
+    for j in range(xr.shape[0]):
+        ar = car[j]
+        ai = cai[j]
+        vr = xr[j] - (cpr[j] * ar - cpi[j] * ai)
+        vi = xi[j] - (cpr[j] * ai + cpi[j] * ar)
+        car[j] = vr
+        cai[j] = vi
+        xr[j] = vr
+        xi[j] = vi
 
 
 @njit(cache=True, fastmath=False)
@@ -279,27 +320,29 @@ def _row_observables(xr, xi, ne, ca, cb):
 
 
 @njit(cache=True, fastmath=False)
-def propagate_chunk(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_first, d_first,
-                    cent, coul, invr2, tau, inv2mu, dr, ca, cb, fields, mask, i_abs, carry, rot,
-                    stp, out):
-    """Advance the state (``pr``, ``pi``) by ``len(fields)`` Strang steps (dt = 2τ) with mid-step
-    fields ``fields``; the state is the true one on entry and on exit.
+def propagate_chunk(psi, thomas, rows, cols, consts, coupling, fields, mask, i_abs, scratch, out):
+    """Advance the state ``psi`` by ``len(fields)`` Strang steps (dt = 2τ) with mid-step fields
+    ``fields``; the state is the true one on entry and on exit.
 
-    ``carry`` (6, L), ``rot``, ``stp`` (8, P) are scratch; y of the forward sweep lives in the
-    state arrays between the two sweeps (:func:`_forward_inplace`). After step k the state is multiplied by ``mask`` (rows ≥ ``i_abs``) and ``out[k]`` receives
-    (norm, ⟨r cosθ⟩, ⟨cosθ/r²⟩) of the masked state, ⟨f⟩ = Σᵢ f(rᵢ) Σ_l 2c_l Re(u*_{i,l} u_{i,l+1}).
+    ``scratch`` = (carry (6, L), rot (8, P), stp (8, P)); y of the forward sweep lives in the state
+    between the two sweeps (:func:`_forward_inplace`). After step k the state is multiplied by
+    ``mask`` (rows ≥ ``i_abs``) and ``out[k]`` receives (norm, ⟨r cosθ⟩, ⟨cosθ/r²⟩) of the masked
+    state, ⟨f⟩ = Σᵢ f(rᵢ) Σ_l 2c_l Re(u*_{i,l} u_{i,l+1}).
     """
+    pr, pi, cr, ci = psi[0], psi[1], thomas[2], thomas[3]
+    invr2 = rows[3]
+    h, dr = consts[0], consts[2]    # the rotations cover dt/2, which is also the Crank–Nicolson τ
+    carry, rot, stp = scratch
     n, nl = pr.shape
     ne = (nl + 1) // 2
+    ca, cb = coupling[0, :nl // 2], coupling[1, :ne - 1]
     na, nb = ca.shape[0], cb.shape[0]
     nsteps = fields.shape[0]
-    h = tau   # the rotations cover dt/2, which is also the Crank–Nicolson tau
     if nsteps == 0:
         return
-    rotate_all(pr, pi, fields[0], h, dr, ca, cb, rot, stp)
+    rotate_all(psi, fields[0], consts, coupling, scratch)
     for k in range(nsteps):
-        _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent,
-                         coul, invr2, tau, inv2mu, 0, nl, carry[2], carry[3], carry[4], carry[5])
+        _forward_inplace(psi, thomas, rows, cols, consts, 0, nl, carry)
         e_now = fields[k]
         last = k == nsteps - 1
         e_next = 0.0 if last else fields[k + 1]
@@ -320,17 +363,7 @@ def propagate_chunk(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_firs
             ri = (i + 1) * dr
             xr = pr[i]
             xi = pi[i]
-            c0r = cr[i]
-            c0i = ci[i]
-            for j in range(nl):
-                ar = car[j]
-                ai = cai[j]
-                vr = xr[j] - (c0r[j] * ar - c0i[j] * ai)
-                vi = xi[j] - (c0r[j] * ai + c0i[j] * ar)
-                car[j] = vr
-                cai[j] = vi
-                xr[j] = vr
-                xi[j] = vi
+            _back_substitute(xr, xi, cr[i], ci[i], car, cai)
             reseed = (n - 1 - i) % RESEED == 0
             if reseed:
                 _seed(rot[0], rot[1], e_now, h, ri, cb)
@@ -358,36 +391,39 @@ def propagate_chunk(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_firs
 
 
 @njit(cache=True, fastmath=False, parallel=True)
-def propagate_chunk_parallel(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_off, m_first,
-                             d_first, cent, coul, invr2, tau, inv2mu, dr, ca, cb, fields, mask, i_abs,
-                             carry, rot, stp, partial, cblock, rblock):
+def propagate_chunk_parallel(psi, thomas, rows, cols, consts, coupling, fields, mask, i_abs,
+                             scratch, partial, rblock):
     """The steps of :func:`propagate_chunk`, unfused, for several threads. ``partial[k, b]``
     (shape (nsteps, n_rblocks, 3)) receives row block b's share of step k's (norm, ⟨r cosθ⟩,
     ⟨cosθ/r²⟩); :func:`reduce_partial` adds the shares.
 
-    Per step: Crank–Nicolson for blocks of ``cblock`` columns in parallel, each block sweeping
-    in place like :func:`propagate_chunk` (``carry`` (n_cblocks, 6, cblock) scratch: the carry of
-    the backward sweep and the scratch rows of :func:`_forward_inplace`), then closing rotations,
-    mask, observables and the next opening rotations for blocks of ``rblock`` rows in parallel,
-    each block seeding its rotors exactly at its first row (``rot`` (n_rblocks, 8, P) scratch;
-    the rotor steps ``stp`` (8, P) are formed once per step and shared). Sums are reduced in a
-    fixed order, so the result does not depend on the number of threads.
+    ``scratch`` = (carry (n_cblocks, 6, cblock), rot (n_rblocks, 8, P), stp (8, P)). Per step:
+    Crank–Nicolson for blocks of ``cblock`` columns in parallel, each block sweeping in place like
+    :func:`propagate_chunk` (``carry[b]``: the carry of the backward sweep and the scratch rows of
+    :func:`_forward_inplace`), then closing rotations, mask, observables and the next opening
+    rotations for blocks of ``rblock`` rows in parallel, each block seeding its rotors exactly at
+    its first row (``rot[b]``; the rotor steps ``stp`` are formed once per step and shared). Sums
+    are reduced in a fixed order, so the result does not depend on the number of threads. Rows of
+    ``psi`` and ``thomas`` are taken inside the prange bodies (views taken outside ran slower).
     """
-    n, nl = pr.shape
+    invr2 = rows[3]
+    h, dr = consts[0], consts[2]
+    carry, rot, stp = scratch
+    n, nl = psi.shape[1], psi.shape[2]
     ne = (nl + 1) // 2
+    ca, cb = coupling[0, :nl // 2], coupling[1, :ne - 1]
     na, nb = ca.shape[0], cb.shape[0]
     nsteps = fields.shape[0]
-    h = tau
+    cblock = carry.shape[2]
     ncb = (nl + cblock - 1) // cblock
     nrb = (n + rblock - 1) // rblock
-    st = stp
     for k in range(nsteps + 1):
         if k > 0:                 # rotor steps: the same for every row block, formed once
-            _steps(st[0], st[1], fields[k - 1], h, dr, cb)
-            _steps(st[2], st[3], fields[k - 1], h, dr, ca)
+            _steps(stp[0], stp[1], fields[k - 1], h, dr, cb)
+            _steps(stp[2], stp[3], fields[k - 1], h, dr, ca)
         if k < nsteps:
-            _steps(st[4], st[5], fields[k], h, dr, ca)
-            _steps(st[6], st[7], fields[k], h, dr, cb)
+            _steps(stp[4], stp[5], fields[k], h, dr, ca)
+            _steps(stp[6], stp[7], fields[k], h, dr, cb)
         for rb in prange(nrb):
             i1 = min(n, (rb + 1) * rblock)
             i0 = rb * rblock
@@ -404,11 +440,11 @@ def propagate_chunk_parallel(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_of
                 _seed(rt[4], rt[5], e, h, i1 * dr, ca)
                 _seed(rt[6], rt[7], e, h, i1 * dr, cb)
             for i in range(i1 - 1, i0 - 1, -1):
-                xr = pr[i]
-                xi = pi[i]
+                xr = psi[0, i]
+                xi = psi[1, i]
                 if k > 0:
-                    _rotate(xr, xi, ne, 1, nb, rt[0], rt[1], st[0], st[1])
-                    _rotate(xr, xi, 0, ne, na, rt[2], rt[3], st[2], st[3])
+                    _rotate(xr, xi, ne, 1, nb, rt[0], rt[1], stp[0], stp[1])
+                    _rotate(xr, xi, 0, ne, na, rt[2], rt[3], stp[2], stp[3])
                     if i >= i_abs:
                         mk = mask[i]
                         for j in range(nl):
@@ -419,8 +455,8 @@ def propagate_chunk_parallel(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_of
                     pz += (i + 1) * dr * rz
                     pc += invr2[i] * rz
                 if k < nsteps:
-                    _rotate(xr, xi, 0, ne, na, rt[4], rt[5], st[4], st[5])
-                    _rotate(xr, xi, ne, 1, nb, rt[6], rt[7], st[6], st[7])
+                    _rotate(xr, xi, 0, ne, na, rt[4], rt[5], stp[4], stp[5])
+                    _rotate(xr, xi, ne, 1, nb, rt[6], rt[7], stp[6], stp[7])
             if k > 0:
                 partial[k - 1, rb, 0] = pn
                 partial[k - 1, rb, 1] = pz
@@ -430,29 +466,16 @@ def propagate_chunk_parallel(pr, pi, wr, wi, cr, ci, m_diag, m_off, d_diag, d_of
         for cb_ in prange(ncb):
             j0 = cb_ * cblock
             j1 = min(nl, j0 + cblock)
-            m = j1 - j0
             cy = carry[cb_]
-            _forward_inplace(pr, pi, wr, wi, m_diag, m_off, d_diag, d_off, m_first, d_first, cent,
-                             coul, invr2, tau, inv2mu, j0, j1, cy[2], cy[3], cy[4], cy[5])
+            _forward_inplace(psi, thomas, rows, cols, consts, j0, j1, cy)
             car = cy[0]
             cai = cy[1]
-            for j in range(m):
+            for j in range(j1 - j0):
                 car[j] = 0.0
                 cai[j] = 0.0
             for i in range(n - 1, -1, -1):
-                xr = pr[i, j0:j1]
-                xi = pi[i, j0:j1]
-                c0r = cr[i, j0:j1]
-                c0i = ci[i, j0:j1]
-                for j in range(m):
-                    ar = car[j]
-                    ai = cai[j]
-                    vr = xr[j] - (c0r[j] * ar - c0i[j] * ai)
-                    vi = xi[j] - (c0r[j] * ai + c0i[j] * ar)
-                    car[j] = vr
-                    cai[j] = vi
-                    xr[j] = vr
-                    xi[j] = vi
+                _back_substitute(psi[0, i, j0:j1], psi[1, i, j0:j1], thomas[2, i, j0:j1],
+                                 thomas[3, i, j0:j1], car, cai)
 
 
 @njit(cache=True, fastmath=False)

@@ -137,6 +137,32 @@ def slice_ends(times: np.ndarray, max_slice: float | None, quantum: float | None
     return ends
 
 
+@dataclass(frozen=True)
+class Knob:
+    """One numerical setting: its current value, the refined and coarsened values (refinement by a
+    factor 2 in the error's variable), the order p of its error (None: faster than any power) and
+    the cost of the refined run relative to the current one."""
+
+    name: str
+    value: float
+    refine: float
+    coarsen: float | None
+    order: float | None
+    cost: float
+
+    def predicted_error(self, change: float) -> float:
+        """Error at the current value from the change on refinement: change/(1 − 2^−p)."""
+        if self.order is None:
+            return abs(change)
+        return abs(change) / (1 - 2.0 ** -self.order)
+
+    def coarse_error(self, change: float) -> float | None:
+        """Predicted error at the coarsened value (known order only): error·2^p."""
+        if self.order is None or self.coarsen is None:
+            return None
+        return self.predicted_error(change) * 2.0**self.order
+
+
 class Route:
     """Base class of the propagation routes (see the module docstring for the contract)."""
 
@@ -305,7 +331,7 @@ class Route:
 
     @classmethod
     def knobs(cls, settings) -> list:
-        """The numerical knobs of a convergence study (:class:`driven_atom.convergence.Knob`)."""
+        """The numerical knobs of a convergence study (:class:`Knob`; :mod:`driven_atom.convergence`)."""
         return []
 
     @classmethod
@@ -321,15 +347,17 @@ class Route:
         coarse companion run); run-time guards stop it all the same."""
         from driven_atom import stopping
 
-        wall0 = time.perf_counter()
+        wall0, cpu0 = time.perf_counter(), time.process_time()
         self.check(self.atom, self.pulse, self.initial)
         self._check_resources(max_hours)
         with stopping.stop_on_signals():
             self._prepare()
+            checked = time.perf_counter()
             checks = list(self.preflight())
             if strict:
                 refuse_if_hard(checks, when="before the run")
             prepared = time.perf_counter()
+            self.stats["preflight_s"] = prepared - checked
             self._stop_if_asked(None, None, 0, self.t_start, None, None)
             every = self.output.every_au if self.output is not None else None
             times = sample_times(self.t_start, self.t_end, every, self.time_quantum)
@@ -374,7 +402,7 @@ class Route:
         if strict:
             refuse_if_hard(checks, when="after the run")
         return self._result(outcome, history, checks, {
-            "wall_s": time.perf_counter() - wall0, "prepare_s": prepared - wall0,
+            "wall_s": time.perf_counter() - wall0, "cpu_s": time.process_time() - cpu0, "prepare_s": prepared - wall0,
             "propagate_s": propagated - prepared, "samples": int(times.size),
             "resumed": resumed_at is not None, "resumed_at_au": resumed_at, "checkpoints_written": saved})
 

@@ -41,11 +41,12 @@ from __future__ import annotations
 import numpy as np
 
 from driven_atom.errors import InputError
-from driven_atom.routes.base import Outcome, Route
+from driven_atom.routes.base import Knob, Outcome, Route
 from driven_atom.routes.krylov import Coupling, KrylovFailure
 from driven_atom.settings import BasisSettings
 
 HISTORY_N_MAX = 4          # bound levels with n <= this get a population history
+MODEL_DR_Z = 0.36          # a model atom's uniform grid needs dr <= this over Z (its core; see routes.grid)
 SLICE_AU = 50.0            # longest stretch advanced between looks at the clock (a.u. of time)
 
 
@@ -155,13 +156,29 @@ def _basis_m(initial) -> int:
     return ms.pop()
 
 
+def _reference_energies(atom, n, l) -> np.ndarray:
+    """Exact −Z²μ/(2n²), or a model atom's converged levels (NaN beyond its reference box)."""
+    if atom.model is None:
+        return -atom.Z**2 * atom.reduced_mass / (2.0 * n**2)
+    from driven_atom.basis.model_levels import bound_states
+
+    out = np.full(n.size, np.nan)
+    for k, (nk, lk) in enumerate(zip(n, l)):
+        energies = bound_states(atom, int(lk))[0]
+        i = int(nk) - int(lk) - 1
+        if i < energies.size:
+            out[k] = energies[i]
+    return out
+
+
 def _hydrogenic_n(basis, atom, rtol: float = 1e-3) -> int:
-    """Largest n up to which every bound state of the basis has its hydrogenic energy within
-    ``rtol``; higher box states are distorted by the wall and are reported only as a sum."""
+    """Largest n up to which every bound state of the basis has its hydrogenic energy (a model
+    atom: its converged level) within ``rtol``; higher box states are distorted by the wall and
+    are reported only as a sum."""
     bound = basis.bound
     if not bound.any():
         return 0
-    exact = -atom.Z**2 * atom.reduced_mass / (2.0 * basis.n[bound] ** 2)
+    exact = _reference_energies(atom, basis.n[bound], basis.l[bound])
     bad = basis.n[bound][np.abs(basis.energies[bound] / exact - 1) > rtol]
     return int(bad.min() - 1 if bad.size else basis.n[bound].max())
 
@@ -189,14 +206,17 @@ class BasisRoute(Route):
     def check(cls, atom, pulse, initial, cfg=None) -> None:
         super().check(atom, pulse, initial, cfg)
         _basis_m(initial)
+        if cfg is not None and atom.model is not None and cfg.solver.dr_min is None \
+                and atom.Z * cfg.solver.dr > MODEL_DR_Z:
+            raise InputError(f"`solver.dr_min` is needed for the {atom.model.name} model (nuclear charge {atom.Z}): "
+                             f"a stretched grid fine at the core, e.g. dr_min = 0.002 (or a uniform "
+                             f"`solver.dr` <= {MODEL_DR_Z / atom.Z:.3g} bohr)")
 
     resource_fix = "lower `solver.r_max` or raise `solver.dr`, or lower `solver.l_max`"
 
     @classmethod
     def knobs(cls, settings) -> list:
         """dr (energies ∝ dr⁴), the step tolerance (error ∝ tolerance), r_max, l_max and e_max."""
-        from driven_atom.convergence import Knob
-
         return [Knob("dr", settings.dr, settings.dr / 2**0.5, settings.dr * 2**0.5, 4, 2.8),
                 Knob("tolerance", settings.tolerance, settings.tolerance / 2, min(2 * settings.tolerance, 5e-3), 1, 1.3),
                 Knob("r_max", settings.r_max, 1.5 * settings.r_max, None, None, 3.4),
@@ -267,16 +287,19 @@ class BasisRoute(Route):
 
     def preflight(self) -> list:
         """The initial states' energies in this basis against the exact −Z²μ/(2n²) (Bethe &
-        Salpeter 1957): a box too small for the state or a grid too coarse shows here first."""
+        Salpeter 1957), for a model atom against its level converged on the reference grid
+        (:mod:`driven_atom.basis.model_levels`): a box too small for the state or a grid too coarse
+        shows here first."""
         from driven_atom.routes.quality import assess
 
         atom, s = self.atom, self.settings
         worst, too_small = 0.0, False
         for state, _ in self.initial:
-            exact = -atom.Z**2 * atom.reduced_mass / (2 * state.n**2)
+            exact = float(_reference_energies(atom, np.array([state.n]), np.array([state.l]))[0])
             energy = float(self.basis.energies[self.basis.index(state)])
             worst = max(worst, abs(energy / exact - 1))
-            too_small |= s.r_max < 4 * state.n**2 / (atom.Z * atom.reduced_mass)   # twice the turning point
+            size = state.n**2 / (atom.Z * atom.reduced_mass) if atom.model is None else 1 / (2 * abs(exact))
+            too_small |= s.r_max < 4 * size                                        # twice the turning point
         if too_small:
             fix = f"raise `solver.r_max` (the state reaches beyond the box of {s.r_max:g} bohr)"
         else:

@@ -1,8 +1,10 @@
-"""Few-level route: master-equation dynamics of chosen hydrogenic sublevels (qutip 5).
+"""Few-level route: master-equation dynamics of chosen sublevels of a hydrogen-like or model atom (qutip 5).
 
 The model holds the m-sublevels |n l m> named in ``[solver] states`` ("2p" expands to 2p-1, 2p0,
 2p1; "2p0" is that sublevel only) with the exact energies E_n = -Z²μ/(2n²) and the dipole matrix
-elements <i|r_q|j> of :mod:`driven_atom.atom.dipoles`. The field couples them in the length gauge,
+elements <i|r_q|j> of :mod:`driven_atom.atom.dipoles` (a model atom: its converged levels and radial
+dipoles, :mod:`driven_atom.basis.model_levels`, or with ``energies = "measured"`` the measured level
+energies). The field couples them in the length gauge,
 H_int = E(t)·r = Σ_q e_q(E) r_q with e_{±1} = (∓E_x + iE_y)/√2, e_0 = E_z (any polarisation).
 
 * ``rwa = false``: the full coupling E(t)·r with E(t) from :mod:`driven_atom.pulse`, in the lab frame.
@@ -22,8 +24,9 @@ Dissipation (Lindblad form, Gorini–Kossakowski–Sudarshan 1976; Lindblad 1976
 * ``dephasing`` γ: operators √γ P_E (projector on all sublevels of one energy); every coherence
   between sublevels of different energy decays at the rate γ (a rate: "1 GHz" means 1e9 s⁻¹).
 * ``ionization_loss``: each sublevel j is emptied into the sink ``"ionized"`` at the rate
-  σ_nl(ω) I(t)/ω of each pulse, with the m-averaged cross section of
-  :func:`driven_atom.atom.photoionization.cross_section` at the carrier ω and the cycle-averaged
+  σ_j(ω) I(t)/ω of each pulse, with the sublevel's own cross section for that light
+  (:func:`driven_atom.atom.photoionization.cross_section_sublevel`, its polarisation's spherical
+  components weighted) at the carrier ω and the cycle-averaged
   intensity I(t) = c|ℰ(t)|²/(8π) (a.u.). The sink populations and the model add up to 1 (``norm``).
 
 Real level structure (``[atom] structure`` = "fine" or "hyperfine", or ``two_photon``; docs/physics.md):
@@ -56,9 +59,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from driven_atom.atom.dipoles import spherical_coefficients
-from driven_atom.atom.states import State
+from driven_atom.atom.states import State, parse_state
 from driven_atom.errors import InputError
-from driven_atom.routes.base import Outcome, Route
+from driven_atom.routes.base import Knob, Outcome, Route
 from driven_atom.routes.structured_model import (build_structured_model, dressed_populations, expand_states,
                                                  initial_density, is_structured)
 from driven_atom.settings import LevelsSettings
@@ -107,37 +110,42 @@ class LevelModel:
         return R
 
 
-def build_model(atom, states, *, decay: bool = True, ionization_sink: bool = False) -> LevelModel:
+def build_model(atom, states, *, decay: bool = True, ionization_sink: bool = False,
+                measured: bool = False) -> LevelModel:
     """Energies, dipoles and decay channels of the sublevels ``states`` (each with m given).
 
     The part of a level's total rate 1/τ not carried by channels inside the model goes to the
-    sink "elsewhere" (only present when that part is > 1e-9 of the total).
+    sink "elsewhere" (only present when that part is > 1e-9 of the total). A model atom
+    (``atom.model``) takes its levels, radial dipoles and rates from its converged eigenstates
+    (:mod:`driven_atom.basis.model_levels`); ``measured`` puts the measured level energies (NIST ASD,
+    fine-structure centroids, where the data file has them) in place of the model's, and the
+    Einstein A then scale with the measured ω³.
 
     >>> from driven_atom.atom import Atom
     >>> m = build_model(Atom(1), [State(1, 0, 0), State(2, 1, 0), State(3, 0, 0)])
     >>> m.labels, round(float(abs(m.dipoles[1, 1, 0])), 6)   # <2p0|z|1s> = 2^7 √2/3^5
     (['1s0', '2p0', '3s0', 'elsewhere'], 0.744936)
     """
-    from driven_atom.atom.dipoles import dipole_matrix_element, einstein_A, lifetime
-    from driven_atom.atom.levels import energy
+    from driven_atom.atom.dipoles import angular_factor
 
     states = tuple(states)
+    levels = _LevelSource(atom, measured)
     N = len(states)
-    energies = np.array([energy(atom, s.n) for s in states], dtype=float)
+    energies = np.array([levels.energy(s) for s in states], dtype=float)
     dip = np.zeros((3, N, N), dtype=complex)
     for i, si in enumerate(states):
         for j, sj in enumerate(states):
             q = si.m - sj.m
             if abs(si.l - sj.l) == 1 and abs(q) <= 1:
-                dip[q + 1, i, j] = dipole_matrix_element(atom, si, sj, q)
+                dip[q + 1, i, j] = angular_factor(si.l, si.m, sj.l, sj.m, q) * levels.radial(si, sj)
     channels, outside = [], []
     if decay:
         for u, su in enumerate(states):
-            total = 1.0 / lifetime(atom, su)
+            total = levels.total_rate(su)
             inside = 0.0
             for l, sl in enumerate(states):
                 if energies[l] < energies[u] and abs(su.l - sl.l) == 1 and abs(su.m - sl.m) <= 1:
-                    rate = float(einstein_A(atom, su, sl))
+                    rate = levels.rate(su, sl)
                     if rate > 0:
                         channels.append((u, l, rate))
                         inside += rate
@@ -146,6 +154,63 @@ def build_model(atom, states, *, decay: bool = True, ionization_sink: bool = Fal
     sinks = ((ELSEWHERE,) if outside else ()) + ((IONIZED,) if ionization_sink else ())
     channels += [(u, N, rate) for u, rate in outside]
     return LevelModel(states, energies, dip, tuple(channels), sinks)
+
+
+class _LevelSource:
+    """Level energies, radial dipoles and decay rates of a hydrogen-like atom (closed forms of
+    :mod:`driven_atom.atom`) or of a model atom (its eigenstates, with measured energies on request).
+
+    A(u m_u → l m_l) = (4/3) α³ ω³ Σ_q |⟨l m_l|r_q|u m_u⟩|² (Bethe & Salpeter 1957, §59); a model
+    atom's levels never decay into its core (shells occupied in the real atom)."""
+
+    def __init__(self, atom, measured: bool):
+        self.atom, self.measured = atom, measured
+
+    def energy(self, s) -> float:
+        if self.atom.model is None:
+            from driven_atom.atom.levels import energy
+
+            return float(energy(self.atom, s.n))
+        from driven_atom.basis import model_levels
+
+        found = model_levels.measured_energy(self.atom, s) if self.measured else None
+        return float(model_levels.energy(self.atom, s) if found is None else found)
+
+    def radial(self, a, b) -> float:
+        if self.atom.model is None:
+            from driven_atom.atom.dipoles import radial_dipole
+
+            return float(radial_dipole(self.atom, a.n, a.l, b.n, b.l))
+        from driven_atom.basis import model_levels
+
+        return model_levels.radial_dipole(self.atom, a.level, b.level)
+
+    def rate(self, upper, lower) -> float:
+        """A of one sublevel channel (1/a.u. time)."""
+        from driven_atom.atom.dipoles import angular_factor, einstein_A
+
+        if self.atom.model is None:
+            return float(einstein_A(self.atom, upper, lower))
+        from driven_atom.basis import model_levels
+        from driven_atom.units import ALPHA
+
+        omega = self.energy(upper) - self.energy(lower)
+        if omega <= 0 or model_levels.is_core(self.atom, lower):
+            return 0.0
+        angular = sum(angular_factor(lower.l, lower.m, upper.l, upper.m, q) ** 2 for q in (-1, 0, 1))
+        return 4.0 / 3.0 * ALPHA**3 * omega**3 * angular * self.radial(upper, lower) ** 2
+
+    def total_rate(self, s) -> float:
+        """1/τ of the level of ``s`` (all lower levels, inside the model or not)."""
+        if self.atom.model is None:
+            from driven_atom.atom.dipoles import lifetime
+
+            return 1.0 / lifetime(self.atom, s)
+        from driven_atom.basis import model_levels
+
+        upper = State(s.n, s.l, s.m if s.m is not None else 0)
+        return sum(self.rate(upper, State(low.n, low.l, m))
+                   for low in model_levels.lower_levels(self.atom, s) for m in range(-low.l, low.l + 1))
 
 
 # --- time-dependent terms ----------------------------------------------------------------------
@@ -250,18 +315,52 @@ def _full_terms(model: LevelModel, pulse) -> FieldTerms:
     return FieldTerms(hamiltonian, [], values, len(active), top, [], [])
 
 
-def _add_ionization(terms: FieldTerms, model: LevelModel, atom, pulse) -> None:
-    """Loss of every sublevel j to "ionized" at σ_j(ω_k) c|ℰ_k|²/(8π ω_k) for each pulse k."""
-    from driven_atom.atom.photoionization import cross_section
+def sublevel_cross_sections(atom, states, comp) -> list[float]:
+    """σ_j(ω) of each sublevel |n l m⟩ for the light of one pulse component: the m-resolved cross
+    sections of its spherical components q, weighted by |e_q|²/|ε|² (linear z light: q = 0 only;
+    the m-average of these is the level's σ of :func:`~driven_atom.atom.photoionization.cross_section`).
+    Fine and hyperfine components (|n l j m_j⟩, |F m_F⟩) take their level's m-averaged σ."""
+    from driven_atom.atom.photoionization import cross_section, cross_section_sublevel
 
+    e_q = spherical_coefficients(comp.jones)
+    weights = np.abs(e_q) ** 2 / float(np.sum(np.abs(e_q) ** 2))
+    one_sublevel = cross_section_sublevel if atom.model is None else model_atom_cross_section_sublevel
+
+    def sigma(s) -> float:
+        if not isinstance(s, State) or s.m is None:    # a fine/hyperfine component: the level's σ
+            return float(cross_section(atom, s.n, s.l, comp.omega))
+        return float(sum(w * one_sublevel(atom, s, comp.omega, q)
+                         for w, q in zip(weights, (-1, 0, 1)) if w > 0))
+
+    return [sigma(s) for s in states]
+
+
+def model_atom_cross_section_sublevel(atom, state, omega: float, q: int = 0) -> float:
+    """σ of the sublevel |n l m⟩ of a model atom for light of spherical component q (bohr²):
+    σ = 4π²αω Σ_{L = l±1} |⟨L m+q|C¹_q|l m⟩|² |∫u_{EL} r u_{nl} dr|², energy-normalised continuum
+    (the m-resolved form of :func:`driven_atom.basis.model_levels.cross_section`, whose average
+    over m and q it is); 0 below the model's threshold."""
+    from driven_atom.atom.dipoles import angular_factor
+    from driven_atom.basis import model_levels
+    from driven_atom.units import ALPHA
+
+    radial = model_levels.partial_dipoles(atom, state.level, omega)
+    m = 0 if state.m is None else state.m
+    total = sum(angular_factor(L, m + q, state.l, m, q) ** 2 * float(I[0]) ** 2
+                for L, I in radial.items() if L >= abs(m + q))
+    return 4.0 * math.pi**2 * ALPHA * omega * total
+
+
+def _add_ionization(terms: FieldTerms, model: LevelModel, atom, pulse) -> None:
+    """Loss of every sublevel j to "ionized" at σ_j(ω_k) c|ℰ_k|²/(8π ω_k) for each pulse k, with the
+    sublevel's own cross section for that light (:func:`sublevel_cross_sections`)."""
     sink = model.labels.index(IONIZED)
     base_values, base_rows = terms.values, terms.n_rows
     pulses = []
     for k, comp in enumerate(pulse.components):
         if comp.omega == 0:
             continue
-        per_level = {s.level: float(cross_section(atom, s.n, s.l, comp.omega)) for s in model.states}
-        sigma = [per_level[s.level] for s in model.states]
+        sigma = sublevel_cross_sections(atom, model.states, comp)
         ops = []
         for j, sj in enumerate(sigma):
             if sj > 0:
@@ -605,6 +704,22 @@ def _solver(size: int, H0, c_ops, terms: FieldTerms, settings: LevelsSettings, k
     return qt.MESolver(L, options=options), "mesolve"
 
 
+def _check_model_atom(atom, labels, two_photon: bool) -> None:
+    """A model atom's levels: no two-photon elimination (its sums are hydrogenic), no core shell
+    (occupied in the real atom), every level converged in the model's reference box."""
+    from driven_atom.basis import model_levels
+
+    if two_photon:
+        raise InputError(f"`solver.two_photon` takes hydrogen-like atoms only; for `atom.species` = "
+                         f"{atom.species!r} put the intermediate levels in `solver.states` (or use route \"basis\")")
+    for label in labels:
+        s = parse_state(label, name="solver.states")
+        model_levels.energy(atom, s)                     # refuses a level beyond the reference box
+        if model_levels.is_core(atom, s):
+            raise InputError(f"`solver.states`: {s.level.label} of {atom.species} is a core shell (filled in the real "
+                             f"atom, below the valence ground state {atom.model.ground.label})")
+
+
 def _structured_states(atom, labels, structure: str) -> list:
     """The model's sublevels (checks labels, F values and repeats: one line naming `solver.states`)."""
     from driven_atom.atom.structure import nuclear_spin2
@@ -645,6 +760,11 @@ class LevelsRoute(Route):
         the classical ionisation field Z³μ²/(16 n⁴) of the highest shell (the model keeps each shell's
         Stark mixing only)."""
         super().check(atom, pulse, initial, cfg)
+        if atom.model is not None and cfg is not None:
+            _check_model_atom(atom, cfg.solver.states, cfg.solver.two_photon)
+        elif cfg is not None and cfg.solver.energies == "measured":
+            raise InputError("`solver.energies` = \"measured\" is for a model atom (`atom.species`); a hydrogen-like "
+                             "atom's measured levels are `atom.structure` = \"fine\" or \"hyperfine\"")
         if cfg is not None and is_structured(cfg.atom.structure, cfg.solver.two_photon):
             model_states = _structured_states(atom, cfg.solver.states, cfg.atom.structure)
             n_top = max(st.n for st in model_states)
@@ -655,10 +775,11 @@ class LevelsRoute(Route):
                                  f"and field ionisation, left out of the model, matter")
         if pulse is None:
             return
-        from driven_atom.atom.levels import energy
-
-        ip = min(-energy(atom, s.n) for s, _ in initial)
-        f_bs = ip**2 / (4 * atom.Z)
+        measured = cfg is not None and cfg.solver.energies == "measured"
+        levels = _LevelSource(atom, measured)
+        ip = min(-levels.energy(s) for s, _ in initial)
+        charge = atom.Z if atom.model is None else atom.model.charge      # the ion's charge seen far out
+        f_bs = ip**2 / (4 * charge)
         total = sum(c.peak_field * abs(c.jones).max() for c in pulse.components)
         if total > f_bs:
             i = max(range(len(pulse.components)), key=lambda j: pulse.components[j].peak_field)
@@ -694,7 +815,10 @@ class LevelsRoute(Route):
         if self.structured:
             self._prepare_structured()
             return
-        self.model = build_model(self.atom, s.sublevels(), decay=s.decay, ionization_sink=s.photoionization)
+        if self.atom.model is not None:
+            _check_model_atom(self.atom, s.states, s.two_photon)
+        self.model = build_model(self.atom, s.sublevels(), decay=s.decay, ionization_sink=s.photoionization,
+                                 measured=s.energies == "measured")
         self._window()
         t0 = self.t_start
         self.norm_tolerance = max(1e-6, 1e4 * s.rtol)      # the ODE solver keeps the trace to about this
@@ -743,8 +867,6 @@ class LevelsRoute(Route):
     @classmethod
     def knobs(cls, settings) -> list:
         """The ODE tolerances (errors ∝ tolerance); the kept states are a model choice, not a knob."""
-        from driven_atom.convergence import Knob
-
         return [Knob("rtol", settings.rtol, settings.rtol / 2, 2 * settings.rtol, 1, 1.2),
                 Knob("atol", settings.atol, settings.atol / 2, 2 * settings.atol, 1, 1.2)]
 
