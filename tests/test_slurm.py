@@ -42,6 +42,9 @@ def _why_not() -> str | None:
         return f"sinfo does not answer: {exc}"
     if out.returncode != 0 or any(state in out.stdout for state in ("down", "drain", "fail", "unk")):
         return f"the local SLURM is not ready: {(out.stderr or out.stdout).strip()[:200]}"
+    cpus = subprocess.run(["sinfo", "--noheader", "--format=%c"], capture_output=True, text=True, timeout=20)
+    if cpus.returncode != 0 or int((cpus.stdout.split() or ["0"])[0].rstrip("+")) < 2:
+        return "the local SLURM has fewer than 2 CPUs: the tests need two one-core workers running side by side"
     return None
 
 
