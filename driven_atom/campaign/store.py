@@ -8,6 +8,7 @@ Layout of a campaign folder ``DIR``::
                              or the record of a failed job (complete = False, status, error)
     DIR/jobs/<id>.ckpt.h5    the checkpoint of an unfinished job (its own file: a complete result is
                              never rewritten)
+    DIR/jobs/<id>.mM.part.h5 a finished sublevel run of an m-averaged job, until the sum is written
     DIR/jobs/<id>.running    while a worker runs the job: JSON {pid, host, started}
     DIR/jobs/.*.tmp          a file being written (left over only by a killed writer)
     DIR/jobs/<id>.h5.corrupt a job file found unreadable, kept aside for inspection (job re-run)
