@@ -61,3 +61,13 @@ def test_far_from_the_lines_the_estimate_is_not_resonant():
     out = da.estimate(wavelength="600 nm", **LAB)
     assert out["regime"] == "multiphoton" and out["resonance"] is None
     assert "no one-photon line" in out["why"]
+
+
+def test_check_refuses_a_fine_structure_line_in_one_line(capsys):
+    from driven_atom.cli import main
+
+    argv = ["estimate", "--species", "Na", "--wavelength", f"{D2_NM} nm", "--pulse-energy", "1 uJ", "--fwhm",
+            "10 ns", "--waist", "500 um", "--pressure", "1e-6 Torr", "--length", "2 mm", "--check"]
+    assert main(argv) == 2
+    err = [line for line in capsys.readouterr().err.splitlines() if not line.startswith("CAUTION")]
+    assert len(err) == 1 and "fine-structure component" in err[0]

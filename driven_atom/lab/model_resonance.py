@@ -131,5 +131,4 @@ def line_data(case, line, coupled):
         rate = float(ppt_rate(field, omega, binding, atom.model.charge, upper.l, uppers[0].m)) / AU_TIME_S
         note = f"{m_ion} photons (PPT rate of {upper.label} at the peak field)"
     tau = 1 / decay if decay > 0 else math.inf
-    label = uppers[0].label + (f" (j = {int(2 * line.j)}/2)" if line.j is not None else "")
-    return LineData(line, 1, rabi, shift, decay, min(max(back, 0.0), 1.0), rate, m_ion, note, label, tau)
+    return LineData(line, 1, rabi, shift, decay, min(max(back, 0.0), 1.0), rate, m_ion, note, uppers[0].label, tau)
