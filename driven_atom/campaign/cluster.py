@@ -262,7 +262,10 @@ def check_walltime(spec: ClusterSpec, jobs) -> None:
 
     longest, which = 0.0, None
     for job in jobs:
-        seconds = build_route(read_config(job.config)).estimate_resources()[1]
+        cfg = read_config(job.config)
+        seconds = build_route(cfg).estimate_resources()[1]
+        if seconds is not None:         # an m-averaged job runs its sublevels one after the other
+            seconds *= len(cfg.m_parts() or [None])
         if seconds is not None and seconds > longest:
             longest, which = float(seconds), job.id
     usable = spec.walltime_s - spec.warning_s
