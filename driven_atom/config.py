@@ -35,6 +35,7 @@ from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError,
 
 from driven_atom.atom.components import check_label
 from driven_atom.atom.species import Atom
+from driven_atom.atom.states import State
 from driven_atom.errors import InputError, short, validation_message
 from driven_atom.io import read_regular_text
 from driven_atom.quantities import Flag, Integer, Number, Quantity
@@ -329,6 +330,27 @@ class RunConfig(_Section):
         """The initial state as a normalised list of (State, complex amplitude)."""
         return self.atom.initial_states()
 
+    def unpolarised_p_level(self):
+        """The p level (m = None) a model atom starts in when no sublevel is named ("ground" of Ar:
+        3p; "3p" of Na written without m), else None."""
+        if self.atom.species is None or not isinstance(self.atom.initial, str):
+            return None
+        state = self.atom._label(self.atom.initial)
+        return state if state.l == 1 and state.m is None else None
+
+    def m_parts(self) -> list | None:
+        """The runs whose weighted sum is the result: [(initial states, weight, m)], or None for one run.
+
+        A model atom's p level without m (the hole of a filled p shell, or an unpolarised excited
+        p level) has its sublevels m = −1, 0, 1 equally occupied: linear polarisation along z
+        conserves m and the runs of m = ±1 are equal, so the average is (P(m=0) + 2 P(|m|=1))/3
+        (single-active-electron practice; Tong & Lin, J. Phys. B 38, 2593 (2005)) — made on the
+        routes that propagate any m (the others take m = 0 and say so in the result)."""
+        level = self.unpolarised_p_level()
+        if level is None or not type(self.solver).PROPAGATES_ANY_M:
+            return None
+        return [([(State(level.n, 1, m), 1.0 + 0j)], weight, m) for m, weight in ((0, 1 / 3), (1, 2 / 3))]
+
     # -- text ---------------------------------------------------------------------------------------
     def to_dict(self) -> dict:
         """The config as the user wrote it (units and spelling kept; absent keys absent)."""
@@ -348,6 +370,8 @@ class RunConfig(_Section):
                         "structure": self.atom.structure}
         if atom.model is not None:                   # the potential's identity (hydrogen-like ids unchanged)
             atom_physics["species"] = atom.model.key
+        if self.m_parts() is not None:               # the m-averaged result of a p level (other ids unchanged)
+            atom_physics["m_average"] = True
         return _canonical({"hash_version": HASH_VERSION,
                            "atom": atom_physics,
                            "fields": self.fields.model_dump(mode="json"),

@@ -3,6 +3,7 @@
 * :class:`InputError` — bad user input; the command line prints its message on one line, exit 2.
 * :class:`Refused` — a preflight refusal (the run would be wrong or would not fit); exit 2.
 * :class:`Interrupted` — a run stopped by a signal after writing its checkpoint; exit 128 + signal.
+* :class:`WorkersLost` — a campaign on a batch system with no worker left and none coming; exit 4.
 * :func:`short` — user text cut for messages; :func:`validation_message` — one line from a
   pydantic ``ValidationError`` (pydantic itself is not imported here).
 """
@@ -39,6 +40,17 @@ class Interrupted(BaseException):
     @property
     def exit_code(self) -> int:
         return 128 + self.signum
+
+
+class WorkersLost(RuntimeError):
+    """A campaign on a batch system stopped because no worker is left and none is coming (or none
+    has started for the set time). Finished jobs are kept, the others stay pending; exit code 4.
+
+    >>> WorkersLost("no worker left").exit_code
+    4
+    """
+
+    exit_code = 4
 
 
 def short(text, limit: int = MESSAGE_ECHO) -> str:

@@ -151,7 +151,7 @@ or a route: levels, basis, grid).
 A *quantity* takes a string with units (`"800 nm"`, `"10 fs"`, `"1e14 W/cm^2"`) or a plain number in
 atomic units of its unit kind; ranges are in atomic units. Unknown keys are refused with a "did you
 mean". Scans (`[scan]`) and clusters (`[cluster]`) are described in `driven_atom/campaign/scan.py` and
-`driven_atom/campaign/executors.py` and in the README.
+`driven_atom/campaign/cluster.py` and in the README.
 """
 
 

@@ -53,6 +53,7 @@ class RouteSettings(BaseModel):
 
     model_config = ConfigDict(extra="forbid", frozen=True)
     NOT_PHYSICS: ClassVar[frozenset] = frozenset()
+    PROPAGATES_ANY_M: ClassVar[bool] = False     # the route propagates an initial state of any one m
 
     route: str
 
@@ -143,6 +144,7 @@ class BasisSettings(RouteSettings):
     """``[solver]`` of route ``basis``: bound + box-continuum eigenstates, Magnus propagation."""
 
     NOT_PHYSICS: ClassVar[frozenset] = frozenset({"cache_dir", "checkpoint_every"})
+    PROPAGATES_ANY_M: ClassVar[bool] = True
 
     route: Literal["basis"] = Field("basis", description="this route")
     r_max: Quantity("length", gt=0) = Field(200.0, description="box radius (bohr); sets the continuum "

@@ -86,6 +86,8 @@ _EXPONENT = r"(?:\*\*|\^)\s*(?:[+-]?\d{1,2}(?:\.\d{1,3})?|\(\s*[+-]?\d{1,2}(?:\.
 _FACTOR = rf"(?:{_UNIT_NAME}|\(\s*{_UNIT_NAME}(?:\s*[*/ ]\s*{_UNIT_NAME})*\s*\))(?:\s*{_EXPONENT})?"
 _UNIT = re.compile(rf"^(?:1?\s*/\s*)?{_FACTOR}(?:\s*(?:[*/]|\s)\s*{_FACTOR})*$")
 MAX_QUANTITY_TEXT = 120
+# "cm2", "cm-3", "um2": a metre with an SI prefix and a one-digit power written straight after it
+_LENGTH_POWER = re.compile(r"(?<![A-Za-z0-9_.])((?:[kcmunp\u00b5\u03bc]?m))(-?[1-4])(?![0-9.])")
 
 
 class UnitError(ValueError):
@@ -164,12 +166,17 @@ def split_quantity(text: str) -> tuple[float, str]:
 
     >>> split_quantity("1e14 W/cm^2")
     (100000000000000.0, 'W/cm^2')
+
+    A length with its power written straight after it, as lab notes do, is that power:
+
+    >>> split_quantity("1e14 W/cm2"), split_quantity("1e9 cm-3"), split_quantity("1500 cm-1")
+    ((100000000000000.0, 'W/cm^2'), (1000000000.0, 'cm^-3'), (1500.0, 'cm^-1'))
     """
     text = str(text)
     match = _NUMBER.match(text) if len(text) <= MAX_QUANTITY_TEXT else None
     if not match:
         raise UnitError("could not be read as a quantity")
-    magnitude, unit = float(match.group(1)), match.group(2)
+    magnitude, unit = float(match.group(1)), _LENGTH_POWER.sub(r"\1^\2", match.group(2))
     if unit and not _UNIT.match(unit):
         raise UnitError("could not be read as a quantity")
     return magnitude, unit

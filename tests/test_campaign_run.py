@@ -263,7 +263,7 @@ def test_a_lost_worker_fails_its_job_and_a_broken_pool_stops(tmp_path, standin, 
 @pytest.mark.parametrize("table, key", [({"system": "lsf"}, "cluster.system"), ({"nodes": 3}, "cluster.nodes"),
                                         ({"workers": 0}, "cluster.workers")])
 def test_bad_cluster_tables_name_the_key(table, key):
-    from driven_atom.campaign.executors import cluster_options
+    from driven_atom.campaign.cluster import cluster_options
 
     with pytest.raises(InputError, match=key.replace(".", r"\.")):
         cluster_options(table)
@@ -364,15 +364,18 @@ def test_cluster_table_makes_a_valid_slurm_job_script():
     import dask_jobqueue
 
     from driven_atom.routes import load_config
-    from driven_atom.campaign.executors import cluster_options
+    from driven_atom.campaign.cluster import cluster_class, cluster_options
 
-    system, workers, kwargs = cluster_options(load_config(REPO / "configs" / "cluster_example.toml").cluster)
-    assert (system, workers) == ("slurm", 32)
-    with dask_jobqueue.SLURMCluster(**kwargs, scheduler_options={"host": "127.0.0.1", "dashboard_address": None}) \
-            as cluster:
+    spec = cluster_options(load_config(REPO / "configs" / "cluster_example.toml").cluster)
+    assert (spec.system, spec.workers, spec.batch_jobs) == ("slurm", 32, 4)
+    cls = cluster_class("slurm")
+    assert issubclass(cls, dask_jobqueue.SLURMCluster)
+    with cls(**spec.kwargs, scheduler_options={"host": "127.0.0.1", "dashboard_address": None}) as cluster:
         script = cluster.job_script()
     assert "#SBATCH -p hollow" in script and "export OMP_NUM_THREADS=1" in script
     assert "--nworkers 8" in script and "--nthreads 1" in script    # 8 single-threaded workers per batch job
+    # the early warning and the handlers that turn it into checkpoints
+    assert "#SBATCH --signal=B:TERM@120" in script and "--preload-nanny driven_atom.campaign.worker_signals" in script
 
 
 def test_killed_grid_job_resumes_from_its_checkpoint(tmp_path):

@@ -128,6 +128,9 @@ def test_argon_on_the_grid_route_runs_and_its_acceleration_is_the_dipoles_second
                        "solver": {"route": "grid", "r_max": 40.0, "l_max": 12}, "output": {"every": "2 au"}})
     res = run_config(cfg, tmp_path / "ar.h5")
     assert 1e-6 < res.ionization < 0.1 and res.norm <= 1.0 and res.populations["3p"] > 0.9
+    # the grid propagates m = 0 only: the result says that it is not the atom's m-average
+    assert res.metadata["m_average"]["weights"] == {"0": 1.0}
+    assert any("taken as its sublevel m = 0" in w for w in res.warnings)
     steps = res.spectra["dipole_response"]
     z, dt = steps["dipole_z"], steps["time"][1] - steps["time"][0]
     second = (z[2:] - 2 * z[1:-1] + z[:-2]) / dt**2

@@ -133,3 +133,15 @@ def test_lab_quantities_refused_in_one_line(value, kind, phrase):
     with pytest.raises(InputError) as info:
         units.to_si(value, kind, name="the_key")
     assert "`the_key`" in str(info.value) and phrase in str(info.value) and "\n" not in str(info.value)
+
+
+@pytest.mark.parametrize("lab, canonical, kind", [("1e14 W/cm2", "1e14 W/cm^2", "intensity"),
+                                                  ("3 J/cm2", "3 J/cm^2", "fluence"),
+                                                  ("1e9 cm-3", "1e9 cm^-3", "density"),
+                                                  ("1500 cm-1", "1500 cm^-1", "energy")])
+def test_a_power_written_straight_after_a_length_is_that_power(lab, canonical, kind):
+    from driven_atom.units import to_au
+
+    assert to_au(lab, kind) == to_au(canonical, kind)
+    # against pint with the power spelt out (common practice: "cm2" is cm squared in lab notes)
+    assert to_au(lab, kind) == pytest.approx(to_au(units.registry().Quantity(canonical), kind), rel=1e-12)

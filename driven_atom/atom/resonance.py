@@ -57,6 +57,7 @@ class Line:
     uppers: tuple
     line_energy: float            # E_upper − E_lower (hartree)
     photon_energy: float          # the laser's ω (hartree)
+    j: float | None = None        # the upper fine-structure level j, for a line resolved in j
 
     @property
     def detuning(self) -> float:
@@ -80,8 +81,9 @@ class Line:
 
     @property
     def label(self) -> str:
-        """"1s-2p", "1s-3s/3d" (levels of one energy joined by "/")."""
-        return f"{self.lower.level.label}-{'/'.join(s.label for s in self.uppers)}"
+        """"1s-2p", "1s-3s/3d" (levels of one energy joined by "/"), "3s-3p3/2" (one j)."""
+        j = "" if self.j is None else f"{int(2 * self.j)}/2"
+        return f"{self.lower.level.label}-{'/'.join(s.label for s in self.uppers)}{j}"
 
     def as_dict(self) -> dict:
         return {"line": self.label, "photons": self.photons, "line_energy_eV": self.line_energy * HARTREE_EV,

@@ -239,8 +239,6 @@ def stretched_grid(r_max, dr_min, dr_max, r_stretch) -> StretchedGrid:
     >>> round(float(g.r[1] - g.r[0]), 3), round(float(g.r[-1] - g.r[-2]), 3), g.r_max >= 200.0
     (0.02, 0.2, True)
     """
-    from scipy.optimize import brentq
-
     from driven_atom.units import to_au
 
     r_max = to_au(r_max, "length", name="r_max")
@@ -251,11 +249,31 @@ def stretched_grid(r_max, dr_min, dr_max, r_stretch) -> StretchedGrid:
         raise InputError(f"`dr_min` must be > 0 and < dr = {dr_max:g} bohr, got {dr_min!r}")
     if not 0 < r_stretch < r_max / 2:
         raise InputError(f"`r_stretch` must be > 0 and < r_max/2 = {r_max / 2:g} bohr, got {r_stretch!r}")
-    w = brentq(lambda w: StretchedGrid(dr_min, dr_max, w, 1)._g(w) - r_stretch,
-               r_stretch / dr_max, r_stretch / dr_min * 2)
+    w = _bisect(lambda w: StretchedGrid(dr_min, dr_max, w, 1)._g(w) - r_stretch,
+                r_stretch / dr_max, r_stretch / dr_min * 2)
     grid = StretchedGrid(dr_min, dr_max, w, 1)
-    n = int(brentq(lambda x: grid._g(x) - r_max, 1.0, r_max / dr_min + 1.0))
+    n = int(_bisect(lambda x: grid._g(x) - r_max, 1.0, r_max / dr_min + 1.0))
     return StretchedGrid(dr_min, dr_max, w, n + 1)
+
+
+def _bisect(f, lo: float, hi: float) -> float:
+    """The root of ``f`` between ``lo`` and ``hi`` (a sign change), by bisection to the last bits
+    (scipy.optimize would cost the light commands half a second of import for two roots).
+
+    >>> round(_bisect(lambda x: x * x - 2.0, 0.0, 2.0), 15)
+    1.414213562373095
+    """
+    f_lo = float(f(lo))
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if mid in (lo, hi):
+            break
+        f_mid = float(f(mid))
+        if (f_mid < 0) == (f_lo < 0):
+            lo, f_lo = mid, f_mid
+        else:
+            hi = mid
+    return 0.5 * (lo + hi)
 
 
 def stretched_hamiltonian(grid: StretchedGrid, l: int, atom) -> np.ndarray:

@@ -5,17 +5,9 @@
   loads in the worker). On Linux a worker is killed when the scan process dies, so a killed scan
   leaves no orphan still writing job files.
 * :func:`dask_client` — a ``distributed.Client``: to a running scheduler (``--scheduler
-  ADDRESS``), to a new ``LocalCluster`` (``--dask-local N``, one thread per worker), or to a
-  dask-jobqueue SLURM/PBS cluster described by the config's ``[cluster]`` table::
-
-      [cluster]
-      system = "slurm"          # slurm | pbs
-      workers = 16              # worker processes in total (one job thread each)
-      cores = 4                 # cores (= worker processes) per batch job
-      memory = "8 GB"           # per batch job
-      walltime = "04:00:00"
-      queue = "short"           # optional; also account, prologue (shell lines), options (table
-                                # passed unchanged to the dask-jobqueue cluster class)
+  ADDRESS``) or to a new ``LocalCluster`` (``--dask-local N``, one thread per worker).
+* the config's ``[cluster]`` table: a dask-jobqueue SLURM/PBS cluster whose lost batch jobs are
+  replaced (:mod:`driven_atom.campaign.cluster`).
 
 The campaign code only needs ``submit`` and "as completed": :class:`Runner` adapts both kinds.
 Dask and dask-jobqueue are imported only when used.
@@ -28,15 +20,10 @@ from __future__ import annotations
 import concurrent.futures as cf
 import contextlib
 import os
-import shutil
 import sys
 
+from driven_atom.campaign.cluster import THREAD_VARIABLES, open_cluster
 from driven_atom.errors import InputError
-
-THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")
-SUBMIT_COMMAND = {"slurm": "sbatch", "pbs": "qsub"}
-FROM_USER_ONLY = ("prologue", "options")     # shell lines and raw arguments: never read from a campaign folder
-_CLUSTER_KEYS = {"system", "workers", "cores", "memory", "walltime", "queue", "account", "prologue", "options"}
 
 
 def _one_thread() -> None:
@@ -105,14 +92,16 @@ def _request_stop(signum: int) -> None:
 
 
 class Runner:
-    """``submit``, ``wait``, ``cancel`` and ``signal_workers`` over a futures executor or a Dask client."""
+    """``submit``, ``wait``, ``cancel`` and ``signal_workers`` over a futures executor or a Dask client;
+    ``watch``: the :class:`~driven_atom.campaign.cluster.WorkerWatch` of a [cluster] (else None)."""
 
-    def __init__(self, executor):
+    def __init__(self, executor, *, watch=None):
         if not (isinstance(executor, cf.Executor) or _is_dask_client(executor)):
             raise InputError("`executor` must be a concurrent.futures.Executor or a distributed.Client, "
                              f"got {type(executor).__name__}")
         self.executor = executor
         self.is_dask = _is_dask_client(executor)
+        self.watch = watch
 
     def submit(self, fn, *args, key: str | None = None):
         if self.is_dask:
@@ -169,46 +158,9 @@ class Runner:
                 pass
 
 
-def cluster_options(table: dict) -> tuple[str, int, dict]:
-    """``[cluster]`` -> (system, number of worker processes, dask-jobqueue keyword arguments).
-
-    >>> cluster_options({"system": "slurm", "workers": 8, "cores": 4, "memory": "8 GB",
-    ...                  "walltime": "01:00:00"})[2]["processes"]
-    4
-    """
-    unknown = set(table) - _CLUSTER_KEYS
-    if unknown:
-        raise InputError(f"unknown key `cluster.{sorted(unknown)[0]}` (allowed: {', '.join(sorted(_CLUSTER_KEYS))})")
-    system = table.get("system", "slurm")
-    if system not in ("slurm", "pbs"):
-        raise InputError(f"`cluster.system` must be \"slurm\" or \"pbs\", got {system!r}")
-    workers, cores = table.get("workers", 1), table.get("cores", 1)
-    for key, value in (("workers", workers), ("cores", cores)):
-        check_count(value, f"cluster.{key}")
-    prologue = [f"export {name}=1" for name in THREAD_VARIABLES] + list(table.get("prologue", []))
-    kwargs = {"cores": cores, "processes": cores, "memory": table.get("memory", f"{2 * cores} GB"),
-              "walltime": table.get("walltime", "01:00:00"), "job_script_prologue": prologue}
-    for key in ("queue", "account"):
-        if key in table:
-            kwargs[key] = table[key]
-    kwargs.update(table.get("options", {}))
-    return system, workers, kwargs
-
-
-def check_cluster(table: dict) -> tuple[str, int, dict]:
-    """:func:`cluster_options`, and the scheduler's submit command present on this machine
-    (checked before anything is written or submitted)."""
-    system, workers, kwargs = cluster_options(table)
-    submit = SUBMIT_COMMAND[system]
-    if shutil.which(submit) is None:
-        raise InputError(f"`cluster.system` = {system!r} submits with `{submit}`, which is not installed on this "
-                         f"machine: run the scan on the cluster's login node, or use --workers N here")
-    return system, workers, kwargs
-
-
 @contextlib.contextmanager
-def dask_client(*, scheduler: str | None = None, local_workers: int | None = None, cluster: dict | None = None):
-    """A ``distributed.Client`` for one of: a scheduler address, a LocalCluster, a jobqueue cluster."""
+def dask_client(*, scheduler: str | None = None, local_workers: int | None = None):
+    """A ``distributed.Client`` to a scheduler address or to a new LocalCluster."""
     import dask
     from distributed import Client, LocalCluster
 
@@ -239,33 +191,23 @@ def dask_client(*, scheduler: str | None = None, local_workers: int | None = Non
                 else:
                     os.environ[name] = value
         return
-    if cluster is not None:
-        system, workers, kwargs = check_cluster(cluster)
-        try:
-            import dask_jobqueue
-        except ImportError:
-            raise InputError("[cluster] needs dask-jobqueue: pip install 'driven-atom[cluster]'") from None
-        cls = {"slurm": dask_jobqueue.SLURMCluster, "pbs": dask_jobqueue.PBSCluster}[system]
-        with cls(**kwargs) as jq:
-            jq.scale(workers)
-            with Client(jq) as client:
-                yield client
-        return
-    raise InputError("dask_client needs one of `--scheduler`, `--dask-local` or a [cluster] table")
+    raise InputError("dask_client needs one of `--scheduler` or `--dask-local`")
 
 
 @contextlib.contextmanager
-def open_runner(executor=None, *, workers: int | None = None, cluster: dict | None = None, n_jobs: int = 1):
-    """The :class:`Runner` for ``scan``: the caller's executor, a [cluster], or a local pool.
+def open_runner(executor=None, *, workers: int | None = None, cluster=None, n_jobs: int = 1, log_folder=None):
+    """The :class:`Runner` for ``scan``: the caller's executor, a [cluster] (a checked
+    :class:`~driven_atom.campaign.cluster.ClusterSpec`; worker logs in ``log_folder``), or a
+    local pool.
 
     A caller's executor or client is used as is and left open; pools and clusters made here are
-    shut down on exit.
+    shut down on exit (a cluster's batch jobs cancelled).
     """
     if executor is not None:
         yield Runner(executor)
     elif cluster is not None and workers is None:
-        with dask_client(cluster=cluster) as client:
-            yield Runner(client)
+        with open_cluster(cluster, log_folder=log_folder) as (client, watch):
+            yield Runner(client, watch=watch)
     else:
         n = workers if workers is not None else max(1, min(default_workers(), n_jobs))
         pool = local_pool(n)

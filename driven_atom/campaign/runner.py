@@ -27,7 +27,10 @@ def run_job(job_id: str, config: dict, folder: str, cache_dir: str | None = None
 
     Outcomes: done; failed (recorded in the job file with its traceback); interrupted (a stop
     signal: the job's checkpoint is written, it stays pending); storage (the disk is full or the
-    folder read-only: nothing recorded, the campaign stops)."""
+    folder read-only: nothing recorded, the campaign stops). In a batch-job worker that a stop
+    signal told to leave (:mod:`~driven_atom.campaign.worker_signals`) an interrupted job goes back
+    to the Dask scheduler instead (``distributed.Reschedule``), which gives it to another worker."""
+    from driven_atom.campaign import worker_signals
     from driven_atom.errors import Interrupted
     from driven_atom.io import StorageError
     from driven_atom.routes import load_config, run_config
@@ -39,6 +42,10 @@ def run_job(job_id: str, config: dict, folder: str, cache_dir: str | None = None
         run_config(load_config(config), path, progress=False, cache_dir=cache_dir)
         return {"id": job_id, "status": store.DONE, "wall_s": time.perf_counter() - started}
     except Interrupted as exc:
+        if worker_signals.leaving():
+            from distributed import Reschedule
+
+            raise Reschedule() from None
         return {"id": job_id, "status": INTERRUPTED, "error": str(exc), "signum": exc.signum}
     except StorageError as exc:
         return {"id": job_id, "status": STORAGE, "error": exc.strerror or str(exc)}
@@ -53,6 +60,7 @@ def run_job(job_id: str, config: dict, folder: str, cache_dir: str | None = None
 
 
 INTERRUPTED, STORAGE = "interrupted", "storage"
+WORKER_LOGS = "worker-logs"  # the batch-job logs of a [cluster] campaign, inside its folder
 GRACE_S = 60.0              # how long a stopping scan waits for its running jobs to checkpoint
 MAX_JOBS = 10_000           # larger scans need yes=True (--yes)
 
@@ -79,20 +87,26 @@ def scan(config, out, *, executor=None, workers: int | None = None, retry_failed
     SIGTERM, SIGUSR1 or SIGINT stop it cleanly: no new job starts, the running ones write their
     checkpoints and stay pending, and :class:`~driven_atom.errors.Interrupted` is raised (the next
     scan resumes them). A full disk stops it with :class:`~driven_atom.io.StorageError`.
-    Raises :class:`InputError` when another scan holds the folder.
+    Raises :class:`InputError` when another scan holds the folder. On a [cluster], lost batch jobs
+    are replaced (:mod:`driven_atom.campaign.cluster`); with no worker left and none coming it
+    stops with :class:`~driven_atom.errors.WorkersLost`.
     """
     from driven_atom import stopping
-    from driven_atom.campaign.executors import check_cluster, check_count
+    from driven_atom.campaign.cluster import check_cluster, check_walltime
+    from driven_atom.campaign.executors import check_count
     from driven_atom.campaign.scan import expand
 
     if workers is not None:
         check_count(workers, "--workers")
     cfg = campaign_config(config)
+    cluster = None
     if executor is None and workers is None and cfg.cluster is not None:
-        check_cluster(cfg.cluster)
+        cluster = check_cluster(cfg.cluster)
     folder = check_folder(out)
     plan = expand(cfg, max_jobs=None if yes else max_jobs, progress=progress)   # every job checked here
     jobs = plan.unique_jobs()
+    if cluster is not None:
+        check_walltime(cluster, jobs)
     with store.CampaignLock(folder) as lock, stopping.stop_on_signals():
         if not lock.supported:
             import warnings
@@ -113,7 +127,7 @@ def scan(config, out, *, executor=None, workers: int | None = None, retry_failed
                 failed += 1
             else:
                 todo.append(job)
-        _run_all(todo, folder, executor=executor, workers=workers, cluster=cfg.cluster,
+        _run_all(todo, folder, executor=executor, workers=workers, cluster=cluster,
                  progress=progress, total=len(jobs), initial=done, failed=failed,
                  cache_dir=None if cache_dir is None else str(Path(cache_dir).resolve()), lock=lock)
     return folder
@@ -129,17 +143,20 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
 
     from driven_atom import stopping
     from driven_atom.campaign.executors import open_runner
-    from driven_atom.errors import Interrupted
+    from driven_atom.errors import Interrupted, WorkersLost
     from driven_atom.io import StorageError
 
     if not todo:
         return
     bar = tqdm(total=total, initial=initial, unit="job", desc="scan", disable=not progress, dynamic_ncols=True)
-    stop, storage, interrupted = None, None, 0
+    stop, storage, interrupted, finished_here, noted = None, None, 0, 0, None
     try:
-        with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo)) as runner:
-            if lock is not None:
-                lock.note(workers=runner.workers)     # for the ETA of `driven-atom status`
+        with open_runner(executor, workers=workers, cluster=cluster, n_jobs=len(todo),
+                         log_folder=Path(folder).resolve() / WORKER_LOGS) as runner:
+            if runner.watch is not None:
+                bar.write(f"driven-atom scan: {runner.watch.describe_start()}", file=sys.stderr)
+            if lock is not None:               # for the ETA of `driven-atom status`
+                lock.note(workers=runner.workers if cluster is None else cluster.workers)
             where = str(Path(folder).resolve())          # workers on other nodes have another cwd
             tag = hashlib.sha256(where.encode()).hexdigest()[:8]   # Dask keys: one per job and folder
             futures = {runner.submit(run_job, job.id, job.config, where, cache_dir,
@@ -149,7 +166,7 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
             while pending:
                 finished, pending = runner.wait(pending, timeout=0.5)
                 for future in finished:
-                    outcome = _outcome(future, futures[future], folder)
+                    outcome = _outcome(future, futures.pop(future), folder)   # released once read
                     if outcome["status"] == store.FAILED:
                         failed += 1
                         bar.write(f"driven-atom scan: job {outcome['id']} failed: {outcome['error']}", file=sys.stderr)
@@ -159,8 +176,19 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
                     elif outcome["status"] == STORAGE:
                         storage = storage or outcome["error"]
                         continue
-                    bar.set_postfix(failed=failed, refresh=False)
+                    finished_here += 1
                     bar.update(1)
+                if runner.watch is not None and deadline is None:
+                    try:
+                        runner.watch.poll()
+                    finally:
+                        for line in runner.watch.events:
+                            bar.write(f"driven-atom scan: {line}", file=sys.stderr)
+                        runner.watch.events.clear()
+                        if runner.watch.state() != noted and lock is not None:
+                            noted = runner.watch.state()
+                            lock.note(cluster=noted)     # what `driven-atom status` shows of the workers
+                bar.set_postfix_str(_postfix(failed, runner.watch), refresh=False)
                 signum = stopping.requested()
                 if (signum is not None or storage is not None) and deadline is None:
                     stop = signum
@@ -170,6 +198,10 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
                         runner.signal_workers(signum)     # running: checkpoint now and stop
                 if deadline is not None and time.monotonic() > deadline:
                     break
+    except WorkersLost as exc:
+        left = len(todo) - finished_here
+        raise WorkersLost(f"{exc}; {left} job(s) stay pending, finished jobs are kept: run the same command "
+                          f"again to resume") from None
     finally:
         bar.close()
     if storage is not None:
@@ -178,6 +210,12 @@ def _run_all(todo, folder, *, executor, workers, cluster, progress, total, initi
         raise Interrupted(stop, f"scan stopped by signal {stop}: {interrupted} running job(s) checkpointed "
                                 f"(the others had not started propagating), finished jobs kept; run the same "
                                 f"command again to resume")
+
+
+def _postfix(failed: int, watch) -> str:
+    """The progress line's tail: "failed=0" and, on a [cluster], "2 workers lost, 2 requested"."""
+    lost = watch.summary() if watch is not None else ""
+    return f"failed={failed}" + (f", {lost}" if lost else "")
 
 
 def _outcome(future, job, folder) -> dict:

@@ -8,10 +8,12 @@ Layout of a campaign folder ``DIR``::
                              or the record of a failed job (complete = False, status, error)
     DIR/jobs/<id>.ckpt.h5    the checkpoint of an unfinished job (its own file: a complete result is
                              never rewritten)
+    DIR/jobs/<id>.mM.part.h5 a finished sublevel run of an m-averaged job, until the sum is written
     DIR/jobs/<id>.running    while a worker runs the job: JSON {pid, host, started}
     DIR/jobs/.*.tmp          a file being written (left over only by a killed writer)
     DIR/jobs/<id>.h5.corrupt a job file found unreadable, kept aside for inspection (job re-run)
     DIR/scan.lock            held (flock) by the one `driven-atom scan` working on the folder
+    DIR/worker-logs/         on a [cluster]: the output of the worker batch jobs
     DIR/summary.h5           the collected table (netCDF via h5netcdf), DIR/summary.csv on request
 
 A job is in one of these states: ``done`` (complete, readable, checksum and physics hash = job id),
@@ -69,7 +71,7 @@ def write_plan(folder, plan) -> Path:
     from driven_atom.campaign.scan import axis_table
     from driven_atom.result import provenance
 
-    from driven_atom.campaign.executors import FROM_USER_ONLY
+    from driven_atom.campaign.cluster import FROM_USER_ONLY
 
     config = dict(plan.base)
     if "cluster" in config:            # shell lines are never stored where others can edit them
@@ -403,6 +405,8 @@ def campaign_status(folder) -> dict:
     or corrupt job), ``trustworthy``, ``values`` (axis path -> value in the units of ``axes``:
     the user's, plain numbers of a quantity in its atomic unit, named),
     ``index`` (grid position) and ``points`` (grid points of equal physics it stands for).
+    ``cluster``: the worker batch jobs of a running scan on a [cluster] (alive, lost, requested;
+    else None).
     """
     plan = read_plan(folder)
     lock = CampaignLock(folder)
@@ -424,7 +428,8 @@ def campaign_status(folder) -> dict:
                      "points": count})
     walls = [j["wall_s"] for j in jobs if j["wall_s"] is not None and j["status"] == DONE]
     untrustworthy = sum(1 for j in jobs if j["status"] == DONE and j["trustworthy"] is False)
-    workers = lock.holder().get("workers") if active else None
+    holder = lock.holder()
+    workers = holder.get("workers") if active else None
     mean_wall = sum(walls) / len(walls) if walls else None
     eta = eta_seconds(mean_wall, counts[PENDING], counts[RUNNING], workers) if active else None
     from driven_atom.campaign.scan import unit_label
@@ -434,4 +439,5 @@ def campaign_status(folder) -> dict:
             for path, axis in plan.get("axes", {}).items()}
     return {"folder": str(folder), "total": len(jobs), **counts, "untrustworthy": untrustworthy,
             "scan_active": active, "wall_s_total": float(sum(walls)), "wall_s_mean": mean_wall,
-            "eta_s": eta, "workers": workers, "axes": axes, "jobs": jobs}
+            "eta_s": eta, "workers": workers, "cluster": holder.get("cluster") if active else None,
+            "axes": axes, "jobs": jobs}

@@ -93,11 +93,12 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv=None) -> int:
     """Run one command; exit codes: 0 done, 1 a check failed or a file could not be written (disk
-    full, read-only), 2 bad input or a refused run, 3 a scan that ended with failed jobs,
-    128 + signal when a signal stopped a run after its checkpoint."""
+    full, read-only), 2 bad input or a refused run, 3 a scan that ended with failed jobs, 4 a
+    campaign on a batch system that lost all its workers (jobs stay pending), 128 + signal when a
+    signal stopped a run after its checkpoint."""
     import warnings
 
-    from driven_atom.errors import Interrupted, one_line, short
+    from driven_atom.errors import Interrupted, WorkersLost, one_line, short
     from driven_atom.io import StorageError
 
     def warn(message, category, filename, lineno, file=None, line=None):  # noqa: ARG001
@@ -123,6 +124,9 @@ def main(argv=None) -> int:
         return 2
     except Interrupted as exc:
         sys.stderr.write(f"driven-atom: {one_line(exc)}\n")
+        return exc.exit_code
+    except WorkersLost as exc:
+        sys.stderr.write(f"driven-atom: error: {one_line(exc)}\n")
         return exc.exit_code
     except KeyboardInterrupt:
         sys.stderr.write("driven-atom: interrupted\n")

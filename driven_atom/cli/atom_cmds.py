@@ -10,41 +10,38 @@ STRUCTURE_HELP = ("level structure: bohr (reduced-mass Bohr levels, the default)
                   "recoil and the Lamb shift) or hyperfine (also the magnetic hyperfine structure)")
 
 
-def _add_structure(parser) -> None:
-    parser.add_argument("--structure", choices=("bohr", "fine", "hyperfine"), default="bohr", help=STRUCTURE_HELP)
+def _add_atom_flags(parser, *, structure: bool) -> None:
+    """The atom's options every atom command takes (and ``--structure`` where it applies)."""
+    from driven_atom.cli import add_atom_options, add_common
+
+    if structure:
+        parser.add_argument("--structure", choices=("bohr", "fine", "hyperfine"), default="bohr",
+                            help=STRUCTURE_HELP)
+    add_atom_options(parser)
+    add_common(parser)
+    _add_species(parser)
 
 
 def register(subparsers) -> None:
-    from driven_atom.cli import add_atom_options, add_common
-
     p = subparsers.add_parser("lines", help="series lines: vacuum and air wavelengths, energies",
                               description="Lines n -> lower of one series, with the series limit.")
     p.add_argument("--series", default="balmer",
                    help="lyman, balmer, paschen, brackett, pfund, humphreys or a lower level n (default balmer)")
     p.add_argument("--upto", type=int, default=None, help="highest upper level n (default: lower + 5)")
-    _add_structure(p)
-    add_atom_options(p)
-    add_common(p)
-    _add_species(p)
+    _add_atom_flags(p, structure=True)
     p.set_defaults(handler=handle_lines)
 
     p = subparsers.add_parser("transition", help="energy, wavelength, dipole, f-value, Einstein A of a transition",
                               description="One transition between two states, given in either order.")
     p.add_argument("state_a", metavar="A", help='a state label, e.g. "2p" (or "2p3/2", "1s1/2 F=1" with --structure)')
     p.add_argument("state_b", metavar="B", help='a state label, e.g. "1s"')
-    _add_structure(p)
-    add_atom_options(p)
-    add_common(p)
-    _add_species(p)
+    _add_atom_flags(p, structure=True)
     p.set_defaults(handler=handle_transition)
 
     p = subparsers.add_parser("state", help="energy, binding energy, lifetime, <r> of one state",
                               description="One bound level of the atom.")
     p.add_argument("state", metavar="S", help='a state label, e.g. "3d" (or "3d5/2", "2s1/2 F=0" with --structure)')
-    _add_structure(p)
-    add_atom_options(p)
-    add_common(p)
-    _add_species(p)
+    _add_atom_flags(p, structure=True)
     p.set_defaults(handler=handle_state)
 
     p = subparsers.add_parser("xsec", help="photoionisation cross section of a level",
@@ -54,9 +51,7 @@ def register(subparsers) -> None:
     p.add_argument("--wavelength", default=None, help='photon wavelength, e.g. "50 nm" (plain number: bohr)')
     p.add_argument("--range", dest="energy_range", default=None, metavar="START:STOP:POINTS",
                    help='photon energies evenly spaced, e.g. "14 eV:100 eV:50"')
-    add_atom_options(p)
-    add_common(p)
-    _add_species(p)
+    _add_atom_flags(p, structure=False)
     p.set_defaults(handler=handle_xsec)
 
 

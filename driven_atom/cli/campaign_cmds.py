@@ -126,6 +126,12 @@ def _status(args):
           f"failed {status['failed']}  pending {status['pending']}"
           f"  (checkpointed {status['checkpointed']}, corrupt {status['corrupt']}; "
           f"untrustworthy {status['untrustworthy']})")
+    cluster = status["cluster"]
+    if cluster:
+        print(f"  workers ({cluster['system']}): {cluster['alive']} of {cluster['workers']} alive, "
+              f"{cluster['lost']} lost, {cluster['requested']} requested "
+              f"({cluster['resubmits']} of {cluster['max_resubmits']} resubmissions); "
+              f"batch jobs {', '.join(cluster['batch_jobs']) or 'none'}")
     line = f"  wall time of done jobs: {_duration(status['wall_s_total'])}"
     if status["eta_s"] is not None:
         workers = f"{status['workers']} workers" if status["workers"] else "workers: as many as are running"

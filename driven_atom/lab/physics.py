@@ -28,6 +28,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from driven_atom.lab.lines import LineData, photon_flux, spherical_q
 from driven_atom.units import AU_INTENSITY_WM2, AU_TIME_S, BOHR_M, C_AU, HARTREE_EV, HARTREE_J
 
 RESONANCE_WIDTHS = 5.0        # a line within this many of its widths is treated as resonant
@@ -83,18 +84,9 @@ def tunnel_parameters(atom, state, ip: float) -> tuple[float, float | None]:
     return atom.model.charge, adk_coefficient(atom.model, ip) if own else None
 
 
-def spherical_q(polarization: str) -> int:
-    return {"linear": 0, "circular+": 1, "circular-": -1}[polarization]
-
-
 def keldysh(ip: float, intensity_au: float, omega: float) -> float:
     """γ = √(Iₚ/(2Uₚ)), Uₚ = I/(4ω²) (Keldysh 1965; docs/physics.md)."""
     return math.sqrt(ip / (2 * intensity_au / (4 * omega**2)))
-
-
-def photon_flux(intensity_wm2, omega: float):
-    """Photons per m² and s of intensity I (W/m²) at photon energy ω (hartree)."""
-    return intensity_wm2 / (omega * HARTREE_J)
 
 
 # -- the regime ----------------------------------------------------------------------------------------
@@ -124,17 +116,18 @@ def choose_model(case) -> Model:
     up = i0 / (4 * omega**2)
     N = photon_order(ip, omega)
     perturbative = gamma >= LOPT_MIN_KELDYSH and up < omega / 4
-    if perturbative and atom.model is not None:
-        model = _ppt_model(case, ip, i0, gamma, regime="multiphoton")
-        model.why = (f"{N} photons, Keldysh gamma {gamma:.3g}: a model atom ({atom.model.name}) has no resonance or "
-                     f"N-photon perturbation theory here yet; PPT with the real atom's tunnelling parameters")
-        return model
     if perturbative:
         resonant = _resonance(case, ip, i0)
         if resonant is not None:
             return resonant
-        if N <= LOPT_MAX_PHOTONS:
-            return _lopt_model(case, ip, i0, gamma, N)
+    if perturbative and atom.model is not None:
+        model = _ppt_model(case, ip, i0, gamma, regime="multiphoton")
+        model.why = (f"{N} photons, Keldysh gamma {gamma:.3g}, no one-photon line within {RESONANCE_WIDTHS:g} of its "
+                     f"widths: a model atom ({atom.model.name}) has no N-photon perturbation theory here yet; PPT "
+                     f"with the real atom's tunnelling parameters")
+        return model
+    if perturbative and N <= LOPT_MAX_PHOTONS:
+        return _lopt_model(case, ip, i0, gamma, N)
     model = _ppt_model(case, ip, i0, gamma, regime="multiphoton")
     model.why = (f"{N} photons, Keldysh gamma {gamma:.3g}: between the regimes (perturbation theory, and the "
                  f"resonance model, need gamma >= {LOPT_MIN_KELDYSH:g}, Up < omega/4 and N <= {LOPT_MAX_PHOTONS}; "
@@ -257,23 +250,6 @@ def _static_model(case) -> Model:
 
 
 # -- resonances --------------------------------------------------------------------------------------------
-@dataclass
-class _Line:
-    """A resonance ready for the Bloch equations (SI rates, rad/s)."""
-
-    line: object                  # atom.resonance.Line
-    photons: int
-    rabi: float                   # Ω₀ at I₀
-    shift: float                  # light shift δ at I₀ (two photons)
-    decay: float                  # Γ of the upper level
-    back: float                   # fraction of Γ back to the lower level
-    ionization: float             # γᵢ of the upper level at I₀
-    ionization_photons: int
-    ionization_note: str
-    upper_label: str
-    lifetime: float               # s
-
-
 def _coupling(case, line) -> tuple | None:
     """(uppers with m, couplings |d_j| or |M_j| (a.u.), Rabi frequency Ω₀ and light shift δ at I₀
     (rad/s)) of ``line``: the bright combination of its levels of one energy; None without coupling."""
@@ -307,7 +283,7 @@ def _coupling(case, line) -> tuple | None:
     return uppers, couplings, rabi, shift
 
 
-def _line_data(case, line, coupling) -> _Line:
+def _line_data(case, line, coupling) -> LineData:
     """Decay, branching back to the lower level and ionisation of the upper level of ``line`` (the
     bright combination of ``coupling``), through the atom layer."""
     from driven_atom.atom import State
@@ -335,11 +311,11 @@ def _line_data(case, line, coupling) -> _Line:
         rate = K * i0**m_ion / AU_TIME_S
         note = f"{m_ion} photons (lowest-order perturbation theory)"
     tau = 1 / decay if decay > 0 else math.inf
-    return _Line(line, line.photons, rabi, shift, decay, min(max(back, 0.0), 1.0), rate, m_ion, note,
+    return LineData(line, line.photons, rabi, shift, decay, min(max(back, 0.0), 1.0), rate, m_ion, note,
                  "/".join(u.label for u in uppers), tau)
 
 
-def _widths(case, data: _Line) -> dict:
+def _widths(case, data: LineData) -> dict:
     """The widths of a line (angular frequency FWHM, rad/s)."""
     k = data.photons
     return {"fourier": k * case.envelope.bandwidth, "doppler": k * case.doppler_fwhm,
@@ -351,22 +327,37 @@ TWO_PHOTON_N_MAX = 15          # two-photon lines are followed up to this upper 
 TWO_PHOTON_REACH = 1e3         # ... and within this many Fourier/Doppler/laser widths
 
 
-def _resonance(case, ip: float, i0: float) -> Model | None:
+def _candidates(case, ip: float):
+    """[(line, coupling, its cheap width)] of the lines near the laser: the nearest one- and
+    two-photon lines of a hydrogen-like atom; every one-photon line of a model atom
+    (:mod:`driven_atom.lab.model_resonance`)."""
+    cheap = math.hypot(case.envelope.bandwidth, case.doppler_fwhm, 2 * math.pi * case.linewidth)
+    if case.atom.model is not None:
+        from driven_atom.lab.model_resonance import coupling, one_photon_lines
+
+        return [(line, coupling(case, line), cheap) for line in one_photon_lines(case.atom, case.state,
+                                                                                 case.photon_energy)]
     from driven_atom.atom.resonance import nearest_lines
 
     lines = nearest_lines(case.atom, case.state, case.photon_energy)
-    best = None
+    out = []
     for k in (1, 2):
         line = lines[k]
         if line is None or k * case.photon_energy >= ip:
             continue                                  # two photons into the continuum: no bound line
-        cheap = k * math.hypot(case.envelope.bandwidth, case.doppler_fwhm, 2 * math.pi * case.linewidth)
-        detuning = abs(line.detuning) / AU_TIME_S
-        if k == 2 and (detuning > TWO_PHOTON_REACH * cheap or max(s.n for s in line.uppers) > TWO_PHOTON_N_MAX):
+        if k == 2 and (abs(line.detuning) / AU_TIME_S > TWO_PHOTON_REACH * k * cheap
+                       or max(s.n for s in line.uppers) > TWO_PHOTON_N_MAX):
             continue
-        coupling = _coupling(case, line)
+        out.append((line, _coupling(case, line), k * cheap))
+    return out
+
+
+def _resonance(case, ip: float, i0: float) -> Model | None:
+    best = None
+    for line, coupling, cheap in _candidates(case, ip):
         if coupling is None:
             continue
+        detuning = abs(line.detuning) / AU_TIME_S
         shifted = line.detuning / AU_TIME_S + coupling[3]          # the detuning at the peak, light-shifted
         swept = line.detuning * shifted < 0                        # the light shift sweeps it through zero
         closest = 0.0 if swept else min(detuning, abs(shifted))
@@ -377,11 +368,20 @@ def _resonance(case, ip: float, i0: float) -> Model | None:
             best = (closest / math.hypot(cheap, coupling[2]), line, coupling)
     if best is None:
         return None
-    data = _line_data(case, best[1], best[2])
-    return _resonant_model(case, ip, data, _widths(case, data), best[0])
+    if case.atom.model is None:
+        data = _line_data(case, best[1], best[2])
+        return _resonant_model(case, ip, data, _widths(case, data), best[0])
+    from driven_atom.lab.model_resonance import line_data
+
+    data = line_data(case, best[1], best[2])
+    model = _resonant_model(case, ip, data, _widths(case, data), best[0])
+    model.notes.append(f"{case.atom.model.name}: the line at its measured wavelength, the coupling and the decay "
+                       f"from the model's radial dipole (A rescaled to the measured frequency); the other "
+                       f"fine-structure component and the hyperfine structure are left out")
+    return model
 
 
-def _doppler_nodes(case, data: _Line, homogeneous: np.ndarray, detuning: float):
+def _doppler_nodes(case, data: LineData, homogeneous: np.ndarray, detuning: float):
     """Detunings and weights over the Doppler profile for each intensity node: Gauss–Hermite when
     the profile is narrower than the homogeneous response, else nodes tan-mapped around the
     resonance (they follow a power-broadened Lorentzian into its wings)."""
@@ -410,7 +410,7 @@ def _doppler_nodes(case, data: _Line, homogeneous: np.ndarray, detuning: float):
     return D, W
 
 
-def _resonant_model(case, ip: float, data: _Line, widths: dict, in_widths: float) -> Model:
+def _resonant_model(case, ip: float, data: LineData, widths: dict, in_widths: float) -> Model:
     from driven_atom.lab.bloch import propagate_bloch
     from driven_atom.lab.focus import ProbabilityTable
 

@@ -77,8 +77,6 @@ def _w_m(x: np.ndarray, m: int) -> np.ndarray:
 def ppt_factor(omega: float, gamma: float, ip: float, m: int = 0) -> float:
     """A_m(ω, γ) of the PPT rate (module docstring); → 1 as γ → 0. The sum over photon numbers
     κ ≥ ν runs term by term up to 2·10⁴ terms, beyond that as its Euler–Maclaurin integral."""
-    from scipy import integrate
-
     m = abs(m)
     if gamma < 0.02:
         return 1.0                                      # the tunnelling limit (A_m(γ = 0.02) = 1 − 3e-4)
@@ -91,6 +89,8 @@ def ppt_factor(omega: float, gamma: float, ip: float, m: int = 0) -> float:
         x = x0 + np.arange(n_terms)
         total = float(np.sum(np.exp(-alpha * x) * _w_m(np.sqrt(beta * x), m)))
     else:
+        from scipy import integrate             # only here: its import costs the light commands 0.3 s
+
         def f(x):
             return math.exp(-alpha * x) * float(_w_m(np.array([math.sqrt(beta * x)]), m)[0])
 

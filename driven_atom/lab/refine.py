@@ -209,6 +209,10 @@ def check(case, model) -> dict:
         raise InputError("`--check` takes a laser pulse; this configuration's pulse is a static field "
                          "(run it with `driven-atom run`)")
     route = _route(case, model)
+    if route == "levels" and case.atom.model is not None and (model.resonance or {}).get("line", "").endswith("/2"):
+        raise InputError(f"`--check`: the {case.atom.model.name} line {model.resonance['line']} is one fine-structure "
+                         f"component, which the levels route does not resolve for a model atom (its levels are "
+                         f"the j-centroids); no check is run")
     fwhm = case.envelope.fwhm
     period = photon_energy_to_wavelength_nm(case.photon_energy) * 1e-9 / 299792458.0
     if route != "levels" and fwhm > MAX_SHORT_FWHM:

@@ -76,15 +76,16 @@ def load_config(source) -> RunConfig:
     return cfg
 
 
-def build_route(cfg: RunConfig, *, cache_dir=None):
-    """The route object that will propagate ``cfg`` (nothing is computed yet)."""
+def build_route(cfg: RunConfig, *, cache_dir=None, initial=None):
+    """The route object that will propagate ``cfg`` (nothing is computed yet), from ``initial``
+    [(State, amplitude)] instead of the config's initial state when given."""
     from driven_atom.pulse import build_pulse
 
     atom = cfg.build_atom()
     pulse = build_pulse(cfg, atom)
     cls = route_class(cfg.route)
-    return cls(atom, pulse, cfg.solver, initial=cfg.initial_states(), output=cfg.output, cache_dir=cache_dir,
-               structure=cfg.atom.structure, fields=cfg.fields)
+    return cls(atom, pulse, cfg.solver, initial=cfg.initial_states() if initial is None else initial,
+               output=cfg.output, cache_dir=cache_dir, structure=cfg.atom.structure, fields=cfg.fields)
 
 
 def preflight(cfg: RunConfig, *, max_hours: float | None = None) -> list:
@@ -133,6 +134,17 @@ def default_cache_dir(cfg: RunConfig, path: Path):
     return cache
 
 
+def m_part_path(result_path, m: int) -> Path:
+    """Where the run of sublevel ``m`` of an m-averaged result is kept until the sum is written.
+
+    >>> m_part_path("runs/a-0123.h5", 1).as_posix()
+    'runs/a-0123.m1.part.h5'
+    """
+    path = Path(result_path)
+    stem = path.name[:-3] if path.name.endswith(".h5") else path.name
+    return path.with_name(f"{stem}.m{m}.part.h5")
+
+
 def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, max_hours: float | None = None,
                error_estimate: bool | None = None):
     """Propagate ``cfg`` and write its result to ``path``; returns the :class:`Result`.
@@ -140,11 +152,14 @@ def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, 
     A checkpoint of the same physics beside ``path`` (``NAME.ckpt.h5``) is resumed; it is removed
     once the result is written. With ``error_estimate`` (default: ``[output] error_estimate``) a
     coarser companion run gives every scalar an error bar (:mod:`driven_atom.routes.error_bars`).
+    A model atom's p level given without m is the sum of its sublevels' runs
+    (:mod:`driven_atom.routes.m_average`; each run kept in ``NAME.mM.part.h5`` until the sum is written).
     """
     import time
 
     from driven_atom.result import Checkpoint, checkpoint_path, read_result, stored_physics_hash, write_result
     from driven_atom.routes.error_bars import error_block, run_companion
+    from driven_atom.routes.m_average import average_over_m
 
     path = Path(path)
     physics_hash = cfg.physics_hash()
@@ -162,24 +177,61 @@ def run_config(cfg: RunConfig, path, *, progress: bool = False, cache_dir=None, 
             result.stats["reused"] = True
             return result
     config_text = cfg.to_toml()
-    route = build_route(cfg, cache_dir=cache_dir if cache_dir is not None else default_cache_dir(cfg, path))
+    cache_dir = cache_dir if cache_dir is not None else default_cache_dir(cfg, path)
+    estimate_errors = cfg.output.error_estimate if error_estimate is None else error_estimate
+    attrs = {"physics_hash": physics_hash, "hash_version": HASH_VERSION}
+
+    def propagate_part(initial, checkpoint):
+        route = build_route(cfg, cache_dir=cache_dir, initial=initial)
+        result = route.run(checkpoint=checkpoint if route.resumable else None, progress=progress,
+                           max_hours=max_hours)
+        if estimate_errors:
+            started = time.perf_counter()
+            companion, factor, knobs = run_companion(type(route), route.atom, route.pulse, cfg.solver,
+                                                     route.initial, cfg.output, result, structure=route.structure,
+                                                     fields=route.fields)
+            result.stats["companion_s"] = time.perf_counter() - started
+            result.quality["errors"] = (error_block(result, companion, factor, knobs) if companion is not None
+                                        else {"method": "unavailable", "companion": knobs,
+                                              "why": "the coarser companion run was stopped by a guard"})
+        return result
+
+    parts = cfg.m_parts()
     checkpoint = Checkpoint(checkpoint_path(path), physics_hash=physics_hash, config=config_text)
-    result = route.run(checkpoint=checkpoint if route.resumable else None, progress=progress, max_hours=max_hours)
-    if cfg.output.error_estimate if error_estimate is None else error_estimate:
-        started = time.perf_counter()
-        companion, factor, knobs = run_companion(type(route), route.atom, route.pulse, cfg.solver,
-                                                 route.initial, cfg.output, result, structure=route.structure,
-                                                 fields=route.fields)
-        result.stats["companion_s"] = time.perf_counter() - started
-        result.quality["errors"] = (error_block(result, companion, factor, knobs) if companion is not None
-                                    else {"method": "unavailable", "companion": knobs,
-                                          "why": "the coarser companion run was stopped by a guard"})
+    if parts is None:
+        result = propagate_part(None, checkpoint)
+        level = cfg.unpolarised_p_level()
+        if level is not None:           # a route of one m: the result is that of m = 0, and says so
+            result.metadata["m_average"] = {"rule": "not made: the sublevel m = 0 only", "weights": {"0": 1.0}}
+            result.warnings.append(f"the initial level {level.label} is taken as its sublevel m = 0: the "
+                                   f"{cfg.route} route propagates m = 0 only, the atom's average "
+                                   f"(P(m=0) + 2 P(|m|=1))/3 needs route \"basis\"")
+    else:                               # each sublevel's run is kept in a file of its own until the sum is
+        done = []
+        for initial, weight, m in parts:
+            part_path, part_hash = m_part_path(path, m), f"{physics_hash}-m{m}"
+            part = None
+            if stored_physics_hash(part_path) == part_hash:
+                try:
+                    part = read_result(part_path)
+                except InputError:
+                    part = None
+            if part is None:
+                part_checkpoint = Checkpoint(checkpoint_path(part_path), physics_hash=part_hash, config=config_text)
+                part = propagate_part(initial, part_checkpoint)
+                part.config = config_text
+                write_result(part_path, part, attrs={**attrs, "physics_hash": part_hash})
+                part_checkpoint.clear()
+            done.append((part, weight, m))
+        result = average_over_m(done)
     result.config = config_text
-    write_result(path, result, attrs={"physics_hash": physics_hash, "hash_version": HASH_VERSION})
+    write_result(path, result, attrs=attrs)
     checkpoint.clear()
+    for _, _, m in parts or ():
+        m_part_path(path, m).unlink(missing_ok=True)
     result.metadata["file"] = str(path)
     return result
 
 
-__all__ = ["ROUTES", "SETTINGS", "route_class", "check_config", "load_config", "build_route", "run_config",
-           "preflight", "propagate"]
+__all__ = ["ROUTES", "SETTINGS", "route_class", "check_config", "load_config", "build_route", "m_part_path",
+           "run_config", "preflight", "propagate"]
