@@ -61,8 +61,8 @@ def test_the_sum_is_one_consistent_result(argon):
     assert res.metadata["m_average"]["weights"] == {"0": pytest.approx(1 / 3), "1": pytest.approx(2 / 3)}
     assert res.quality["trustworthy"] and {c["m"] for c in res.quality["checks"]} == {0, 1}
     assert res.populations["3p"] + res.ionization == pytest.approx(res.norm, abs=1e-6)
-    spectrum = res.spectra["photoelectron"]
-    assert np.trapezoid(spectrum["dP_dE"], spectrum["energy"]) == pytest.approx(res.ionization, rel=2e-3)
+    spectrum = res.spectra["photoelectrons"]                # per eV over eV (driven_atom.result)
+    assert np.trapezoid(spectrum["dP_dE"], spectrum["energy_eV"]) == pytest.approx(res.ionization, rel=2e-3)
     assert spectrum["dP_dE_l"].shape[0] == 3          # rows l = 0, 1, 2 (the |m| = 1 run has no s wave)
     assert np.all(spectrum["dP_dE_l"][0] >= 0)
     assert sorted(p.name for p in path.parent.iterdir()) == ["ar.h5"]        # the runs' own files are gone
