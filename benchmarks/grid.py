@@ -57,7 +57,7 @@ def fields_for(steps):
 
 
 def kernel_ns(stepper, psi, steps):
-    out = np.zeros((steps, 3))
+    out = np.zeros((steps, 4))
     f = fields_for(steps)
     stepper.set_state(psi)
     stepper.run(f[:2], out[:2])                  # warm (compiled, caches filled)
@@ -76,7 +76,7 @@ class NumpyScheme:
     def __init__(self, stepper: grid._Stepper, r):
         a = stepper.a                                # named views into the stacked operator arrays
         n, nl = stepper.psi.shape[1:]
-        self.tau, inv2mu, _ = stepper.consts
+        self.tau, inv2mu = stepper.consts[:2]
         self.r, self.mask = r, stepper.mask
         self.c = grid.coupling_coefficients(nl - 1)
         self.ap, self.am = [], []
@@ -126,7 +126,7 @@ def numpy_ns(stepper, r, psi, steps=3):
     scheme = NumpyScheme(stepper, r)
     f = fields_for(steps)
     stepper.set_state(psi)
-    stepper.run(f[:1], np.zeros((1, 3)))
+    stepper.run(f[:1], np.zeros((1, 4)))
     ref = psi.copy()
     scheme.step(ref, f[0])
     assert np.abs(ref - stepper.state()).max() < 1e-10, "numpy scheme and kernel disagree"
@@ -172,7 +172,7 @@ def qutip_ratio(window=2.0, n=600, nl=16, dr=0.1):
 
     def ours(st, k):
         st.set_state(psi0)
-        st.run(np.array([field((j + 0.5) * window / k) for j in range(k)]), np.zeros((k, 3)))
+        st.run(np.array([field((j + 0.5) * window / k) for j in range(k)]), np.zeros((k, 4)))
         return st.state()
 
     ours(stepper, 2)

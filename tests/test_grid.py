@@ -155,7 +155,7 @@ def test_chunk_boundaries_do_not_change_the_arithmetic():
     psi = np.zeros((g.n_points, 5), complex)
     psi[:, 0] = u[:, 0]
     st = grid._Stepper(g, atom, 5, 0.05, mask, threads=1)
-    out_a, out_b = np.zeros((12, 3)), np.zeros((12, 3))
+    out_a, out_b = np.zeros((12, 4)), np.zeros((12, 4))
     st.set_state(psi)
     st.run(fields, out_a)
     psi_a = st.state()

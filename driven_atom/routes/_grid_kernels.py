@@ -11,7 +11,7 @@ Layout. The kernels take a few stacked float64 arrays, all C order, which
   d_off (the off-diagonals (i, i+1) are N − 1 long and padded with a zero);
 * ``cols`` (3, L), one entry per column: m_first, d_first (the Numerov-corrected first rows, which
   depend on l), cent = l(l+1)/2μ;
-* ``consts`` (3,): τ = dt/2, 1/2μ, dr;
+* ``consts`` (4,): τ = dt/2, 1/2μ, dr, 1/μ;
 * ``coupling`` (2, P): the c_l of the A pairs in coupling[0, :na] and of the B pairs in
   coupling[1, :nb], na = ⌊L/2⌋, nb = ⌈L/2⌉ − 1 (P ≥ max(na, nb, 1));
 * ``scratch`` = (carry, rot, stp): rows for the sweeps and the rotors (shapes on each kernel).

@@ -478,9 +478,14 @@ class _Stepper:
         A(t) in the velocity gauge); ``out`` (k, 4) gets norm, ⟨z⟩, ⟨cosθ/r²⟩, ⟨p_z⟩ after each
         step and ``surface`` (k, 2, 5, L), when given, the surface rows."""
         drive = np.ascontiguousarray(drive, dtype=float)
+        if out.shape != (drive.size, 4) or out.dtype != np.float64:    # the kernels do not check bounds
+            raise ValueError(f"`out` must be a ({drive.size}, 4) float array, got {out.shape} {out.dtype}")
         if surface is None:
             surface, i_surf = np.zeros((0, 2, 5, self.psi.shape[2])), -1
         else:
+            if surface.shape != (drive.size, 2, 5, self.psi.shape[2]):
+                raise ValueError(f"`surface` must have the shape {(drive.size, 2, 5, self.psi.shape[2])}, "
+                                 f"got {surface.shape}")
             i_surf = self.i_surf
         if self.gauge == "velocity":
             self.kernels.propagate_chunk_velocity(self.psi, self.thomas, self.rows, self.cols, self.consts,
