@@ -348,25 +348,23 @@ def _final_row(psi, i, k, ne, ca, cb, rows, dr, keep, surface, i_surf):
     """What is made of the final (closed, masked) row i of step k, rows visited from the top down:
     returns its shares of the norm, ⟨r cosθ⟩ and ⟨cosθ · dV/dr⟩ and the momentum share of row
     i + 2 (which needs rows i … i + 4), and copies the row into ``surface[k]`` when it is one of the
-    five rows from ``i_surf``. ``keep`` (5, 2, L) holds copies of the final rows i + 1 … i + 4 in
-    keep[0] … keep[3] (zero above the grid) and keep[4] stays zero; on return keep[0] holds row i
-    (copies: the caller may change the rows of the state afterwards)."""
+    five rows from ``i_surf``. ``keep`` (5, 2, L) is a ring of copies: keep[r % 4] holds the final
+    row r for r = i + 1 … i + 4 (zero above the grid; a zeroed ring starts the visit) and keep[4]
+    stays zero; on return keep[i % 4] holds row i (copies: the caller may change the rows of the
+    state afterwards), so after row 0 keep[0] … keep[3] hold rows 0 … 3."""
     xr = psi[0, i]
     xi = psi[1, i]
     n = psi.shape[1]
     nl = xr.shape[0]
     rn, rz = _row_observables(xr, xi, ne, ca, cb)
     pm = 0.0
+    slot = keep[i % 4]                  # row i + 4 until it is overwritten below
     if i + 2 < n:
-        pm = _row_momentum(keep[1], psi[:, i], keep[0], keep[2], keep[3], ne, ca, cb, 1.0 / (12.0 * dr),
-                           rows[6, i + 2])
-    for q in range(3, 0, -1):
-        for j in range(nl):
-            keep[q, 0, j] = keep[q - 1, 0, j]
-            keep[q, 1, j] = keep[q - 1, 1, j]
+        pm = _row_momentum(keep[(i + 2) % 4], psi[:, i], keep[(i + 1) % 4], keep[(i + 3) % 4], slot, ne, ca,
+                           cb, 1.0 / (12.0 * dr), rows[6, i + 2])
     for j in range(nl):
-        keep[0, 0, j] = xr[j]
-        keep[0, 1, j] = xi[j]
+        slot[0, j] = xr[j]
+        slot[1, j] = xi[j]
     if 0 <= i_surf <= i < i_surf + 5:
         for j in range(nl):
             surface[k, 0, i - i_surf, j] = xr[j]
