@@ -240,7 +240,7 @@ class GridSettings(RouteSettings):
             '"photoelectrons", the others as "photoelectrons_<method>"'))
     photoelectron_e_min: Quantity("energy", gt=0) | None = Field(None, description=(
         "lowest photoelectron energy (the slowest electrons of interest; default: the spacing "
-        "photoelectron_e_max / photoelectron_points)"))
+        "photoelectron_e_max / photoelectron_points with the surface flux, else a tenth of it)"))
     photoelectron_e_max: Quantity("energy", gt=0) | None = Field(None, description=(
         "highest photoelectron energy; default E_max of the grid defaults"))
     photoelectron_points: Integer(ge=2, le=100_000) = Field(200, description=(

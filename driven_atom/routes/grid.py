@@ -123,13 +123,21 @@ def _pulse_scales(atom, pulse) -> tuple[float, float, float, float]:
 
 def photoelectron_energies(settings: GridSettings, e_max: float) -> np.ndarray:
     """The energies of every photoelectron spectrum of a run: ``photoelectron_points`` evenly from
-    ``photoelectron_e_min`` (default: the spacing) to ``photoelectron_e_max`` (default ``e_max``).
+    ``photoelectron_e_min`` to ``photoelectron_e_max`` (default ``e_max``). The default lowest
+    energy is the spacing top/points when the surface flux is asked for (its slowest electrons set
+    the time after the pulse), else a tenth of it: the window and the projection then also hold the
+    electrons just above threshold (below the spacing they were 5 % of the yield at 800 nm).
 
-    >>> photoelectron_energies(GridSettings(photoelectron_points=4), 2.0).tolist()
+    >>> flux = GridSettings(photoelectron_points=4, photoelectron_methods=["surface_flux"], gauge="velocity")
+    >>> photoelectron_energies(flux, 2.0).tolist()
     [0.5, 1.0, 1.5, 2.0]
+    >>> photoelectron_energies(GridSettings(photoelectron_points=4, photoelectron_methods=["window"]), 2.0).round(6).tolist()
+    [0.05, 0.7, 1.35, 2.0]
     """
     top = settings.photoelectron_e_max if settings.photoelectron_e_max is not None else e_max
-    low = settings.photoelectron_e_min if settings.photoelectron_e_min is not None else top / settings.photoelectron_points
+    spacing = top / settings.photoelectron_points
+    default_low = spacing if "surface_flux" in settings.photoelectron_methods else spacing / 10
+    low = settings.photoelectron_e_min if settings.photoelectron_e_min is not None else default_low
     if not low < top:
         raise InputError(f"`solver.photoelectron_e_min` = {low:g} hartree must be below the highest energy "
                          f"{top:g} hartree (`solver.photoelectron_e_max`)")
