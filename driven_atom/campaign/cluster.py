@@ -423,6 +423,13 @@ class WorkerWatch:
         if alive:
             return
         if not coming and self.lost_jobs:
+            if self.resubmits >= self.spec.max_resubmits:
+                # no worker is alive: the jobs still within their grace have ended too, and are named
+                silent = [(name, len(_member_names(name, spec)))
+                          for name, spec in list(self.cluster.worker_spec.items())
+                          if name in self._seen and not _member_names(name, spec) & connected]
+                if silent:
+                    self._replace(silent)
             spent = (f"`cluster.max_resubmits` = {self.spec.max_resubmits} allows no more replacements"
                      if self.resubmits >= self.spec.max_resubmits else "no replacement is coming")
             raise WorkersLost(f"no worker left: {', '.join(self.lost_jobs)} ended ({self.lost} worker(s) lost) "
