@@ -309,19 +309,52 @@ def continuum_waves(grid, atom, l: int, energies, r_normalize: float) -> np.ndar
     return phi
 
 
+def phase_shifts(r, phi, l: int, k, low: float, high: float) -> np.ndarray:
+    """Phase shifts δ_l(k) of waves φ (columns, one per k) in a potential that is zero beyond
+    ``low``: there φ = c₁ ĵ_l(kr) − c₂ n̂_l(kr) with the Riccati–Bessel ĵ_l = kr j_l(kr) and
+    n̂_l = kr y_l(kr), fitted by least squares on the points between ``low`` and ``high``, and
+    δ = atan2(c₂, c₁), so that φ → A sin(kr − lπ/2 + δ) with A > 0 (the phase the partial wave
+    carries, as σ_l in a Coulomb field).
+
+    >>> r = np.linspace(0.1, 40.0, 400)
+    >>> phi = np.sin(2.0 * r - np.pi / 2 + 0.3)[:, None]      # the free l = 1 wave shifted by 0.3
+    >>> from scipy.special import spherical_jn, spherical_yn
+    >>> exact = 2 * r * (np.cos(0.3) * spherical_jn(1, 2 * r) - np.sin(0.3) * spherical_yn(1, 2 * r))
+    >>> round(float(phase_shifts(r, exact[:, None], 1, [2.0], 10.0, 40.0)[0]), 10)
+    0.3
+    """
+    from scipy.special import spherical_jn, spherical_yn
+
+    r = np.asarray(r, dtype=float)
+    sel = (r > low) & (r <= high)
+    out = np.zeros(len(k))
+    for j, kk in enumerate(np.atleast_1d(k)):
+        x = kk * r[sel]
+        basis = np.column_stack([x * spherical_jn(l, x), -x * spherical_yn(l, x)])
+        (c1, c2), *_ = np.linalg.lstsq(basis, phi[sel, j], rcond=None)
+        out[j] = math.atan2(c2, c1)
+    return out
+
+
 def projection_densities(grid, atom, psi, bound, energies, x, r_normalize: float) -> np.ndarray:
     """d²P/dE dΩ (per hartree per sr, shape (n_E, len(x))) of ψ[i, l] (Σ|ψ|² = 1 on the grid, so
     ψᵢ = √dr·u(rᵢ)) projected on the field-free continuum: the bound states ``bound[l]`` =
     (energies, vectors) removed, a_l(E) = ∫ φ_E u_l dr with φ_E from :func:`continuum_waves`, and the
-    partial waves summed with their Coulomb phases (incoming-wave scattering states; docs/physics.md):
+    partial waves summed with their Coulomb phases (incoming-wave scattering states; docs/physics.md)
+    — or, for an atom whose potential is cut to zero beyond ``atom.free_beyond`` (the flux route's
+    :class:`driven_atom.routes.grid.TaperedAtom`), with the phase shifts of :func:`phase_shifts`:
 
         d²P/dE dΩ = |Σ_l (−i)^l e^{iσ_l} Y_l0(θ) a_l(E)|²,    ∫ dΩ → Σ_l |a_l(E)|².
     """
     energies = np.asarray(energies, dtype=float)
     n_l = psi.shape[1]
     k = np.sqrt(2 * atom.reduced_mass * energies)
-    charge = atom.Z if atom.model is None else atom.model.charge          # the asymptotic charge
-    sigma = coulomb_phases(n_l - 1, k, charge, atom.reduced_mass)                 # (L, n_E)
+    free = getattr(atom, "free_beyond", None)        # a potential cut to zero there (the flux route's)
+    if free is None:
+        charge = atom.Z if atom.model is None else atom.model.charge          # the asymptotic charge
+        sigma = coulomb_phases(n_l - 1, k, charge, atom.reduced_mass)             # (L, n_E)
+    else:
+        sigma = np.zeros((n_l, energies.size))
     amps = np.zeros((n_l, energies.size), complex)
     for l in range(n_l):
         u = psi[:, l]
@@ -332,6 +365,8 @@ def projection_densities(grid, atom, psi, bound, energies, x, r_normalize: float
             u = u - vec @ (vec.T @ u)
         phi = continuum_waves(grid, atom, l, energies, r_normalize)               # (N, n_E)
         amps[l] = math.sqrt(grid.dr) * (phi.T @ u)
+        if free is not None:
+            sigma[l] = phase_shifts(grid.r, phi, l, k, free, r_normalize)
     ylm = spherical_harmonics_m0(n_l - 1, x)                                       # (n_x, L)
     phase = ((-1j) ** np.arange(n_l))[:, None] * np.exp(1j * sigma)
     f = ylm @ (phase * amps)                                                       # (n_x, n_E)
