@@ -16,6 +16,11 @@ study
    sum of all predicted errors within 80 % of the tolerance;
 4. runs the chosen settings once to confirm them against the most refined run.
 
+The observable is the ionisation yield, a population, or the photoelectron spectrum ("spectrum":
+its change is the distance ∫|ΔdP/dE| dE / ∫dP/dE dE, shape and area, and a flux run adds the flux
+sphere's radius as a knob — the Coulomb tail is cut beyond it, a model error that only a larger
+sphere shows).
+
 The cost is reported in units of the first run (typically 6–9 runs for four knobs), counted as
 the work the sizes imply (the routes' resource estimates: grid points × partial waves × steps and
 the eigen-solves), which a busy machine does not distort; wall times are recorded beside it.
@@ -29,6 +34,8 @@ from __future__ import annotations
 import math
 import time
 from dataclasses import dataclass, field
+
+import numpy as np
 
 from driven_atom.errors import InputError
 
@@ -49,16 +56,48 @@ class Study:
     converged: bool = False
 
 
-def _observable(result, name: str) -> float:
+def _observable(result, name: str):
+    """The observable's value: a number, or for "spectrum" the pair (energies, dP/dE)."""
     if name == "ionization":
         return float(result.ionization)
+    if name == "spectrum":
+        spectrum = result.spectra.get("photoelectrons")
+        if spectrum is None:
+            raise InputError("`--observable` spectrum needs a photoelectron spectrum: give "
+                             "`solver.photoelectron_methods` (route \"grid\")")
+        return np.asarray(spectrum["energy_eV"]), np.asarray(spectrum["dP_dE"])
     if name.startswith("population:"):
         label = name.split(":", 1)[1]
         if label not in result.populations:
             raise InputError(f"`--observable` {name!r}: the result has no population {label!r} "
                              f"(has {', '.join(sorted(result.populations))})")
         return float(result.populations[label])
-    raise InputError(f"`--observable` must be ionization or population:LABEL, got {name!r}")
+    raise InputError(f"`--observable` must be ionization, spectrum or population:LABEL, got {name!r}")
+
+
+def _total(value) -> float:
+    """The number a study reports: the value itself, or a spectrum's probability ∫dP/dE dE."""
+    if isinstance(value, tuple):
+        return float(np.trapezoid(value[1], value[0]))
+    return float(value)
+
+
+def _change(value, before) -> float:
+    """The relative change of the observable: (y − y₀)/y₀, or for a spectrum the distance
+    ∫|dP/dE − dP₀/dE| dE / ∫dP₀/dE dE (≥ 0; the shape as well as the area).
+
+    >>> e = np.linspace(0.0, 1.0, 11)
+    >>> round(_change((e, 1.1 * np.ones(11)), (e, np.ones(11))), 12), _change(1.1, 1.0) > 0.0999
+    (0.1, True)
+    """
+    if isinstance(value, tuple):
+        e, d = value
+        e0, d0 = before
+        if e.shape != e0.shape or not np.allclose(e, e0):
+            raise InputError("the spectra of a convergence study must share their energies")
+        total = np.trapezoid(d0, e0)
+        return float(np.trapezoid(abs(d - d0), e0) / total) if total > 0 else 0.0
+    return (value - before) / before if before else (value - before)
 
 
 def converge(cfg, *, tol: float = 0.01, observable: str = "ionization", rounds: int = 3,
@@ -86,7 +125,7 @@ def converge(cfg, *, tol: float = 0.01, observable: str = "ionization", rounds: 
         wall = time.perf_counter() - started
         value = _observable(result, observable)
         work = result.stats.get("estimated_s") or wall        # the work the sizes imply (wall time if none)
-        study.runs.append({"why": why, "settings": settings.physics(), "value": value, "wall_s": wall,
+        study.runs.append({"why": why, "settings": settings.physics(), "value": _total(value), "wall_s": wall,
                            "work_s": work})
         return result, value, work
 
@@ -98,11 +137,11 @@ def converge(cfg, *, tol: float = 0.01, observable: str = "ionization", rounds: 
         for knob in knobs:
             if knob.name in changes and abs(changes[knob.name]) < tol / 10:
                 continue            # far inside the tolerance last round: its share stands
-            _, y, _ = run(base.model_copy(update={knob.name: knob.refine}), f"{knob.name} refined to {knob.refine:.4g}")
-            changes[knob.name] = (y - y0) / y0 if y0 else (y - y0)
+            _, y, _ = run(base.model_copy(update=knob.refined()), f"{knob.name} refined to {knob.refine:.4g}")
+            changes[knob.name] = _change(y, y0)
             refined_values[knob.name] = y
             study.table.append({"knob": knob.name, "value": knob.value, "refined": knob.refine,
-                                "observable": y0, "observable_refined": y, "change": changes[knob.name]})
+                                "observable": _total(y0), "observable_refined": _total(y), "change": changes[knob.name]})
         errors = {k.name: k.predicted_error(changes[k.name]) for k in knobs}
         if sum(errors.values()) <= tol:
             study.converged = True
@@ -113,7 +152,7 @@ def converge(cfg, *, tol: float = 0.01, observable: str = "ionization", rounds: 
                 break
             bad.append(knob)
             rest -= errors[knob.name]
-        base = base.model_copy(update={k.name: k.refine for k in bad})
+        base = base.model_copy(update={key: v for k in bad for key, v in k.refined().items()})
         for knob in bad:
             del changes[knob.name]                  # measured again from the new settings
         if len(bad) == 1:
@@ -122,7 +161,8 @@ def converge(cfg, *, tol: float = 0.01, observable: str = "ionization", rounds: 
             _, y0, _ = run(base, "with " + ", ".join(f"{k.name} = {k.refine:.4g}" for k in bad))
     errors = {k.name: k.predicted_error(changes.get(k.name, 0.0)) for k in knobs}
     study.dominant = max(errors, key=errors.get) if errors else ""
-    reference = y0 * (1 + sum(changes.values()))                   # the refinements' combined estimate
+    spectrum = isinstance(y0, tuple)
+    reference = _total(y0) * (1 + sum(changes.values())) if not spectrum else _total(y0)   # the refinements' estimate
     chosen = base
     value = y0
     if study.converged:
@@ -135,6 +175,6 @@ def converge(cfg, *, tol: float = 0.01, observable: str = "ionization", rounds: 
         if chosen != base:
             _, value, _ = run(chosen, "the chosen settings")
     study.settings = chosen.physics()
-    study.value, study.reference = value, reference
+    study.value, study.reference = _total(value), reference
     study.cost_in_runs = sum(r["work_s"] for r in study.runs) / work0 if work0 > 0 else math.nan
     return study

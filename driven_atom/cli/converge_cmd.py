@@ -1,4 +1,4 @@
-"""``driven-atom converge CONFIG [--tol 1%] [--observable ionization|population:LABEL] [--write FILE]
+"""``driven-atom converge CONFIG [--tol 1%] [--observable ionization|population:LABEL|spectrum] [--write FILE]
 [--json] [--no-progress]``: an automatic convergence study (:mod:`driven_atom.convergence`).
 
 Prints one row per knob and refinement (value, refined value, the observable before and after, the
@@ -21,7 +21,8 @@ def register(subparsers) -> None:
                                           "dominates the error and the cheapest settings within the tolerance.")
     p.add_argument("config", metavar="CONFIG", help="run configuration (TOML)")
     p.add_argument("--tol", default="1%", help='relative tolerance on the observable, e.g. "1%%" or 0.01 (default 1%%)')
-    p.add_argument("--observable", default="ionization", help="ionization (default) or population:LABEL, e.g. population:2p")
+    p.add_argument("--observable", default="ionization", help="ionization (default), population:LABEL (e.g. population:2p) or spectrum "
+                   "(the photoelectron spectrum's shape and area; a flux run adds the sphere's radius as a knob)")
     p.add_argument("--write", metavar="FILE", default=None, help="write the config with the chosen settings (a new file)")
     p.add_argument("--no-progress", action="store_true", help="no progress lines on stderr")
     add_common(p)

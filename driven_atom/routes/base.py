@@ -149,6 +149,11 @@ class Knob:
     coarsen: float | None
     order: float | None
     cost: float
+    also: dict = field(default_factory=dict)      # settings that move with the refined value
+
+    def refined(self) -> dict:
+        """The settings update of the refinement."""
+        return {self.name: self.refine, **self.also}
 
     def predicted_error(self, change: float) -> float:
         """Error at the current value from the change on refinement: change/(1 − 2^−p)."""

@@ -205,8 +205,12 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
                    else default_surface_radius(alpha0, size, charge))
     if settings.r_max is not None:
         r_max = settings.r_max
-        width = (settings.absorber_width if settings.absorber_width is not None
-                 else min(max(20.0, 0.2 * r_max), 0.5 * r_max))
+        width = min(max(20.0, 0.2 * r_max), 0.5 * r_max)
+        if flux and not any(m in methods for m in FINAL_STATE_METHODS):     # as wide as the default flux box's
+            slowest = 2 * math.pi / math.sqrt(2 * mu * float(energies[0]))
+            width = max(width, min(ABSORBER_WAVELENGTHS * slowest, r_max - surface - SURFACE_MARGIN))
+        if settings.absorber_width is not None:
+            width = settings.absorber_width
     else:
         inner = max(40.0 * size, QUIVER_RADII * alpha0 + 20.0)
         if f_static > 0:
@@ -664,11 +668,19 @@ class GridRoute(Route):
 
     @classmethod
     def knobs(cls, settings) -> list:
-        """dt (error ∝ dt²), dr (∝ dr⁴), l_max and r_max (faster than any power)."""
-        return [Knob("dt", settings.dt, settings.dt / 2, 2 * settings.dt, 2, 2.0),
-                Knob("dr", settings.dr, settings.dr / 2**0.5, settings.dr * 2**0.5, 4, 2**0.5),
-                Knob("l_max", settings.l_max, math.ceil(1.5 * settings.l_max), None, None, 1.5),
-                Knob("r_max", settings.r_max, 1.5 * settings.r_max, None, None, 1.5)]
+        """dt (error ∝ dt²), dr (∝ dr⁴), l_max and r_max (faster than any power); on a flux run also
+        the sphere's radius R × 1.5 (the Coulomb tail is cut beyond it), the box and the time after
+        the pulse moving with it (the absorber keeps its place beyond the sphere, the slowest
+        electrons their time to reach it)."""
+        knobs = [Knob("dt", settings.dt, settings.dt / 2, 2 * settings.dt, 2, 2.0),
+                 Knob("dr", settings.dr, settings.dr / 2**0.5, settings.dr * 2**0.5, 4, 2**0.5),
+                 Knob("l_max", settings.l_max, math.ceil(1.5 * settings.l_max), None, None, 1.5),
+                 Knob("r_max", settings.r_max, 1.5 * settings.r_max, None, None, 1.5)]
+        if "surface_flux" in settings.photoelectron_methods and settings.surface_radius:
+            radius = settings.surface_radius
+            knobs.append(Knob("surface_radius", radius, 1.5 * radius, None, None, 1.5,
+                              also={"r_max": settings.r_max + 0.5 * radius, "after": 1.5 * (settings.after or 0.0)}))
+        return knobs
 
     @classmethod
     def companion(cls, settings, result):
