@@ -875,9 +875,9 @@ class GridRoute(Route):
                                      f"{2 * RYDBERG_N_KEPT**2 / charge + self.taper_width:.0f} bohr"))
         e_low = float(par.energies[0])
         needed = radius * math.sqrt(self.atom.reduced_mass / (2 * e_low))
-        checks.append(assess("flux_time_short", needed / max(par.after, 1e-300), soft=1.0, key="solver.after",
+        checks.append(assess("flux_time_short", needed / max(par.after + par.dt, 1e-300), soft=1.0, key="solver.after",
                              why=f"time electrons of the lowest spectrum energy ({e_low:.3g} hartree) need to reach "
-                                 f"the flux sphere over the time after the pulse",
+                                 f"the flux sphere over the time after the pulse and one step (the sphere sits on a grid row)",
                              fix=f"raise `solver.after` to about {needed:.0f} au or `solver.photoelectron_e_min`"))
         return checks
 
