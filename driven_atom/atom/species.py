@@ -88,6 +88,11 @@ class Atom:
         return self.model is None
 
     @property
+    def asymptotic_charge(self) -> float:
+        """The charge the electron sees far out: Z, or the model ion's charge Z_c."""
+        return float(self.Z) if self.model is None else self.model.charge
+
+    @property
     def l_dependent(self) -> bool:
         """Whether the potential depends on l (an l-dependent model such as the alkalis')."""
         return self.model is not None and self.model.l_dependent

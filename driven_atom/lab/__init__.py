@@ -228,7 +228,7 @@ def estimate(config=None, *, lab: dict | None = None, table=None, check: bool = 
 
 def _charge(case) -> float:
     """The charge the electron leaves behind: Z, or a model atom's Z_c."""
-    return float(case.atom.Z) if case.atom.model is None else case.atom.model.charge
+    return case.atom.asymptotic_charge
 
 
 def _nearest(case) -> dict:

@@ -351,8 +351,7 @@ def projection_densities(grid, atom, psi, bound, energies, x, r_normalize: float
     k = np.sqrt(2 * atom.reduced_mass * energies)
     free = getattr(atom, "free_beyond", None)        # a potential cut to zero there (the flux route's)
     if free is None:
-        charge = atom.Z if atom.model is None else atom.model.charge          # the asymptotic charge
-        sigma = coulomb_phases(n_l - 1, k, charge, atom.reduced_mass)             # (L, n_E)
+        sigma = coulomb_phases(n_l - 1, k, atom.asymptotic_charge, atom.reduced_mass)     # (L, n_E)
     else:
         sigma = np.zeros((n_l, energies.size))
     amps = np.zeros((n_l, energies.size), complex)

@@ -199,8 +199,7 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
     energies = photoelectron_energies(settings, e_max) if methods else np.zeros(0)
     surface = 0.0
     if flux:
-        photons = [c.omega for c in pulse.components if c.omega > 0]
-        charge = (Z if atom.model is None else atom.model.charge) if photons and min(photons) < ip else 0.0
+        charge = atom.asymptotic_charge if multiphoton(pulse, ip) else 0.0
         surface = (settings.surface_radius if settings.surface_radius is not None
                    else default_surface_radius(alpha0, size, charge))
     if settings.r_max is not None:
@@ -325,6 +324,13 @@ def multiphoton_l(ip: float, up: float, omegas, l_initial: int = 0) -> int:
     if not photons:
         return 0
     return l_initial + math.ceil((ip + up) / min(photons) - 1e-9) + 3
+
+
+def multiphoton(pulse, ip: float) -> bool:
+    """Whether the lowest carrier's photon is below the ionisation potential (Rydberg states get
+    populated on the way up)."""
+    photons = [c.omega for c in pulse.components if c.omega > 0]
+    return bool(photons) and min(photons) < ip
 
 
 def photoelectron_radius(up: float, one_photon_energy: float, alpha0: float, window: float, mu: float) -> float:
@@ -861,9 +867,8 @@ class GridRoute(Route):
                                      "(the electron must be free beyond it)",
                                  fix=f"raise `solver.surface_radius` to at least "
                                      f"{2 * par.quiver_radius + self.taper_width:.0f} bohr"))
-        photons = [c.omega for c in self.pulse.components if c.omega > 0]
-        if photons and min(photons) < par.ip:                     # multiphoton: Rydberg states get populated
-            charge = self.atom.Z if self.atom.model is None else self.atom.model.charge
+        if multiphoton(self.pulse, par.ip):                       # Rydberg states get populated
+            charge = self.atom.asymptotic_charge
             n_cut = max(1, math.floor(math.sqrt(charge * (radius - self.taper_width) / 2)))
             checks.append(assess("rydberg_levels_cut", 1.0 / n_cut**3, soft=1.0 / RYDBERG_N_KEPT**3,
                                  key="solver.surface_radius",

@@ -778,7 +778,7 @@ class LevelsRoute(Route):
         measured = cfg is not None and cfg.solver.energies == "measured"
         levels = _LevelSource(atom, measured)
         ip = min(-levels.energy(s) for s, _ in initial)
-        charge = atom.Z if atom.model is None else atom.model.charge      # the ion's charge seen far out
+        charge = atom.asymptotic_charge
         f_bs = ip**2 / (4 * charge)
         total = sum(c.peak_field * abs(c.jones).max() for c in pulse.components)
         if total > f_bs:
