@@ -137,7 +137,7 @@ def converge(cfg, *, tol: float = 0.01, observable: str = "ionization", rounds: 
         for knob in knobs:
             if knob.name in changes and abs(changes[knob.name]) < tol / 10:
                 continue            # far inside the tolerance last round: its share stands
-            _, y, _ = run(base.model_copy(update=knob.refined()), f"{knob.name} refined to {knob.refine:.4g}")
+            _, y, _ = run(base.model_copy(update=knob.refined(base)), f"{knob.name} refined to {knob.refine:.4g}")
             changes[knob.name] = _change(y, y0)
             refined_values[knob.name] = y
             study.table.append({"knob": knob.name, "value": knob.value, "refined": knob.refine,
@@ -152,7 +152,8 @@ def converge(cfg, *, tol: float = 0.01, observable: str = "ionization", rounds: 
                 break
             bad.append(knob)
             rest -= errors[knob.name]
-        base = base.model_copy(update={key: v for k in bad for key, v in k.refined().items()})
+        for knob in sorted(bad, key=lambda k: bool(k.also)):      # the moves of `also` on top of the others
+            base = base.model_copy(update=knob.refined(base))
         for knob in bad:
             del changes[knob.name]                  # measured again from the new settings
         if len(bad) == 1:

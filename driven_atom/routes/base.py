@@ -149,11 +149,11 @@ class Knob:
     coarsen: float | None
     order: float | None
     cost: float
-    also: dict = field(default_factory=dict)      # settings that move with the refined value
+    also: dict = field(default_factory=dict)      # other settings that move by these amounts with it
 
-    def refined(self) -> dict:
-        """The settings update of the refinement."""
-        return {self.name: self.refine, **self.also}
+    def refined(self, settings) -> dict:
+        """The update of ``settings`` that refines this knob (the ``also`` settings moved by theirs)."""
+        return {self.name: self.refine, **{key: (getattr(settings, key) or 0.0) + step for key, step in self.also.items()}}
 
     def predicted_error(self, change: float) -> float:
         """Error at the current value from the change on refinement: change/(1 − 2^−p)."""

@@ -685,7 +685,7 @@ class GridRoute(Route):
         if "surface_flux" in settings.photoelectron_methods and settings.surface_radius:
             radius = settings.surface_radius
             knobs.append(Knob("surface_radius", radius, 1.5 * radius, None, None, 1.5,
-                              also={"r_max": settings.r_max + 0.5 * radius, "after": 1.5 * (settings.after or 0.0)}))
+                              also={"r_max": 0.5 * radius, "after": 0.5 * (settings.after or 0.0)}))
         return knobs
 
     @classmethod
