@@ -34,6 +34,9 @@ def test_job_states(tmp_path):
     Checkpoint(checkpoint_path(store.job_path(tmp_path, other)), physics_hash=other).save(
         {"psi": np.ones(3)}, {"step": 2})
     assert store.job_state(tmp_path, other).status == store.CHECKPOINTED
+    third = "0011223344556677"          # an m-averaged job with its m = 0 run kept (routes.m_part_path)
+    _done(tmp_path, third + ".m0.part")
+    assert store.job_state(tmp_path, third).status == store.CHECKPOINTED
 
 
 def test_failed_record_keeps_checkpoint(tmp_path):

@@ -150,7 +150,8 @@ def load_job(folder, job_id: str):
 
     path = job_path(folder, job_id)
     if not path.exists():
-        return JobState(CHECKPOINTED if checkpoint_path(path).exists() else PENDING), None
+        started = checkpoint_path(path).exists() or any(path.parent.glob(f"{job_id}.m*.part*.h5"))
+        return JobState(CHECKPOINTED if started else PENDING), None       # (m-averaged jobs keep parts)
     try:
         with h5py.File(path, "r") as f:
             complete = bool(f.attrs.get("complete", False)) and "sha256" in f.attrs
