@@ -875,7 +875,7 @@ class GridRoute(Route):
                                  why=f"1/n³ of the highest level the cut potential still holds (n = {n_cut}, 2n²/Z "
                                      f"inside the taper): population of the Rydberg levels above it counts as "
                                      f"ionised (800 nm, 1e14 W/cm², 2 cycles: n = 3 added 7 % to the yield; "
-                                     f"4 cycles: n = 6 added 0.7 %)",
+                                     f"4 cycles: n = 6 within 0.2 %)",
                                  fix=f"raise `solver.surface_radius` to at least "
                                      f"{2 * RYDBERG_N_KEPT**2 / charge + self.taper_width:.0f} bohr"))
         e_low = float(par.energies[0])
