@@ -109,6 +109,11 @@ class GridParameters:
     energies: tuple = ()            # photoelectron energies (hartree)
 
 
+def lowest_photon(pulse) -> float:
+    """The lowest carrier frequency of the pulse (hartree), 0 without one (a static field)."""
+    return min((c.omega for c in pulse.components if c.omega > 0), default=0.0)
+
+
 def _pulse_scales(atom, pulse) -> tuple[float, float, float, float]:
     """(α₀, Uₚ, ω_max, F_static): quiver radius and ponderomotive energy of the summed carriers
     (amplitudes add, lowest frequency) and the static field, for the defaults."""
@@ -118,7 +123,7 @@ def _pulse_scales(atom, pulse) -> tuple[float, float, float, float]:
     if not osc:
         return 0.0, 0.0, 0.0, static
     f = sum(c.peak_field for c in osc)
-    w = min(c.omega for c in osc)
+    w = lowest_photon(pulse)
     return f / (mu * w**2), f**2 / (4 * mu * w**2), max(c.omega for c in osc), static
 
 
@@ -238,7 +243,7 @@ def grid_parameters(atom, pulse, settings: GridSettings, n_initial: int = 1,
     else:
         factor = L_FACTOR[settings.gauge]
         l_max = max(8, l_initial + 6, math.ceil(factor * returning_l(alpha0, up, mu)),
-                    multiphoton_l(ip, up, [c.omega for c in pulse.components], l_initial))
+                    multiphoton_l(ip, up, lowest_photon(pulse), l_initial))
     if settings.dt is not None:
         dt_max = settings.dt
     else:
@@ -308,29 +313,27 @@ def returning_l(alpha0: float, up: float, mu: float) -> float:
     return alpha0 * math.sqrt(6.34 * mu * up)
 
 
-def multiphoton_l(ip: float, up: float, omegas, l_initial: int = 0) -> int:
+def multiphoton_l(ip: float, up: float, omega: float, l_initial: int = 0) -> int:
     """Partial waves that n-photon ionisation reaches: each photon changes l by one (the dipole
-    rule), and n = ⌈(Iₚ + Uₚ)/ω⌉ photons of the lowest carrier cross the shifted threshold; three
+    rule), and n = ⌈(Iₚ + Uₚ)/ω⌉ photons of the lowest carrier ω cross the shifted threshold; three
     more for the first above-threshold orders. Below the tunnelling regime this, not the returning
     angular momentum, sets l_max (800 nm, 3.85e13 W/cm², 8 cycles: l_max = 8 left the yield 3.6 %
     low; 14 and 20 agree to 1e-5).
 
-    >>> multiphoton_l(0.5, 0.0845, [0.057])
+    >>> multiphoton_l(0.5, 0.0845, 0.057)
     14
-    >>> multiphoton_l(0.5, 0.0, [1.0])                       # one photon
+    >>> multiphoton_l(0.5, 0.0, 1.0)                         # one photon
     4
     """
-    photons = [c for c in omegas if c > 0]
-    if not photons:
+    if omega <= 0:
         return 0
-    return l_initial + math.ceil((ip + up) / min(photons) - 1e-9) + 3
+    return l_initial + math.ceil((ip + up) / omega - 1e-9) + 3
 
 
 def multiphoton(pulse, ip: float) -> bool:
     """Whether the lowest carrier's photon is below the ionisation potential (Rydberg states get
     populated on the way up)."""
-    photons = [c.omega for c in pulse.components if c.omega > 0]
-    return bool(photons) and min(photons) < ip
+    return 0 < lowest_photon(pulse) < ip
 
 
 def photoelectron_radius(up: float, one_photon_energy: float, alpha0: float, window: float, mu: float) -> float:
@@ -777,15 +780,15 @@ class GridRoute(Route):
         self.flux = None
         self.stepper = _Stepper(grid, atom, n_l, par.dt, mask, s.threads, gauge=s.gauge, surface_row=surface_row)
         if surface_row >= 0:
-            self._prepare_flux(surface_row)
+            self._prepare_flux()
 
-    def _prepare_flux(self, row: int) -> None:
+    def _prepare_flux(self) -> None:
         """The tapered potential, the flux accumulator and the sample plan of "surface_flux"."""
         from driven_atom.observables.photoelectron import emission_angles
         from driven_atom.observables.surface_flux import SurfaceFlux, trapezoid_weights, volkov_integral
 
         par, grid, pulse = self.par, self.grid, self.pulse
-        radius = (row + 1) * grid.dr
+        radius = self.bound_atom.radius                            # on the grid row of the sphere
         self.stepper.taper(*potential_taper(grid.r, radius, self.taper_width))
         x, _ = emission_angles(self._angles(par))
         self.flux = SurfaceFlux(np.asarray(par.energies), x, radius=radius, l_max=par.l_max,
